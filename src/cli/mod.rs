@@ -1,0 +1,110 @@
+//! The command-line shell: parses arguments (clap), calls the library, maps outcomes to exit
+//! codes (0 success, 1 invalid data or failed job, 2 usage error). Each command lives in its
+//! own file with its own `Args` struct and `run`.
+
+pub mod check;
+pub mod fit;
+pub mod marks;
+pub mod model;
+pub mod review;
+pub mod simulate;
+pub mod summary;
+
+use clap::{Parser, Subcommand};
+use std::fmt;
+
+#[derive(Parser, Debug)]
+#[command(
+    name = "trialdesk",
+    version,
+    about = "Review, mark and model Pavlovian conditioning sessions recorded with dopamine activity"
+)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+pub enum Command {
+    /// Step through trials in the terminal, mark and annotate them
+    Review(review::Args),
+    /// Fit the TD model across all sessions of a subject, honouring marks
+    Fit(fit::Args),
+    /// Evaluate the model at given parameters and write per-bin traces
+    Model(model::Args),
+    /// Validate data files; every problem as file:line: what is wrong
+    Check(check::Args),
+    /// Write a synthetic subject from a known model
+    Simulate(simulate::Args),
+    /// Print or export the current marks of a session or subject
+    Marks(marks::Args),
+    /// Per-day learning table as plain text or CSV
+    Summary(summary::Args),
+}
+
+/// A failed command: its exit code and the message for stderr.
+#[derive(Debug)]
+pub struct CliError {
+    pub code: i32,
+    pub message: String,
+}
+
+impl CliError {
+    /// Invalid data or a failed job (exit 1).
+    pub fn failed(message: impl Into<String>) -> Self {
+        CliError {
+            code: 1,
+            message: message.into(),
+        }
+    }
+    /// A usage error (exit 2).
+    pub fn usage(message: impl Into<String>) -> Self {
+        CliError {
+            code: 2,
+            message: message.into(),
+        }
+    }
+}
+
+impl fmt::Display for CliError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(&self.message)
+    }
+}
+
+impl From<std::io::Error> for CliError {
+    fn from(e: std::io::Error) -> Self {
+        CliError::failed(e.to_string())
+    }
+}
+
+/// What a command returns: `Ok(code)` (0, or 1 for "ran, found problems").
+pub type CmdResult = Result<i32, CliError>;
+
+/// Entry point of the binary; returns the process exit code.
+pub fn main() -> i32 {
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        Err(e) => {
+            let code = if e.use_stderr() { 2 } else { 0 };
+            let _ = e.print();
+            return code;
+        }
+    };
+    let result = match cli.command {
+        Command::Review(a) => review::run(a),
+        Command::Fit(a) => fit::run(a),
+        Command::Model(a) => model::run(a),
+        Command::Check(a) => check::run(a),
+        Command::Simulate(a) => simulate::run(a),
+        Command::Marks(a) => marks::run(a),
+        Command::Summary(a) => summary::run(a),
+    };
+    match result {
+        Ok(code) => code,
+        Err(e) => {
+            eprintln!("trialdesk: {}", e.message);
+            e.code
+        }
+    }
+}

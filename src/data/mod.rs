@@ -1,0 +1,123 @@
+//! Typed session data: what a subject, a session and a trial are, as loaded from the folder
+//! layout fixed in the design brief.
+//!
+//! Start at [`load`] (a subject or session folder → [`Subject`]); `check` reuses the same
+//! readers to list every problem. All times are seconds on the session clock.
+
+pub mod diag;
+pub mod load;
+
+pub use diag::{Diagnostic, Severity};
+pub use load::{load, LoadFailure, Loaded};
+
+use std::path::PathBuf;
+
+/// All sessions of one animal, in training order (date, start_time, folder name; a session
+/// without start_time comes first on its date).
+#[derive(Debug, Clone, Default)]
+pub struct Subject {
+    /// The folder that was opened (a subject folder, or one session folder).
+    pub root: PathBuf,
+    pub sessions: Vec<Session>,
+}
+
+#[derive(Debug, Clone)]
+pub struct Session {
+    /// The session folder.
+    pub dir: PathBuf,
+    /// The session folder's name: the `session` column of every output table.
+    pub name: String,
+    pub meta: SessionMeta,
+    /// In `trial` order.
+    pub trials: Vec<Trial>,
+    pub spikes: Option<Spikes>,
+    /// Lick times, sorted.
+    pub licks: Option<Vec<f64>>,
+    pub photometry: Option<Photometry>,
+}
+
+/// The contents of `session.toml`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SessionMeta {
+    pub subject: String,
+    /// ISO date `YYYY-MM-DD` (validated on load, kept as text; it sorts correctly).
+    pub date: String,
+    /// `HH:MM:SS` when given.
+    pub start_time: Option<String>,
+    pub rig: Option<String>,
+    pub cues: Vec<CueDef>,
+}
+
+/// One `[[cue]]` table.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CueDef {
+    pub name: String,
+    /// Cue onset → reward on rewarded trials; `None` when the cue is never rewarded.
+    pub reward_delay_s: Option<f64>,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Trial {
+    /// The `trial` column (unique, increasing).
+    pub number: i64,
+    /// Index into `SessionMeta::cues`; `None` for an uncued reward.
+    pub cue: Option<usize>,
+    pub cue_s: Option<f64>,
+    pub reward_s: Option<f64>,
+    /// 0 when no reward.
+    pub reward_ul: f64,
+}
+
+/// Sorted single units: spike times per unit, each list sorted.
+#[derive(Debug, Clone, Default)]
+pub struct Spikes {
+    pub units: Vec<String>,
+    pub times: Vec<Vec<f64>>,
+}
+
+/// Continuous dopamine-sensor trace (and optional isosbestic control), on one time base.
+#[derive(Debug, Clone, Default)]
+pub struct Photometry {
+    pub time_s: Vec<f64>,
+    pub signal: Vec<f64>,
+    pub control: Option<Vec<f64>>,
+}
+
+impl Session {
+    /// The session sort key of the brief: (date, start_time with "none" first, folder name).
+    pub fn order_key(&self) -> (String, bool, String, String) {
+        (
+            self.meta.date.clone(),
+            self.meta.start_time.is_some(),
+            self.meta.start_time.clone().unwrap_or_default(),
+            self.name.clone(),
+        )
+    }
+
+    pub fn cue_name(&self, trial: &Trial) -> Option<&str> {
+        trial.cue.map(|c| self.meta.cues[c].name.as_str())
+    }
+
+    /// Cue onset → expected reward for this trial's cue (0 for uncued trials or unrewarded cues).
+    pub fn reward_delay(&self, trial: &Trial) -> f64 {
+        trial
+            .cue
+            .and_then(|c| self.meta.cues[c].reward_delay_s)
+            .unwrap_or(0.0)
+    }
+}
+
+impl Subject {
+    /// Cue names across all sessions, in first-seen order; the model gives each its own features.
+    pub fn cue_names(&self) -> Vec<String> {
+        let mut names: Vec<String> = Vec::new();
+        for s in &self.sessions {
+            for c in &s.meta.cues {
+                if !names.contains(&c.name) {
+                    names.push(c.name.clone());
+                }
+            }
+        }
+        names
+    }
+}

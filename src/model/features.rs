@@ -1,0 +1,185 @@
+//! Stimulus representations: which features are active in bin k of a trial, and how much.
+//!
+//! Features are sparse: a bin touches at most one cue's features plus the reward's
+//! microstimuli, so the learner only ever visits those.
+
+use super::layout::TrialSpan;
+
+/// Parameters of the microstimulus representation (Ludvig, Sutton & Kehoe 2008).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct MicrostimulusParams {
+    /// Number of microstimuli per stimulus.
+    pub m: usize,
+    /// Width of each basis function on the trace-height axis.
+    pub sigma: f64,
+    /// Trace decay per 50 ms; rescaled for other bin widths as d^(dt/0.05).
+    pub decay_per_50ms: f64,
+}
+
+impl Default for MicrostimulusParams {
+    fn default() -> Self {
+        MicrostimulusParams {
+            m: 20,
+            sigma: 0.08,
+            decay_per_50ms: 0.985,
+        }
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Representation {
+    /// Complete serial compound: one feature per cue and bin index.
+    Csc,
+    /// One feature per cue, 1 in every bin of its trials.
+    Presence,
+    Microstimulus(MicrostimulusParams),
+}
+
+impl Representation {
+    pub fn name(&self) -> &'static str {
+        match self {
+            Representation::Csc => "csc",
+            Representation::Presence => "presence",
+            Representation::Microstimulus(_) => "microstimulus",
+        }
+    }
+
+    pub fn parse(s: &str) -> Option<Representation> {
+        match s {
+            "csc" => Some(Representation::Csc),
+            "presence" => Some(Representation::Presence),
+            "microstimulus" | "ms" => Some(Representation::Microstimulus(Default::default())),
+            _ => None,
+        }
+    }
+}
+
+/// Microstimulus heights x(i), i = 1..m, for a trace of height y.
+pub fn microstimuli(y: f64, p: &MicrostimulusParams, out: &mut Vec<f64>) {
+    let norm = 1.0 / (2.0 * std::f64::consts::PI).sqrt();
+    out.clear();
+    for i in 1..=p.m {
+        let c = i as f64 / p.m as f64;
+        out.push(y * norm * (-(y - c).powi(2) / (2.0 * p.sigma * p.sigma)).exp());
+    }
+}
+
+/// The feature space of one subject under one representation: its size and, per bin, the
+/// active (index, value) pairs.
+#[derive(Debug, Clone)]
+pub struct FeatureSpace {
+    repr: Representation,
+    n_cues: usize,
+    /// CSC: first feature index of each cue's delay line, and the line's length.
+    csc_offset: Vec<usize>,
+    /// Microstimulus heights by bins since onset: `ms_table[k * m + i]`.
+    ms_table: Vec<f64>,
+    ms_m: usize,
+    size: usize,
+}
+
+impl FeatureSpace {
+    pub fn new(spans: &[TrialSpan], n_cues: usize, repr: Representation, dt: f64) -> Self {
+        let max_bins = spans.iter().map(|s| s.n_bins).max().unwrap_or(0);
+        let mut fs = FeatureSpace {
+            repr,
+            n_cues,
+            csc_offset: Vec::new(),
+            ms_table: Vec::new(),
+            ms_m: 0,
+            size: 0,
+        };
+        match repr {
+            Representation::Csc => {
+                let mut len = vec![0usize; n_cues];
+                for s in spans {
+                    if let Some(c) = s.cue {
+                        len[c] = len[c].max(s.n_bins);
+                    }
+                }
+                let mut off = 0;
+                for l in len {
+                    fs.csc_offset.push(off);
+                    off += l;
+                }
+                fs.size = off;
+            }
+            Representation::Presence => fs.size = n_cues,
+            Representation::Microstimulus(p) => {
+                let d = p.decay_per_50ms.powf(dt / 0.05);
+                let mut buf = Vec::with_capacity(p.m);
+                for k in 0..max_bins {
+                    microstimuli(d.powi(k as i32), &p, &mut buf);
+                    fs.ms_table.extend_from_slice(&buf);
+                }
+                fs.ms_m = p.m;
+                fs.size = (n_cues + 1) * p.m;
+            }
+        }
+        fs
+    }
+
+    /// Number of weights.
+    pub fn size(&self) -> usize {
+        self.size
+    }
+
+    /// Append the active features of bin `k` of `span` to `out`.
+    #[inline]
+    pub fn active(&self, span: &TrialSpan, k: usize, out: &mut Vec<(u32, f64)>) {
+        match self.repr {
+            Representation::Csc => {
+                if let Some(c) = span.cue {
+                    out.push(((self.csc_offset[c] + k) as u32, 1.0));
+                }
+            }
+            Representation::Presence => {
+                if let Some(c) = span.cue {
+                    out.push((c as u32, 1.0));
+                }
+            }
+            Representation::Microstimulus(_) => {
+                let m = self.ms_m;
+                if let Some(c) = span.cue {
+                    let row = &self.ms_table[k * m..(k + 1) * m];
+                    out.extend(
+                        row.iter()
+                            .enumerate()
+                            .map(|(i, &v)| ((c * m + i) as u32, v)),
+                    );
+                }
+                if let Some(rb) = span.reward_bin {
+                    if k >= rb {
+                        let row = &self.ms_table[(k - rb) * m..(k - rb + 1) * m];
+                        let base = self.n_cues * m;
+                        out.extend(row.iter().enumerate().map(|(i, &v)| ((base + i) as u32, v)));
+                    }
+                }
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Check values from ../shared/methods.md §3.5 (computed, m = 10, σ = 0.08, d = 0.985).
+    #[test]
+    fn microstimulus_heights_match_worked_values() {
+        let p = MicrostimulusParams {
+            m: 10,
+            sigma: 0.08,
+            decay_per_50ms: 0.985,
+        };
+        let mut x = Vec::new();
+        microstimuli(1.0, &p, &mut x);
+        assert!((x[9] - 0.39894).abs() < 1e-5);
+        assert!((x[8] - 0.18265).abs() < 1e-5);
+        assert!((x[7] - 0.01753).abs() < 1e-5);
+        microstimuli(0.985f64.powi(20), &p, &mut x);
+        assert!((x[6] - 0.26162).abs() < 1e-5);
+        assert!((x[7] - 0.22077).abs() < 1e-5);
+        assert!((x[5] - 0.06498).abs() < 1e-5);
+    }
+}

@@ -1,0 +1,1 @@
+//! Trial-level Rescorla–Wagner baseline (Rescorla & Wagner 1972).
