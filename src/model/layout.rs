@@ -34,36 +34,76 @@ pub fn base_bins(delay: f64, dt: f64) -> usize {
     ((delay + POST_S) / dt - BIN_EPS).ceil().max(1.0) as usize
 }
 
+/// A trial the model cannot place on a time line (which `check` rejects): left out of the
+/// spans and reported so the shell can say so.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SkippedTrial {
+    /// Index into `Subject::sessions`.
+    pub session: usize,
+    /// Index into that session's `trials`.
+    pub trial: usize,
+    pub reason: &'static str,
+}
+
 /// Spans for every trial of every session, in training order. Trials with neither cue nor
 /// reward (which `check` rejects) and rewards before the cue are skipped rather than guessed at.
 pub fn layout_subject(subject: &Subject, dt: f64) -> Vec<TrialSpan> {
+    layout_subject_with_skips(subject, dt).0
+}
+
+/// As [`layout_subject`], also listing the trials it left out and why.
+///
+/// Training order is imposed here, not trusted to the caller: sessions by
+/// [`Session::order_key`] (date, start_time with none first, folder name), trials by number.
+/// Both sorts are stable and cost nothing when the loader already ordered them.
+pub fn layout_subject_with_skips(
+    subject: &Subject,
+    dt: f64,
+) -> (Vec<TrialSpan>, Vec<SkippedTrial>) {
     let names = subject.cue_names();
     let mut out = Vec::new();
-    for (si, session) in subject.sessions.iter().enumerate() {
+    let mut skipped = Vec::new();
+    let mut session_order: Vec<usize> = (0..subject.sessions.len()).collect();
+    session_order.sort_by_cached_key(|&i| subject.sessions[i].order_key());
+    for si in session_order {
+        let session = &subject.sessions[si];
         let cue_map: Vec<usize> = session
             .meta
             .cues
             .iter()
             .map(|c| names.iter().position(|n| n == &c.name).unwrap_or(0))
             .collect();
-        for (ti, trial) in session.trials.iter().enumerate() {
-            if let Some(span) = layout_trial(session, trial, &cue_map, dt) {
-                out.push(TrialSpan {
+        let mut trial_order: Vec<usize> = (0..session.trials.len()).collect();
+        trial_order.sort_by_key(|&i| session.trials[i].number);
+        for ti in trial_order {
+            match layout_trial(session, &session.trials[ti], &cue_map, dt) {
+                Ok(span) => out.push(TrialSpan {
                     session: si,
                     trial: ti,
                     ..span
-                });
+                }),
+                Err(reason) => skipped.push(SkippedTrial {
+                    session: si,
+                    trial: ti,
+                    reason,
+                }),
             }
         }
     }
-    out
+    (out, skipped)
 }
 
-fn layout_trial(session: &Session, trial: &Trial, cue_map: &[usize], dt: f64) -> Option<TrialSpan> {
+fn layout_trial(
+    session: &Session,
+    trial: &Trial,
+    cue_map: &[usize],
+    dt: f64,
+) -> Result<TrialSpan, &'static str> {
     let (t0, cue) = match (trial.cue, trial.cue_s, trial.reward_s) {
         (Some(c), Some(cs), _) => (cs, Some(cue_map[c])),
+        (Some(_), None, _) => return Err("cue named but no cue_s"),
         (None, _, Some(rs)) => (rs, None),
-        _ => return None,
+        (None, _, None) => return Err("neither cue nor reward"),
     };
     let delay = session.reward_delay(trial);
     let mut n_bins = base_bins(delay, dt);
@@ -71,7 +111,7 @@ fn layout_trial(session: &Session, trial: &Trial, cue_map: &[usize], dt: f64) ->
         Some(rs) => {
             let b = bin_of(rs, t0, dt);
             if b < 0 {
-                return None;
+                return Err("reward before the cue");
             }
             let b = b as usize;
             n_bins = n_bins.max(b + 1);
@@ -82,13 +122,14 @@ fn layout_trial(session: &Session, trial: &Trial, cue_map: &[usize], dt: f64) ->
     let expected_reward_bin = trial
         .cue
         .and_then(|c| session.meta.cues[c].reward_delay_s)
-        .map(|d| bin_of(t0 + d, t0, dt).max(0) as usize)
+        // From the delay itself: (t0 + d) − t0 need not equal d in f64.
+        .map(|d| bin_of(d, 0.0, dt).max(0) as usize)
         .or(if trial.cue.is_none() {
             reward_bin
         } else {
             None
         });
-    Some(TrialSpan {
+    Ok(TrialSpan {
         session: 0,
         trial: 0,
         t0,

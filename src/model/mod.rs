@@ -3,17 +3,18 @@
 //!
 //! Flow: [`layout::layout_subject`] turns trials into spans of time bins, [`features`] gives the
 //! stimulus representation of each bin, [`td::run`] walks every span in training order with
-//! weights carried over and returns per-bin value and δ. The simulator and the fitter call the
-//! same `td::run`.
+//! weights carried over and returns per-bin value and δ. The per-step rule is [`td::Learner`],
+//! shared with the textbook checks. [`rw::run`] walks the same spans at trial level. The
+//! simulator and the fitter call the same `td::run` / `td::run_in`.
 
 pub mod features;
 pub mod layout;
 pub mod rw;
 pub mod td;
 
-pub use features::{MicrostimulusParams, Representation};
-pub use layout::{layout_subject, TrialSpan};
-pub use td::{run, TdParams, TdRun};
+pub use features::{FeatureSpace, MicrostimulusParams, Representation};
+pub use layout::{layout_subject, layout_subject_with_skips, SkippedTrial, TrialSpan};
+pub use td::{run, run_in, Learner, TdParams, TdRun};
 
 /// Default model bin width, seconds.
 pub const DEFAULT_DT: f64 = 0.05;

@@ -3,6 +3,10 @@
 //! Per trial: e = 0, x₋₁ = 0, x_K = 0, r_K = 0; for k = 0..K with w as it stands:
 //! δ_k = r_k + γ·w·x_k − w·x_{k−1}; e ← γλ·e + x_{k−1}; w ← w + α·δ_k·e
 //! (Sutton & Barto 2018 convention, as fixed in the design brief).
+//!
+//! The per-step rule lives in [`Learner`], which knows nothing about trials: [`run_in`] drives
+//! it over the bins of each span, and the tests drive the very same code through textbook
+//! tabular tasks (S&B Example 6.2).
 
 use super::features::{FeatureSpace, Representation};
 use super::layout::TrialSpan;
@@ -30,6 +34,110 @@ impl Default for TdParams {
             dt: DEFAULT_DT,
             representation: Representation::Csc,
         }
+    }
+}
+
+/// A sparse feature vector: (feature index, value) pairs, indices distinct.
+pub type Sparse = [(u32, f64)];
+
+/// What one learner step saw: `value` = w·x_cur before the update, `delta` = the TD error.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Step {
+    pub value: f64,
+    pub delta: f64,
+}
+
+/// Linear TD(λ) with accumulating traces over sparse features.
+///
+/// The trace is kept sparse too: `active` lists the features with a (possibly decayed)
+/// non-zero trace since the last [`Learner::reset_trace`], so a step costs O(active), not
+/// O(features).
+#[derive(Debug, Clone)]
+pub struct Learner {
+    w: Vec<f64>,
+    e: Vec<f64>,
+    in_trace: Vec<bool>,
+    active: Vec<u32>,
+    alpha: f64,
+    gamma: f64,
+    /// γλ, the per-step trace decay.
+    decay: f64,
+}
+
+impl Learner {
+    /// A learner with `n` weights, all zero.
+    pub fn new(n: usize, alpha: f64, gamma: f64, lambda: f64) -> Self {
+        Learner::with_weights(vec![0.0; n], alpha, gamma, lambda)
+    }
+
+    /// A learner starting from the given weights (e.g. tabular values initialised to 0.5).
+    pub fn with_weights(w: Vec<f64>, alpha: f64, gamma: f64, lambda: f64) -> Self {
+        let n = w.len();
+        Learner {
+            w,
+            e: vec![0.0; n],
+            in_trace: vec![false; n],
+            active: Vec::new(),
+            alpha,
+            gamma,
+            decay: gamma * lambda,
+        }
+    }
+
+    pub fn weights(&self) -> &[f64] {
+        &self.w
+    }
+
+    pub fn into_weights(self) -> Vec<f64> {
+        self.w
+    }
+
+    /// w·x with the weights as they stand.
+    #[inline]
+    pub fn value(&self, x: &Sparse) -> f64 {
+        x.iter().map(|&(i, v)| self.w[i as usize] * v).sum()
+    }
+
+    /// e ← 0 (start of an episode / trial).
+    pub fn reset_trace(&mut self) {
+        for &i in &self.active {
+            self.e[i as usize] = 0.0;
+            self.in_trace[i as usize] = false;
+        }
+        self.active.clear();
+    }
+
+    /// One transition x_prev → x_cur with reward `r` on entering x_cur (empty `x_cur` is the
+    /// terminal state, empty `x_prev` the inter-trial state):
+    /// δ = r + γ·w·x_cur − w·x_prev; e ← γλ·e + x_prev; w ← w + α·δ·e.
+    #[inline]
+    pub fn step(&mut self, x_prev: &Sparse, x_cur: &Sparse, r: f64) -> Step {
+        let value = self.value(x_cur);
+        let delta = r + self.gamma * value - self.value(x_prev);
+        if self.decay == 0.0 {
+            // γλ = 0: the trace is exactly x_prev; forgetting the old entries is cheaper than
+            // multiplying them by zero.
+            self.reset_trace();
+        } else {
+            for &i in &self.active {
+                self.e[i as usize] *= self.decay;
+            }
+        }
+        for &(i, v) in x_prev {
+            let iu = i as usize;
+            self.e[iu] += v;
+            if !self.in_trace[iu] {
+                self.in_trace[iu] = true;
+                self.active.push(i);
+            }
+        }
+        let step = self.alpha * delta;
+        if step != 0.0 {
+            for &i in &self.active {
+                self.w[i as usize] += step * self.e[i as usize];
+            }
+        }
+        Step { value, delta }
     }
 }
 
@@ -63,29 +171,18 @@ pub fn run(spans: &[TrialSpan], n_cues: usize, params: &TdParams) -> TdRun {
 /// As [`run`], with a feature space built once (the fitter calls this many times).
 pub fn run_in(space: &FeatureSpace, spans: &[TrialSpan], params: &TdParams) -> TdRun {
     let total: usize = spans.iter().map(|s| s.n_bins).sum();
-    let mut out = TdRun {
-        offsets: Vec::with_capacity(spans.len() + 1),
-        value: Vec::with_capacity(total),
-        delta: Vec::with_capacity(total),
-        weights: vec![0.0; space.size()],
-    };
-    let w = &mut out.weights;
-    let mut e = vec![0.0; space.size()];
-    let mut in_trace = vec![false; space.size()];
-    let mut active_e: Vec<u32> = Vec::new();
+    let mut offsets = Vec::with_capacity(spans.len() + 1);
+    let mut value = Vec::with_capacity(total);
+    let mut delta = Vec::with_capacity(total);
+    let mut learner = Learner::new(space.size(), params.alpha, params.gamma, params.lambda);
     let mut prev: Vec<(u32, f64)> = Vec::new();
     let mut cur: Vec<(u32, f64)> = Vec::new();
-    let decay = params.gamma * params.lambda;
-    let dot = |w: &[f64], x: &[(u32, f64)]| x.iter().map(|&(i, v)| w[i as usize] * v).sum::<f64>();
 
-    out.offsets.push(0);
+    offsets.push(0);
     for span in spans {
-        for &i in &active_e {
-            e[i as usize] = 0.0;
-            in_trace[i as usize] = false;
-        }
-        active_e.clear();
+        learner.reset_trace();
         prev.clear();
+        // k = K is the terminal step: x_K = 0, r_K = 0, its δ updates w but is not a bin.
         for k in 0..=span.n_bins {
             cur.clear();
             if k < span.n_bins {
@@ -96,43 +193,21 @@ pub fn run_in(space: &FeatureSpace, spans: &[TrialSpan], params: &TdParams) -> T
             } else {
                 0.0
             };
-            let v_cur = dot(w, &cur);
-            let v_prev = dot(w, &prev);
-            let delta = r + params.gamma * v_cur - v_prev;
+            let s = learner.step(&prev, &cur, r);
             if k < span.n_bins {
-                out.value.push(v_cur);
-                out.delta.push(delta);
-            }
-            // e ← γλ·e + x_{k−1}
-            if decay == 0.0 {
-                for &i in &active_e {
-                    e[i as usize] = 0.0;
-                    in_trace[i as usize] = false;
-                }
-                active_e.clear();
-            } else {
-                for &i in &active_e {
-                    e[i as usize] *= decay;
-                }
-            }
-            for &(i, v) in &prev {
-                e[i as usize] += v;
-                if !in_trace[i as usize] {
-                    in_trace[i as usize] = true;
-                    active_e.push(i);
-                }
-            }
-            let step = params.alpha * delta;
-            if step != 0.0 {
-                for &i in &active_e {
-                    w[i as usize] += step * e[i as usize];
-                }
+                value.push(s.value);
+                delta.push(s.delta);
             }
             std::mem::swap(&mut prev, &mut cur);
         }
-        out.offsets.push(out.value.len());
+        offsets.push(value.len());
     }
-    out
+    TdRun {
+        offsets,
+        value,
+        delta,
+        weights: learner.into_weights(),
+    }
 }
 
 #[cfg(test)]
@@ -171,5 +246,44 @@ mod tests {
             let want = 0.1 * gl.powi(j as i32);
             assert!((r.weights[2 - j] - want).abs() < 1e-12, "j={j}");
         }
+        // Same numbers as methods.md §3.3 lists: 0.1, 0.0882, 0.0778 (rounded).
+        assert!((r.weights[1] - 0.0882).abs() < 5e-5);
+        assert!((r.weights[0] - 0.0778).abs() < 5e-5);
+    }
+
+    /// The terminal step (x_K = 0) updates w: with `presence` (one weight for every bin) a
+    /// two-bin trial rewarded in bin 1 gives δ_1 = 1 → w = 0.5, then δ_K = 0 − w·x_1 = −0.5
+    /// → w = 0.25. Without the terminal step the next trial would start from 0.5.
+    #[test]
+    fn terminal_step_updates_weights() {
+        let spans = vec![span(2, Some(0), Some(1)); 2];
+        let p = TdParams {
+            alpha: 0.5,
+            gamma: 1.0,
+            representation: Representation::Presence,
+            ..Default::default()
+        };
+        let r = run(&spans, 1, &p);
+        assert_eq!(r.trial_delta(0), &[0.0, 1.0]);
+        assert_eq!(r.trial_value(1), &[0.25, 0.25]);
+        // Trial 2: δ_0 = γ·0.25 − 0 (x₋₁ = 0); δ_1 = 1 + 0.25 − 0.25.
+        assert_eq!(r.trial_delta(1), &[0.25, 1.0]);
+    }
+
+    /// A λ > 0 trace must not leak from one trial into the next.
+    #[test]
+    fn trace_resets_between_trials() {
+        let p = TdParams {
+            alpha: 0.1,
+            gamma: 0.9,
+            lambda: 0.9,
+            ..Default::default()
+        };
+        // Trial 1 builds a trace on cue 0; trial 2 (uncued reward, all-zero csc features)
+        // must leave cue 0's weights untouched.
+        let a = run(&[span(4, Some(0), Some(2))], 1, &p);
+        let b = run(&[span(4, Some(0), Some(2)), span(4, None, Some(0))], 1, &p);
+        assert_eq!(a.weights, b.weights);
+        assert_eq!(b.trial_delta(1), &[1.0, 0.0, 0.0, 0.0]);
     }
 }
