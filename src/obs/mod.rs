@@ -1,1 +1,298 @@
-//! (in progress)
+//! Per-trial observations: the measurement layer shared by the fitter, the summary and the
+//! reviewer.
+//!
+//! Start at [`observe`]: one [`TrialObs`] per model trial span (same order as
+//! [`crate::model::layout_subject`]) holding the cue response, the reward response (after the
+//! delivered reward, or after the *expected* reward time on omission trials) and the
+//! anticipatory lick rate. A response is mean activity in a window after the event minus mean
+//! activity in a baseline window before the trial's alignment time (cue onset; the reward for
+//! uncued trials). [`activity`] counts spikes and averages photometry; [`photometry`] is the
+//! seam where ΔF/F preprocessing plugs in; [`window`] maps observation windows onto model bins
+//! (the fitter and the summary must use the very same mapping).
+
+pub mod activity;
+pub mod photometry;
+pub mod window;
+
+pub use activity::{activity_trace, SessionActivity};
+pub use photometry::photometry_activity;
+pub use window::{event_bins, window_bins, window_delta_sums, WindowDeltas};
+
+use crate::data::{Session, Subject, Trial};
+use crate::model::{layout_subject, DEFAULT_DT};
+
+/// Which recorded activity a response is measured on.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Signal {
+    /// Sorted single units. `unit: None` = population mean rate across all units of a session.
+    Spikes { unit: Option<String> },
+    /// The photometry trace as given by [`photometry_activity`].
+    Photometry,
+}
+
+impl Signal {
+    /// Short label for headers and messages ("population rate", "unit u3", "photometry").
+    pub fn label(&self) -> String {
+        match self {
+            Signal::Spikes { unit: None } => "population rate (spikes/s)".to_string(),
+            Signal::Spikes { unit: Some(u) } => format!("unit {u} rate (spikes/s)"),
+            Signal::Photometry => "photometry signal".to_string(),
+        }
+    }
+}
+
+/// Windows in seconds relative to their event; `baseline` is relative to the alignment time
+/// (cue onset; the reward on uncued trials). `latency` only shifts the mapping onto model
+/// bins ([`window_bins`]): responses themselves are measured in the windows as given.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ObsOptions {
+    pub signal: Signal,
+    pub cue_window: (f64, f64),
+    pub reward_window: (f64, f64),
+    pub baseline: (f64, f64),
+    pub latency: f64,
+}
+
+impl Default for ObsOptions {
+    /// Spiking population; cue and reward windows 50–350 ms after the event, baseline the
+    /// second before cue onset, latency 50 ms. Dopamine neurons answer within < 100 ms and for
+    /// < 200 ms, measured in a 0–300 ms window (Schultz 2007, Scholarpedia 2:2184; methods.md
+    /// §6); starting at the 50 ms latency keeps the pre-response bins out.
+    fn default() -> Self {
+        ObsOptions {
+            signal: Signal::Spikes { unit: None },
+            cue_window: (0.05, 0.35),
+            reward_window: (0.05, 0.35),
+            baseline: (-1.0, 0.0),
+            latency: 0.05,
+        }
+    }
+}
+
+impl ObsOptions {
+    /// Defaults for a photometry sensor, whose transients are slower than spikes: windows
+    /// 0–1 s after the event, baseline the second before cue onset, latency 0 (methods.md §6,
+    /// from memory there, marked [M]).
+    pub fn photometry() -> Self {
+        ObsOptions {
+            signal: Signal::Photometry,
+            cue_window: (0.0, 1.0),
+            reward_window: (0.0, 1.0),
+            baseline: (-1.0, 0.0),
+            latency: 0.0,
+        }
+    }
+
+    /// Every window must be finite with start < end; the latency finite.
+    pub fn validate(&self) -> Result<(), ObsError> {
+        for (name, w) in [
+            ("cue window", self.cue_window),
+            ("reward window", self.reward_window),
+            ("baseline", self.baseline),
+        ] {
+            if !(w.0.is_finite() && w.1.is_finite()) {
+                return Err(ObsError::InvalidWindow {
+                    name,
+                    window: w,
+                    reason: "bounds must be finite numbers of seconds".into(),
+                });
+            }
+            if w.0 >= w.1 {
+                return Err(ObsError::InvalidWindow {
+                    name,
+                    window: w,
+                    reason: "start must be before end".into(),
+                });
+            }
+        }
+        if !self.latency.is_finite() {
+            return Err(ObsError::InvalidWindow {
+                name: "latency",
+                window: (self.latency, self.latency),
+                reason: "latency must be a finite number of seconds".into(),
+            });
+        }
+        Ok(())
+    }
+}
+
+/// What happened on a trial, from the trial table and the cue definitions.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum TrialKind {
+    /// Cue, then the reward was delivered.
+    Rewarded,
+    /// Cue with a reward delay, but no reward this time.
+    Omission,
+    /// Cue that is never rewarded (no `reward_delay_s`) and no reward.
+    UnrewardedCue,
+    /// Reward without a cue.
+    UncuedReward,
+}
+
+impl TrialKind {
+    pub fn of(session: &Session, trial: &Trial) -> Option<TrialKind> {
+        match (trial.cue.is_some(), trial.reward_s.is_some()) {
+            (true, true) => Some(TrialKind::Rewarded),
+            (true, false) if expected_reward_time(session, trial).is_some() => {
+                Some(TrialKind::Omission)
+            }
+            (true, false) => Some(TrialKind::UnrewardedCue),
+            (false, true) => Some(TrialKind::UncuedReward),
+            (false, false) => None,
+        }
+    }
+
+    pub fn name(&self) -> &'static str {
+        match self {
+            TrialKind::Rewarded => "rewarded",
+            TrialKind::Omission => "omission",
+            TrialKind::UnrewardedCue => "unrewarded_cue",
+            TrialKind::UncuedReward => "uncued_reward",
+        }
+    }
+}
+
+/// One trial's observations. `session`/`trial` index `Subject::sessions` and that session's
+/// `trials`, exactly as in [`crate::model::TrialSpan`].
+#[derive(Debug, Clone, PartialEq)]
+pub struct TrialObs {
+    pub session: usize,
+    pub trial: usize,
+    /// Cue-window mean − baseline; `None` for uncued trials (or no photometry samples there).
+    pub cue: Option<f64>,
+    /// Reward-window mean − baseline, after the delivered reward or, on omission trials, after
+    /// the expected reward time; `None` for unrewarded cues (no expectation).
+    pub reward: Option<f64>,
+    pub omission: bool,
+    /// Licks/s from cue onset to the expected reward (or the delivery, if earlier); `None`
+    /// without licks.csv, without a cue, or without an expected reward time.
+    pub anticipatory_lick_rate: Option<f64>,
+    pub kind: TrialKind,
+}
+
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum ObsError {
+    #[error("unit \"{unit}\" not found in session {session}; available units: {}", list_units(.available))]
+    UnitNotFound {
+        unit: String,
+        session: String,
+        available: Vec<String>,
+    },
+    #[error("session {session} has no {signal} data{}", paren_hint(.hint))]
+    SignalAbsent {
+        signal: &'static str,
+        session: String,
+        hint: String,
+    },
+    #[error("invalid {name} ({}, {}): {reason}", .window.0, .window.1)]
+    InvalidWindow {
+        name: &'static str,
+        window: (f64, f64),
+        reason: String,
+    },
+}
+
+fn list_units(units: &[String]) -> String {
+    if units.is_empty() {
+        "none".to_string()
+    } else {
+        units.join(", ")
+    }
+}
+
+fn paren_hint(h: &str) -> String {
+    if h.is_empty() {
+        String::new()
+    } else {
+        format!(" ({h})")
+    }
+}
+
+/// Cue onset + the cue's reward delay; `None` for uncued trials and never-rewarded cues.
+pub fn expected_reward_time(session: &Session, trial: &Trial) -> Option<f64> {
+    let cue = trial.cue?;
+    Some(trial.cue_s? + session.meta.cues[cue].reward_delay_s?)
+}
+
+/// The time a trial is aligned on: cue onset, or the reward for uncued trials (as the model).
+pub fn alignment_time(trial: &Trial) -> Option<f64> {
+    match trial.cue {
+        Some(_) => trial.cue_s,
+        None => trial.reward_s,
+    }
+}
+
+/// Observations of every trial the model lays out (see [`crate::model::layout_subject`];
+/// trials it skips are skipped here too), in training order.
+pub fn observe(subject: &Subject, opts: &ObsOptions) -> Result<Vec<TrialObs>, ObsError> {
+    opts.validate()?;
+    let spans = layout_subject(subject, DEFAULT_DT);
+    let mut out = Vec::with_capacity(spans.len());
+    let mut current: Option<(usize, SessionActivity)> = None;
+    for span in &spans {
+        let session = &subject.sessions[span.session];
+        if current.as_ref().map(|c| c.0) != Some(span.session) {
+            current = Some((span.session, SessionActivity::new(session, &opts.signal)?));
+        }
+        let act = &current.as_ref().expect("set above").1;
+        let trial = &session.trials[span.trial];
+        if let Some(o) = observe_trial(session, trial, act, opts) {
+            out.push(TrialObs {
+                session: span.session,
+                trial: span.trial,
+                ..o
+            });
+        }
+    }
+    Ok(out)
+}
+
+/// Observations of one trial (`session`/`trial` left at 0 for the caller to fill).
+pub fn observe_trial(
+    session: &Session,
+    trial: &Trial,
+    act: &SessionActivity,
+    opts: &ObsOptions,
+) -> Option<TrialObs> {
+    let kind = TrialKind::of(session, trial)?;
+    let t0 = alignment_time(trial)?;
+    let base = act.mean(t0 + opts.baseline.0, t0 + opts.baseline.1);
+    let response = |event: f64, w: (f64, f64)| -> Option<f64> {
+        Some(act.mean(event + w.0, event + w.1)? - base?)
+    };
+    let cue = match (trial.cue, trial.cue_s) {
+        (Some(_), Some(cs)) => response(cs, opts.cue_window),
+        _ => None,
+    };
+    let reward_time = trial
+        .reward_s
+        .or_else(|| expected_reward_time(session, trial));
+    let reward = reward_time.and_then(|t| response(t, opts.reward_window));
+    Some(TrialObs {
+        session: 0,
+        trial: 0,
+        cue,
+        reward,
+        omission: kind == TrialKind::Omission,
+        anticipatory_lick_rate: anticipatory_lick_rate(session, trial),
+        kind,
+    })
+}
+
+/// Licks/s from cue onset to the expected reward time, cut at the delivery if the reward came
+/// earlier, so consummatory licks never count (common practice).
+pub fn anticipatory_lick_rate(session: &Session, trial: &Trial) -> Option<f64> {
+    let licks = session.licks.as_deref()?;
+    let start = trial.cue_s.filter(|_| trial.cue.is_some())?;
+    let expected = expected_reward_time(session, trial);
+    let end = match (expected, trial.reward_s) {
+        (Some(e), Some(r)) => e.min(r),
+        (Some(e), None) => e,
+        (None, Some(r)) => r,
+        (None, None) => return None,
+    };
+    if end <= start {
+        return None;
+    }
+    Some(activity::count_in(licks, start, end) as f64 / (end - start))
+}
