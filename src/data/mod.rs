@@ -4,11 +4,15 @@
 //! Start at [`load`] (a subject or session folder → [`Subject`]); `check` reuses the same
 //! readers to list every problem. All times are seconds on the session clock.
 
+mod consistency;
+pub mod csvio;
 pub mod diag;
 pub mod load;
+pub mod meta;
+pub mod tables;
 
 pub use diag::{Diagnostic, Severity};
-pub use load::{load, LoadFailure, Loaded};
+pub use load::{load, scan, LoadFailure, Loaded, Scan};
 
 use std::path::PathBuf;
 

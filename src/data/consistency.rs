@@ -1,0 +1,151 @@
+//! Checks that need more than one row or more than one file: trials against the cues of
+//! `session.toml`, and sessions against each other. Row-level checks live in the readers.
+
+use super::tables::RawTrial;
+use super::{Diagnostic, Session, Subject};
+use std::collections::HashMap;
+use std::path::Path;
+
+/// A reward this much later than the cue's `reward_delay_s` is worth a look (the model's span
+/// after the expected reward is 1 s; a later reward lengthens the trial).
+pub const LATE_REWARD_S: f64 = 1.0;
+
+/// Session-level warnings. `raw` holds the trial rows as read, for line numbers and the
+/// `reward_ul` field as written.
+pub fn check_session(session: &Session, path: &Path, raw: &[RawTrial], out: &mut Vec<Diagnostic>) {
+    let rows: HashMap<i64, &RawTrial> = raw.iter().map(|r| (r.number, r)).collect();
+    let mut used = vec![false; session.meta.cues.len()];
+    let mut late_shown = 0;
+    let mut prev_align: Option<(f64, i64)> = None;
+    for trial in &session.trials {
+        let Some(row) = rows.get(&trial.number) else {
+            continue;
+        };
+        let line = row.line;
+        if let Some(c) = trial.cue {
+            used[c] = true;
+        }
+        if let (Some(cue_s), Some(reward_s)) = (trial.cue_s, trial.reward_s) {
+            let delay = session.reward_delay(trial);
+            let after = reward_s - cue_s;
+            if after > delay + LATE_REWARD_S && late_shown < 20 {
+                late_shown += 1;
+                let name = session.cue_name(trial).unwrap_or("?");
+                let why = match trial.cue.and_then(|c| session.meta.cues[c].reward_delay_s) {
+                    Some(d) => format!("cue `{name}` declares reward_delay_s = {d}"),
+                    None => format!("cue `{name}` declares no reward_delay_s"),
+                };
+                out.push(
+                    Diagnostic::warning(
+                        path,
+                        format!("reward {after:.3} s after the cue, more than {LATE_REWARD_S} s later than expected ({why})"),
+                    )
+                    .at_line(line)
+                    .column("reward_s"),
+                );
+            }
+        }
+        if trial.reward_s.is_some() && row.reward_ul.unwrap_or(0.0) == 0.0 {
+            out.push(
+                Diagnostic::warning(
+                    path,
+                    "reward delivered but reward_ul is empty or 0: the model sees no reward",
+                )
+                .at_line(line)
+                .column("reward_ul"),
+            );
+        }
+        if trial.reward_s.is_none() && row.reward_ul.is_some_and(|u| u > 0.0) {
+            out.push(
+                Diagnostic::warning(path, "reward_ul given but no reward_s: read as no reward")
+                    .at_line(line)
+                    .column("reward_ul"),
+            );
+        }
+        let align = trial.cue_s.or(trial.reward_s);
+        if let (Some(a), Some((pa, pn))) = (align, prev_align) {
+            if a < pa {
+                out.push(
+                    Diagnostic::warning(
+                        path,
+                        format!(
+                            "trial {} starts at {a} s, before trial {pn} at {pa} s",
+                            trial.number
+                        ),
+                    )
+                    .at_line(line)
+                    .column(if trial.cue_s.is_some() {
+                        "cue_s"
+                    } else {
+                        "reward_s"
+                    }),
+                );
+            }
+        }
+        if let Some(a) = align {
+            prev_align = Some((a, trial.number));
+        }
+    }
+    let meta_path = session.dir.join(super::meta::SESSION_FILE);
+    for (cue, used) in session.meta.cues.iter().zip(used) {
+        if !used {
+            out.push(
+                Diagnostic::warning(
+                    &meta_path,
+                    format!("cue `{}` is declared but no trial uses it", cue.name),
+                )
+                .column("cue.name"),
+            );
+        }
+    }
+}
+
+/// Subject-level problems: sessions of different animals, ambiguous names or order.
+pub fn check_subject(subject: &Subject, out: &mut Vec<Diagnostic>) {
+    let Some(first) = subject.sessions.first() else {
+        return;
+    };
+    for s in &subject.sessions[1..] {
+        if s.meta.subject != first.meta.subject {
+            out.push(
+                Diagnostic::error(
+                    s.dir.join(super::meta::SESSION_FILE),
+                    format!(
+                        "subject `{}` differs from `{}` in {}",
+                        s.meta.subject, first.meta.subject, first.name
+                    ),
+                )
+                .column("subject")
+                .expected("one animal per subject folder"),
+            );
+        }
+    }
+    let mut names: HashMap<&str, &Session> = HashMap::new();
+    for s in &subject.sessions {
+        if let Some(other) = names.insert(&s.name, s) {
+            out.push(
+                Diagnostic::error(
+                    &s.dir,
+                    format!(
+                        "session name `{}` is also used by {}",
+                        s.name,
+                        other.dir.display()
+                    ),
+                )
+                .expected("distinct session folder names (outputs name sessions by folder)"),
+            );
+        }
+    }
+    for pair in subject.sessions.windows(2) {
+        let (a, b) = (&pair[0].meta, &pair[1].meta);
+        if a.date == b.date && a.start_time == b.start_time {
+            out.push(Diagnostic::warning(
+                pair[1].dir.join(super::meta::SESSION_FILE),
+                format!(
+                    "same date and start_time as session {}: ordered by folder name; add start_time to make the order explicit",
+                    pair[0].name
+                ),
+            ).column("start_time"));
+        }
+    }
+}

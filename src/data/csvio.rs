@@ -1,0 +1,524 @@
+//! The one CSV reader behind every data table: named columns, UTF-8 with or without BOM, LF or
+//! CRLF, and every problem reported as a [`Diagnostic`] instead of a panic.
+//!
+//! [`Table`] streams rows through a reused `csv::ByteRecord`; numbers are parsed from the field
+//! bytes without allocating. A [`LineGuard`] under the CSV parser stops at a NUL byte (a binary
+//! file) or at a line longer than [`MAX_LINE_BYTES`] before that line is ever held in memory.
+
+use super::diag::{Diagnostic, Severity};
+use std::fmt;
+use std::fs::File;
+use std::io::{self, BufRead, BufReader, Read};
+use std::path::{Path, PathBuf};
+
+/// Longest accepted physical line. Real rows are tens of bytes; a longer line is a wrong file.
+pub const MAX_LINE_BYTES: usize = 1 << 20;
+
+/// Diagnostics shown per file before the rest are only counted (a file of 2 million bad rows
+/// must not print 2 million lines).
+pub const MAX_SHOWN_PER_FILE: usize = 50;
+
+/// Why the guard stopped reading.
+#[derive(Debug, Clone, PartialEq)]
+pub enum GuardError {
+    Nul { line: u64 },
+    LongLine { line: u64 },
+}
+
+impl fmt::Display for GuardError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            GuardError::Nul { line } => write!(f, "NUL byte on line {line}"),
+            GuardError::LongLine { line } => write!(f, "line {line} too long"),
+        }
+    }
+}
+
+impl std::error::Error for GuardError {}
+
+/// Passes bytes through, skipping a leading UTF-8 BOM, counting lines, and failing on a NUL
+/// byte or an over-long line.
+pub struct LineGuard<R> {
+    inner: R,
+    started: bool,
+    line: u64,
+    run: usize,
+    cap: usize,
+}
+
+impl<R: BufRead> LineGuard<R> {
+    pub fn new(inner: R) -> Self {
+        Self::with_cap(inner, MAX_LINE_BYTES)
+    }
+    pub fn with_cap(inner: R, cap: usize) -> Self {
+        LineGuard {
+            inner,
+            started: false,
+            line: 1,
+            run: 0,
+            cap,
+        }
+    }
+}
+
+impl<R: BufRead> Read for LineGuard<R> {
+    fn read(&mut self, buf: &mut [u8]) -> io::Result<usize> {
+        if !self.started {
+            self.started = true;
+            let head = self.inner.fill_buf()?;
+            if head.starts_with(&[0xEF, 0xBB, 0xBF]) {
+                self.inner.consume(3);
+            }
+        }
+        let n = self.inner.read(buf)?;
+        for &b in &buf[..n] {
+            if b == b'\n' {
+                self.line += 1;
+                self.run = 0;
+            } else {
+                self.run += 1;
+                if b == 0 {
+                    return Err(io::Error::other(GuardError::Nul { line: self.line }));
+                }
+                if self.run > self.cap {
+                    return Err(io::Error::other(GuardError::LongLine { line: self.line }));
+                }
+            }
+        }
+        Ok(n)
+    }
+}
+
+/// Diagnostics of one file, capped at [`MAX_SHOWN_PER_FILE`] shown.
+#[derive(Debug)]
+pub struct FileDiags {
+    pub file: PathBuf,
+    pub shown: Vec<Diagnostic>,
+    hidden_errors: usize,
+    hidden_warnings: usize,
+    pub errors: usize,
+}
+
+impl FileDiags {
+    pub fn new(file: &Path) -> Self {
+        FileDiags {
+            file: file.to_path_buf(),
+            shown: Vec::new(),
+            hidden_errors: 0,
+            hidden_warnings: 0,
+            errors: 0,
+        }
+    }
+    pub fn push(&mut self, d: Diagnostic) {
+        if d.is_error() {
+            self.errors += 1;
+        }
+        if self.shown.len() < MAX_SHOWN_PER_FILE {
+            self.shown.push(d);
+        } else if d.is_error() {
+            self.hidden_errors += 1;
+        } else {
+            self.hidden_warnings += 1;
+        }
+    }
+    /// An error at a line and column of this file.
+    pub fn error_at(&mut self, line: u64, column: &str, message: String, expected: &str) {
+        let d = Diagnostic::error(&self.file, message)
+            .at_line(line)
+            .column(column)
+            .expected(expected);
+        self.push(d);
+    }
+    pub fn warning_at(&mut self, line: u64, column: &str, message: String) {
+        let d = Diagnostic::warning(&self.file, message)
+            .at_line(line)
+            .column(column);
+        self.push(d);
+    }
+    /// Move everything into `out`, with one summary line for what was not shown.
+    pub fn drain_into(self, out: &mut Vec<Diagnostic>) {
+        out.extend(self.shown);
+        for (n, severity, what) in [
+            (self.hidden_errors, Severity::Error, "errors"),
+            (self.hidden_warnings, Severity::Warning, "warnings"),
+        ] {
+            if n > 0 {
+                let mut d = Diagnostic::error(&self.file, format!("{n} more {what} not shown"));
+                d.severity = severity;
+                out.push(d);
+            }
+        }
+    }
+}
+
+/// A bad value that has already been reported as a diagnostic.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Reported;
+
+/// A CSV table being read row by row.
+pub struct Table<R: BufRead> {
+    rdr: csv::Reader<LineGuard<R>>,
+    record: csv::ByteRecord,
+    header_len: usize,
+    /// Field index of each requested column (`None`: optional column absent).
+    columns: Vec<Option<usize>>,
+    line: u64,
+    pub diags: FileDiags,
+}
+
+/// How a requested column is found.
+pub struct ColumnSpec<'a> {
+    pub name: &'a str,
+    pub required: bool,
+}
+
+pub const fn required(name: &str) -> ColumnSpec<'_> {
+    ColumnSpec {
+        name,
+        required: true,
+    }
+}
+
+pub const fn optional(name: &str) -> ColumnSpec<'_> {
+    ColumnSpec {
+        name,
+        required: false,
+    }
+}
+
+/// Open `path` as a table; `None` (with diagnostics in `diags`) if it cannot be read at all.
+pub fn open_table(
+    path: &Path,
+    specs: &[ColumnSpec],
+    out: &mut Vec<Diagnostic>,
+) -> Option<Table<BufReader<File>>> {
+    let file = match File::open(path) {
+        Ok(f) => f,
+        Err(e) => {
+            out.push(Diagnostic::error(path, format!("cannot open: {e}")));
+            return None;
+        }
+    };
+    match file.metadata() {
+        Ok(m) if m.is_dir() => {
+            out.push(
+                Diagnostic::error(path, "is a folder").expected("a CSV file with a header row"),
+            );
+            return None;
+        }
+        _ => {}
+    }
+    Table::new(path, BufReader::with_capacity(1 << 16, file), specs, out)
+}
+
+impl<R: BufRead> Table<R> {
+    /// Read the header and find the requested columns. Problems go to `out`; `None` when the
+    /// table cannot be read (empty, binary, required column missing).
+    pub fn new(
+        path: &Path,
+        reader: R,
+        specs: &[ColumnSpec],
+        out: &mut Vec<Diagnostic>,
+    ) -> Option<Self> {
+        let mut rdr = csv::ReaderBuilder::new()
+            .has_headers(false)
+            .flexible(true)
+            .from_reader(LineGuard::new(reader));
+        let mut diags = FileDiags::new(path);
+        let mut header = csv::ByteRecord::new();
+        let expected_header = header_text(specs);
+        let got = match rdr.read_byte_record(&mut header) {
+            Ok(got) => got,
+            Err(e) => {
+                diags.push(read_error(path, &e));
+                diags.drain_into(out);
+                return None;
+            }
+        };
+        if !got || header.iter().all(|f| f.iter().all(u8::is_ascii_whitespace)) {
+            diags.push(
+                Diagnostic::error(path, "empty file: no header row")
+                    .at_line(1)
+                    .expected(format!("a header row naming the columns {expected_header}")),
+            );
+            diags.drain_into(out);
+            return None;
+        }
+        let names: Vec<String> = match std::str::from_utf8(header.as_slice()) {
+            Ok(_) => header
+                .iter()
+                .map(|f| String::from_utf8_lossy(f).trim().to_string())
+                .collect(),
+            Err(_) => {
+                diags.push(
+                    Diagnostic::error(path, "header is not valid UTF-8 text")
+                        .at_line(1)
+                        .expected("a UTF-8 text file"),
+                );
+                diags.drain_into(out);
+                return None;
+            }
+        };
+        let mut columns = Vec::with_capacity(specs.len());
+        let mut missing = false;
+        for spec in specs {
+            let mut found = names.iter().enumerate().filter(|(_, n)| *n == spec.name);
+            let first = found.next().map(|(i, _)| i);
+            if found.next().is_some() {
+                diags.push(
+                    Diagnostic::error(path, "column appears more than once in the header")
+                        .at_line(1)
+                        .column(spec.name)
+                        .expected("each column named once"),
+                );
+                missing = true;
+            }
+            if first.is_none() && spec.required {
+                let hint = match names.iter().find(|n| n.eq_ignore_ascii_case(spec.name)) {
+                    Some(n) => format!(" (found `{n}`; names are case-sensitive)"),
+                    None => String::new(),
+                };
+                diags.push(
+                    Diagnostic::error(path, format!("required column is missing{hint}"))
+                        .at_line(1)
+                        .column(spec.name)
+                        .expected(format!("a header with the columns {expected_header}")),
+                );
+                missing = true;
+            }
+            columns.push(first);
+        }
+        if missing {
+            diags.drain_into(out);
+            return None;
+        }
+        Some(Table {
+            rdr,
+            record: csv::ByteRecord::new(),
+            header_len: header.len(),
+            columns,
+            line: 1,
+            diags,
+        })
+    }
+
+    /// Advance to the next well-formed row; `false` at the end or when reading must stop.
+    /// Malformed rows (wrong field count, invalid UTF-8) are reported and skipped.
+    pub fn next_row(&mut self) -> bool {
+        loop {
+            match self.rdr.read_byte_record(&mut self.record) {
+                Ok(false) => return false,
+                Ok(true) => {}
+                Err(e) => {
+                    let d = read_error(&self.diags.file, &e);
+                    self.diags.push(d);
+                    return false;
+                }
+            }
+            self.line = self.record.position().map_or(self.line + 1, |p| p.line());
+            if self.record.len() == 1 && self.record[0].iter().all(u8::is_ascii_whitespace) {
+                continue; // a blank line (spaces only)
+            }
+            if self.record.len() != self.header_len {
+                let (line, n, h) = (self.line, self.record.len(), self.header_len);
+                self.diags.push(
+                    Diagnostic::error(&self.diags.file, format!("row has {n} fields"))
+                        .at_line(line)
+                        .expected(format!("{h} fields, as in the header")),
+                );
+                continue;
+            }
+            if let Err(e) = std::str::from_utf8(self.record.as_slice()) {
+                let column = self.column_at_byte(e.valid_up_to());
+                let line = self.line;
+                self.diags.push(
+                    Diagnostic::error(&self.diags.file, "not valid UTF-8 text")
+                        .at_line(line)
+                        .column(column)
+                        .expected("UTF-8 text"),
+                );
+                continue;
+            }
+            return true;
+        }
+    }
+
+    fn column_at_byte(&self, byte: usize) -> String {
+        let mut end = 0;
+        for i in 0..self.record.len() {
+            end += self.record[i].len();
+            if byte < end {
+                return format!("field {}", i + 1);
+            }
+        }
+        "row".to_string()
+    }
+
+    /// Line of the current row (the header is line 1).
+    pub fn line(&self) -> u64 {
+        self.line
+    }
+
+    pub fn has_column(&self, col: usize) -> bool {
+        self.columns.get(col).copied().flatten().is_some()
+    }
+
+    /// The trimmed text of requested column `col` in the current row ("" if the column is absent).
+    pub fn text(&self, col: usize) -> &str {
+        match self.columns.get(col).copied().flatten() {
+            Some(i) => {
+                let bytes = self.record.get(i).unwrap_or(b"");
+                // Rows reaching callers were validated as UTF-8 in `next_row`.
+                std::str::from_utf8(bytes).unwrap_or("").trim()
+            }
+            None => "",
+        }
+    }
+
+    /// A time or quantity in seconds (or µl): empty → `Ok(None)`; must be a finite number ≥ 0.
+    /// Reports it and returns `Err(Reported)` otherwise.
+    pub fn non_negative(
+        &mut self,
+        col: usize,
+        name: &str,
+        what: &str,
+    ) -> Result<Option<f64>, Reported> {
+        let text = self.text(col);
+        if text.is_empty() {
+            return Ok(None);
+        }
+        let problem = match text.parse::<f64>() {
+            Ok(x) if x.is_nan() => "NaN".to_string(),
+            Ok(x) if x.is_infinite() => "infinite value".to_string(),
+            Ok(x) if x < 0.0 => format!("negative value {text}"),
+            Ok(x) => return Ok(Some(x)),
+            Err(_) => format!("not a number: `{}`", shorten(text)),
+        };
+        let line = self.line;
+        self.diags
+            .error_at(line, name, problem, &format!("{what} ≥ 0"));
+        Err(Reported)
+    }
+
+    /// A finite number (any sign): empty → `Ok(None)`.
+    pub fn finite(&mut self, col: usize, name: &str) -> Result<Option<f64>, Reported> {
+        let text = self.text(col);
+        if text.is_empty() {
+            return Ok(None);
+        }
+        let problem = match text.parse::<f64>() {
+            Ok(x) if x.is_nan() => "NaN".to_string(),
+            Ok(x) if x.is_infinite() => "infinite value".to_string(),
+            Ok(x) => return Ok(Some(x)),
+            Err(_) => format!("not a number: `{}`", shorten(text)),
+        };
+        let line = self.line;
+        self.diags.error_at(line, name, problem, "a finite number");
+        Err(Reported)
+    }
+
+    /// A required value: reports an empty field.
+    pub fn require<T>(
+        &mut self,
+        v: Result<Option<T>, Reported>,
+        name: &str,
+        what: &str,
+    ) -> Option<T> {
+        match v {
+            Ok(Some(x)) => Some(x),
+            Ok(None) => {
+                let line = self.line;
+                self.diags
+                    .error_at(line, name, "empty value".to_string(), what);
+                None
+            }
+            Err(Reported) => None,
+        }
+    }
+
+    pub fn finish(self, out: &mut Vec<Diagnostic>) -> usize {
+        let errors = self.diags.errors;
+        self.diags.drain_into(out);
+        errors
+    }
+}
+
+/// At most 40 characters of a bad value, for messages.
+pub fn shorten(text: &str) -> String {
+    let mut s: String = text.chars().take(40).collect();
+    if s.len() < text.len() {
+        s.push('…');
+    }
+    s
+}
+
+fn header_text(specs: &[ColumnSpec]) -> String {
+    let names: Vec<String> = specs
+        .iter()
+        .map(|s| {
+            if s.required {
+                s.name.to_string()
+            } else {
+                format!("[{}]", s.name)
+            }
+        })
+        .collect();
+    names.join(",")
+}
+
+fn read_error(path: &Path, e: &csv::Error) -> Diagnostic {
+    let guard = match e.kind() {
+        csv::ErrorKind::Io(io) => io.get_ref().and_then(|x| x.downcast_ref::<GuardError>()),
+        _ => None,
+    };
+    match guard {
+        Some(GuardError::Nul { line }) => {
+            Diagnostic::error(path, "binary data (NUL byte); reading stopped here")
+                .at_line(*line)
+                .expected("a UTF-8 text CSV file")
+        }
+        Some(GuardError::LongLine { line }) => Diagnostic::error(
+            path,
+            format!("line longer than {MAX_LINE_BYTES} bytes; reading stopped here"),
+        )
+        .at_line(*line)
+        .expected("one short row per line"),
+        None => {
+            let line = e.position().map(|p| p.line());
+            let d = Diagnostic::error(path, format!("cannot read: {e}"));
+            match line {
+                Some(l) => d.at_line(l),
+                None => d,
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn read(bytes: &[u8], cap: usize) -> Result<Vec<u8>, GuardError> {
+        let mut g = LineGuard::with_cap(bytes, cap);
+        let mut out = Vec::new();
+        match g.read_to_end(&mut out) {
+            Ok(_) => Ok(out),
+            Err(e) => Err(e
+                .get_ref()
+                .and_then(|x| x.downcast_ref::<GuardError>())
+                .cloned()
+                .expect("guard error")),
+        }
+    }
+
+    #[test]
+    fn guard_strips_bom_and_stops_on_nul_and_long_lines() {
+        assert_eq!(read(b"\xEF\xBB\xBFa,b\n", 10).unwrap(), b"a,b\n");
+        assert_eq!(read(b"a\nb\0c", 10), Err(GuardError::Nul { line: 2 }));
+        assert_eq!(
+            read(b"a\n\nxxxxxxxxxxxx\n", 10),
+            Err(GuardError::LongLine { line: 3 })
+        );
+        assert_eq!(read(b"xxxxxxxxxx\nxxxxxxxxxx", 10).unwrap().len(), 21);
+    }
+}

@@ -1,0 +1,422 @@
+//! Readers for the four session tables: trials, spikes, licks, photometry.
+//!
+//! Each reader streams its file through [`Table`], keeps every good row, reports every bad one,
+//! and sorts what can be sorted (with a warning). Generic over `BufRead` so tests and property
+//! tests can feed bytes directly.
+
+use super::csvio::{optional, required, Table};
+use super::diag::Diagnostic;
+use super::{Photometry, Spikes};
+use std::collections::HashMap;
+use std::io::BufRead;
+use std::path::Path;
+
+pub const TRIALS_FILE: &str = "trials.csv";
+pub const SPIKES_FILE: &str = "spikes.csv";
+pub const LICKS_FILE: &str = "licks.csv";
+pub const PHOTOMETRY_FILE: &str = "photometry.csv";
+
+/// One row of trials.csv before cue names are matched to `session.toml`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RawTrial {
+    pub line: u64,
+    pub number: i64,
+    /// Cue name, `None` when the field is empty.
+    pub cue: Option<String>,
+    pub cue_s: Option<f64>,
+    pub reward_s: Option<f64>,
+    /// `None` when the field is empty.
+    pub reward_ul: Option<f64>,
+}
+
+/// A table that read, and how many errors it had (its good rows are kept either way).
+#[derive(Debug)]
+pub struct Read<T> {
+    pub value: T,
+    pub errors: usize,
+}
+
+/// Times past this are "outside the session span" (warning), with the first offending line.
+#[derive(Debug, Clone, Copy)]
+pub struct Span {
+    pub end_s: f64,
+}
+
+const TRIAL_COLS: [&str; 5] = ["trial", "cue", "cue_s", "reward_s", "reward_ul"];
+
+/// Read trials.csv: per-row checks only (the cue names are matched by the caller).
+pub fn read_trials<R: BufRead>(
+    path: &Path,
+    reader: R,
+    out: &mut Vec<Diagnostic>,
+) -> Option<Read<Vec<RawTrial>>> {
+    let specs = TRIAL_COLS.map(required);
+    let mut t = Table::new(path, reader, &specs, out)?;
+    let mut trials: Vec<RawTrial> = Vec::new();
+    let mut last_number: Option<(i64, u64)> = None;
+    while t.next_row() {
+        let line = t.line();
+        let number = match t.text(0) {
+            "" => {
+                t.diags.error_at(
+                    line,
+                    "trial",
+                    "empty value".into(),
+                    "an integer trial number",
+                );
+                None
+            }
+            s => match s.parse::<i64>() {
+                Ok(n) => Some(n),
+                Err(_) => {
+                    let msg = format!("not an integer: `{}`", super::csvio::shorten(s));
+                    t.diags
+                        .error_at(line, "trial", msg, "an integer trial number");
+                    None
+                }
+            },
+        };
+        if let (Some(n), Some((prev, prev_line))) = (number, last_number) {
+            if n == prev {
+                let msg = format!("trial {n} appears twice (first on line {prev_line})");
+                t.diags.error_at(line, "trial", msg, "unique trial numbers");
+            } else if n < prev {
+                let msg = format!("trial {n} comes after trial {prev} (line {prev_line})");
+                t.diags
+                    .error_at(line, "trial", msg, "increasing trial numbers");
+            }
+        }
+        let cue = Some(t.text(1).to_string()).filter(|s| !s.is_empty());
+        let cue_s = t.non_negative(2, "cue_s", "a time in seconds");
+        let reward_s = t.non_negative(3, "reward_s", "a time in seconds");
+        let reward_ul = t.non_negative(4, "reward_ul", "a reward size in µl");
+        let (Ok(cue_s), Ok(reward_s), Ok(reward_ul), Some(number)) =
+            (cue_s, reward_s, reward_ul, number)
+        else {
+            continue;
+        };
+        // Only a number greater than all before it moves the bar; a duplicate is reported above.
+        if last_number.is_none_or(|(prev, _)| number > prev) {
+            last_number = Some((number, line));
+        } else {
+            continue;
+        }
+        let mut row_ok = true;
+        match (&cue, cue_s) {
+            (Some(name), None) => {
+                let msg = format!("cue `{name}` without an onset time");
+                t.diags
+                    .error_at(line, "cue_s", msg, "the cue onset in seconds");
+                row_ok = false;
+            }
+            (None, Some(_)) => {
+                t.diags.error_at(
+                    line,
+                    "cue",
+                    "cue onset given but no cue name".into(),
+                    "a cue name from session.toml, or empty cue_s",
+                );
+                row_ok = false;
+            }
+            _ => {}
+        }
+        if cue.is_none() && cue_s.is_none() && reward_s.is_none() {
+            t.diags.error_at(
+                line,
+                "trial",
+                format!("trial {number} has neither a cue nor a reward"),
+                "a cue (cue, cue_s), a reward (reward_s), or both",
+            );
+            row_ok = false;
+        }
+        if let (Some(c), Some(r)) = (cue_s, reward_s) {
+            if r < c {
+                let msg = format!("reward at {r} s comes before the cue at {c} s");
+                t.diags.error_at(line, "reward_s", msg, "reward_s ≥ cue_s");
+                row_ok = false;
+            }
+        }
+        if row_ok {
+            trials.push(RawTrial {
+                line,
+                number,
+                cue,
+                cue_s,
+                reward_s,
+                reward_ul,
+            });
+        }
+    }
+    if trials.is_empty() && t.diags.errors == 0 {
+        let d = Diagnostic::error(path, "no trials: the table has a header but no rows")
+            .expected("one row per trial");
+        t.diags.push(d);
+    }
+    let errors = t.finish(out);
+    Some(Read {
+        value: trials,
+        errors,
+    })
+}
+
+/// Read spikes.csv into per-unit sorted spike trains (units in natural name order).
+pub fn read_spikes<R: BufRead>(
+    path: &Path,
+    reader: R,
+    size_hint: u64,
+    span: Option<Span>,
+    out: &mut Vec<Diagnostic>,
+) -> Option<Read<Spikes>> {
+    let mut t = Table::new(path, reader, &[required("unit"), required("time_s")], out)?;
+    let mut index: HashMap<Box<[u8]>, usize> = HashMap::new();
+    let mut names: Vec<String> = Vec::new();
+    let mut times: Vec<Vec<f64>> = Vec::new();
+    let mut last: Vec<f64> = Vec::new();
+    let mut first_unsorted: Option<u64> = None;
+    let mut late = LateTimes::default();
+    // ~16 bytes a row ("u12,1234.56789\n"); a guess for the first vector of each unit.
+    let rows_guess = (size_hint / 16) as usize;
+    let mut cached: Option<usize> = None;
+    while t.next_row() {
+        let line = t.line();
+        let Ok(time) = t.non_negative(1, "time_s", "a spike time in seconds") else {
+            continue;
+        };
+        let Some(time) = t.require(Ok(time), "time_s", "a spike time in seconds") else {
+            continue;
+        };
+        let unit = t.text(0);
+        if unit.is_empty() {
+            t.diags
+                .error_at(line, "unit", "empty unit id".into(), "a unit id such as u3");
+            continue;
+        }
+        // Rows of one unit often come in runs: try the previous unit before hashing.
+        let u = match cached.filter(|&u| names[u] == unit) {
+            Some(u) => u,
+            None => match index.get(unit.as_bytes()) {
+                Some(&u) => u,
+                None => {
+                    let u = names.len();
+                    index.insert(unit.as_bytes().into(), u);
+                    names.push(unit.to_string());
+                    let guess = rows_guess / (u + 1).max(8);
+                    times.push(Vec::with_capacity(guess.min(1 << 22)));
+                    last.push(f64::NEG_INFINITY);
+                    u
+                }
+            },
+        };
+        cached = Some(u);
+        if time < last[u] {
+            first_unsorted.get_or_insert(line);
+        }
+        last[u] = time;
+        late.see(time, line, span);
+        times[u].push(time);
+    }
+    if let Some(line) = first_unsorted {
+        t.diags.warning_at(
+            line,
+            "time_s",
+            "spike times of a unit are not in increasing order; sorted on load".into(),
+        );
+    }
+    late.report(&mut t, "spike");
+    let errors = t.finish(out);
+    for v in &mut times {
+        if first_unsorted.is_some() {
+            v.sort_unstable_by(f64::total_cmp);
+        }
+        v.shrink_to_fit();
+    }
+    let mut order: Vec<usize> = (0..names.len()).collect();
+    order.sort_by(|&a, &b| natural_cmp(&names[a], &names[b]));
+    let mut slots: Vec<Option<Vec<f64>>> = times.into_iter().map(Some).collect();
+    let spikes = Spikes {
+        units: order.iter().map(|&i| names[i].clone()).collect(),
+        times: order.iter().filter_map(|&i| slots[i].take()).collect(),
+    };
+    Some(Read {
+        value: spikes,
+        errors,
+    })
+}
+
+/// Read licks.csv into sorted lick times.
+pub fn read_licks<R: BufRead>(
+    path: &Path,
+    reader: R,
+    span: Option<Span>,
+    out: &mut Vec<Diagnostic>,
+) -> Option<Read<Vec<f64>>> {
+    let mut t = Table::new(path, reader, &[required("time_s")], out)?;
+    let mut times = Vec::new();
+    let mut first_unsorted = None;
+    let mut late = LateTimes::default();
+    while t.next_row() {
+        let line = t.line();
+        let v = t.non_negative(0, "time_s", "a lick time in seconds");
+        let Some(time) = t.require(v, "time_s", "a lick time in seconds") else {
+            continue;
+        };
+        if times.last().is_some_and(|&p| time < p) {
+            first_unsorted.get_or_insert(line);
+        }
+        late.see(time, line, span);
+        times.push(time);
+    }
+    if let Some(line) = first_unsorted {
+        t.diags.warning_at(
+            line,
+            "time_s",
+            "lick times are not in increasing order; sorted on load".into(),
+        );
+        times.sort_unstable_by(f64::total_cmp);
+    }
+    late.report(&mut t, "lick");
+    let errors = t.finish(out);
+    Some(Read {
+        value: times,
+        errors,
+    })
+}
+
+/// Read photometry.csv (`time_s`, `signal`, optional `control`), rows sorted by time.
+pub fn read_photometry<R: BufRead>(
+    path: &Path,
+    reader: R,
+    out: &mut Vec<Diagnostic>,
+) -> Option<Read<Photometry>> {
+    let specs = [required("time_s"), required("signal"), optional("control")];
+    let mut t = Table::new(path, reader, &specs, out)?;
+    let has_control = t.has_column(2);
+    let mut p = Photometry {
+        control: has_control.then(Vec::new),
+        ..Photometry::default()
+    };
+    let mut first_unsorted = None;
+    let mut first_repeat = None;
+    while t.next_row() {
+        let line = t.line();
+        let time = t.non_negative(0, "time_s", "a sample time in seconds");
+        let time = t.require(time, "time_s", "a sample time in seconds");
+        let signal = t.finite(1, "signal");
+        let signal = t.require(signal, "signal", "a finite number");
+        let control = if has_control {
+            let c = t.finite(2, "control");
+            t.require(c, "control", "a finite number")
+        } else {
+            Some(0.0)
+        };
+        let (Some(time), Some(signal), Some(control)) = (time, signal, control) else {
+            continue;
+        };
+        match p.time_s.last() {
+            Some(&prev) if time < prev => {
+                first_unsorted.get_or_insert(line);
+            }
+            Some(&prev) if time == prev => {
+                first_repeat.get_or_insert(line);
+            }
+            _ => {}
+        }
+        p.time_s.push(time);
+        p.signal.push(signal);
+        if let Some(c) = p.control.as_mut() {
+            c.push(control);
+        }
+    }
+    if let Some(line) = first_repeat {
+        t.diags
+            .warning_at(line, "time_s", "two samples at the same time".into());
+    }
+    if let Some(line) = first_unsorted {
+        t.diags.warning_at(
+            line,
+            "time_s",
+            "sample times are not in increasing order; rows sorted on load".into(),
+        );
+        sort_photometry(&mut p);
+    }
+    if p.time_s.is_empty() && t.diags.errors == 0 {
+        let d = Diagnostic::warning(path, "no samples: the table has a header but no rows");
+        t.diags.push(d);
+    }
+    let errors = t.finish(out);
+    Some(Read { value: p, errors })
+}
+
+fn sort_photometry(p: &mut Photometry) {
+    let mut order: Vec<usize> = (0..p.time_s.len()).collect();
+    order.sort_by(|&a, &b| p.time_s[a].total_cmp(&p.time_s[b]));
+    let pick = |v: &Vec<f64>| order.iter().map(|&i| v[i]).collect::<Vec<f64>>();
+    p.time_s = pick(&p.time_s);
+    p.signal = pick(&p.signal);
+    if let Some(c) = &p.control {
+        p.control = Some(pick(c));
+    }
+}
+
+/// Counts times past the session span for one summary warning.
+#[derive(Default)]
+struct LateTimes {
+    count: u64,
+    first_line: u64,
+    max: f64,
+    end: f64,
+}
+
+impl LateTimes {
+    fn see(&mut self, time: f64, line: u64, span: Option<Span>) {
+        if let Some(span) = span {
+            if time > span.end_s {
+                if self.count == 0 {
+                    self.first_line = line;
+                    self.end = span.end_s;
+                }
+                self.count += 1;
+                self.max = self.max.max(time);
+            }
+        }
+    }
+    fn report<R: BufRead>(&self, t: &mut Table<R>, what: &str) {
+        if self.count > 0 {
+            let msg = format!(
+                "{} {what} time(s) after the end of the session span ({} s; latest {} s) — \
+                 milliseconds instead of seconds, or another session's file?",
+                self.count, self.end, self.max
+            );
+            t.diags.warning_at(self.first_line, "time_s", msg);
+        }
+    }
+}
+
+/// Name order where digit runs compare as numbers ("u2" before "u10").
+pub fn natural_cmp(a: &str, b: &str) -> std::cmp::Ordering {
+    fn chunks(s: &str) -> Vec<(bool, &str)> {
+        let mut out = Vec::new();
+        let mut start = 0;
+        let bytes = s.as_bytes();
+        for i in 1..=bytes.len() {
+            if i == bytes.len() || bytes[i].is_ascii_digit() != bytes[start].is_ascii_digit() {
+                out.push((bytes[start].is_ascii_digit(), &s[start..i]));
+                start = i;
+            }
+        }
+        out
+    }
+    let (ca, cb) = (chunks(a), chunks(b));
+    for ((da, sa), (db, sb)) in ca.iter().zip(cb.iter()) {
+        let ord = if *da && *db {
+            let (ta, tb) = (sa.trim_start_matches('0'), sb.trim_start_matches('0'));
+            ta.len().cmp(&tb.len()).then(ta.cmp(tb))
+        } else {
+            sa.cmp(sb)
+        };
+        if ord.is_ne() {
+            return ord;
+        }
+    }
+    ca.len().cmp(&cb.len()).then(a.cmp(b))
+}
