@@ -15,19 +15,19 @@ pub struct Args {
     /// A subject folder or one session folder
     pub path: PathBuf,
     /// Learning rate α, in (0, 1]
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     pub alpha: f64,
     /// Discount γ per model bin, in [0, 1]
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     pub gamma: f64,
     /// Eligibility-trace decay λ per model bin, in [0, 1]
-    #[arg(long, default_value_t = 0.0)]
+    #[arg(long, default_value_t = 0.0, allow_negative_numbers = true)]
     pub lambda: f64,
     /// Stimulus representation: csc, presence or microstimulus
     #[arg(long, default_value = "csc")]
     pub representation: String,
     /// Model bin width, seconds
-    #[arg(long, default_value_t = model::DEFAULT_DT)]
+    #[arg(long, default_value_t = model::DEFAULT_DT, allow_negative_numbers = true)]
     pub dt: f64,
     /// Output CSV file, or - for standard output
     #[arg(long)]
