@@ -2,7 +2,7 @@
 //! `session.toml`, and sessions against each other. Row-level checks live in the readers.
 
 use super::tables::RawTrial;
-use super::{Diagnostic, Session, Subject};
+use super::{Diagnostic, Session, SessionMeta, Subject};
 use std::collections::HashMap;
 use std::path::Path;
 
@@ -10,42 +10,53 @@ use std::path::Path;
 /// after the expected reward is 1 s; a later reward lengthens the trial).
 pub const LATE_REWARD_S: f64 = 1.0;
 
-/// Session-level warnings. `raw` holds the trial rows as read, for line numbers and the
-/// `reward_ul` field as written.
-pub fn check_session(session: &Session, path: &Path, raw: &[RawTrial], out: &mut Vec<Diagnostic>) {
-    let rows: HashMap<i64, &RawTrial> = raw.iter().map(|r| (r.number, r)).collect();
-    let mut used = vec![false; session.meta.cues.len()];
+/// Trials against the cues of `session.toml`: warnings only (the errors are the readers').
+/// Works on the rows as read, so it runs even when other files of the session have errors.
+pub fn check_trials(
+    meta: &SessionMeta,
+    meta_path: &Path,
+    path: &Path,
+    raw: &[RawTrial],
+    out: &mut Vec<Diagnostic>,
+) {
+    let cue_of = |t: &RawTrial| {
+        t.cue
+            .as_ref()
+            .and_then(|n| meta.cues.iter().position(|c| &c.name == n))
+    };
+    let mut used = vec![false; meta.cues.len()];
     let mut late_shown = 0;
     let mut prev_align: Option<(f64, i64)> = None;
-    for trial in &session.trials {
-        let Some(row) = rows.get(&trial.number) else {
-            continue;
-        };
+    for row in raw {
         let line = row.line;
-        if let Some(c) = trial.cue {
+        let cue = cue_of(row);
+        if let Some(c) = cue {
             used[c] = true;
         }
-        if let (Some(cue_s), Some(reward_s)) = (trial.cue_s, trial.reward_s) {
-            let delay = session.reward_delay(trial);
+        if let (Some(c), Some(cue_s), Some(reward_s)) = (cue, row.cue_s, row.reward_s) {
+            let declared = meta.cues[c].reward_delay_s;
             let after = reward_s - cue_s;
-            if after > delay + LATE_REWARD_S && late_shown < 20 {
+            if after > declared.unwrap_or(0.0) + LATE_REWARD_S && late_shown < 20 {
                 late_shown += 1;
-                let name = session.cue_name(trial).unwrap_or("?");
-                let why = match trial.cue.and_then(|c| session.meta.cues[c].reward_delay_s) {
+                let name = &meta.cues[c].name;
+                let why = match declared {
                     Some(d) => format!("cue `{name}` declares reward_delay_s = {d}"),
                     None => format!("cue `{name}` declares no reward_delay_s"),
                 };
                 out.push(
                     Diagnostic::warning(
                         path,
-                        format!("reward {after:.3} s after the cue, more than {LATE_REWARD_S} s later than expected ({why})"),
+                        format!(
+                            "reward {after:.3} s after the cue, more than {LATE_REWARD_S} s \
+                             later than expected ({why})"
+                        ),
                     )
                     .at_line(line)
                     .column("reward_s"),
                 );
             }
         }
-        if trial.reward_s.is_some() && row.reward_ul.unwrap_or(0.0) == 0.0 {
+        if row.reward_s.is_some() && row.reward_ul.unwrap_or(0.0) == 0.0 {
             out.push(
                 Diagnostic::warning(
                     path,
@@ -55,14 +66,14 @@ pub fn check_session(session: &Session, path: &Path, raw: &[RawTrial], out: &mut
                 .column("reward_ul"),
             );
         }
-        if trial.reward_s.is_none() && row.reward_ul.is_some_and(|u| u > 0.0) {
+        if row.reward_s.is_none() && row.reward_ul.is_some_and(|u| u > 0.0) {
             out.push(
                 Diagnostic::warning(path, "reward_ul given but no reward_s: read as no reward")
                     .at_line(line)
                     .column("reward_ul"),
             );
         }
-        let align = trial.cue_s.or(trial.reward_s);
+        let align = row.cue_s.or(row.reward_s);
         if let (Some(a), Some((pa, pn))) = (align, prev_align) {
             if a < pa {
                 out.push(
@@ -70,11 +81,11 @@ pub fn check_session(session: &Session, path: &Path, raw: &[RawTrial], out: &mut
                         path,
                         format!(
                             "trial {} starts at {a} s, before trial {pn} at {pa} s",
-                            trial.number
+                            row.number
                         ),
                     )
                     .at_line(line)
-                    .column(if trial.cue_s.is_some() {
+                    .column(if row.cue_s.is_some() {
                         "cue_s"
                     } else {
                         "reward_s"
@@ -83,15 +94,14 @@ pub fn check_session(session: &Session, path: &Path, raw: &[RawTrial], out: &mut
             }
         }
         if let Some(a) = align {
-            prev_align = Some((a, trial.number));
+            prev_align = Some((a, row.number));
         }
     }
-    let meta_path = session.dir.join(super::meta::SESSION_FILE);
-    for (cue, used) in session.meta.cues.iter().zip(used) {
+    for (cue, used) in meta.cues.iter().zip(used) {
         if !used {
             out.push(
                 Diagnostic::warning(
-                    &meta_path,
+                    meta_path,
                     format!("cue `{}` is declared but no trial uses it", cue.name),
                 )
                 .column("cue.name"),

@@ -6,7 +6,7 @@
 //! [`scan`] is the same walk for `check`: it keeps going and returns whatever loaded.
 
 use super::consistency;
-use super::meta::{read_meta, SESSION_FILE};
+use super::meta::{read_meta_partial, SESSION_FILE};
 use super::tables::{self, RawTrial, Span, LICKS_FILE, PHOTOMETRY_FILE, SPIKES_FILE, TRIALS_FILE};
 use super::{Diagnostic, Session, SessionMeta, Subject, Trial};
 use std::collections::HashSet;
@@ -75,6 +75,8 @@ pub fn load(path: &Path) -> Result<Loaded, LoadFailure> {
 #[derive(Debug)]
 pub struct Scan {
     pub subject: Subject,
+    /// Every session folder found, loaded or not (for checks of other files such as marks).
+    pub session_dirs: Vec<PathBuf>,
     pub diagnostics: Vec<Diagnostic>,
 }
 
@@ -93,6 +95,7 @@ pub fn scan(path: &Path) -> Scan {
             );
             return Scan {
                 subject,
+                session_dirs: Vec::new(),
                 diagnostics: out,
             };
         }
@@ -103,6 +106,7 @@ pub fn scan(path: &Path) -> Scan {
             );
             return Scan {
                 subject,
+                session_dirs: Vec::new(),
                 diagnostics: out,
             };
         }
@@ -120,8 +124,8 @@ pub fn scan(path: &Path) -> Scan {
             )),
         );
     }
-    for dir in dirs {
-        if let Some(s) = read_session(&dir, &mut out) {
+    for dir in &dirs {
+        if let Some(s) = read_session(dir, &mut out) {
             subject.sessions.push(s);
         }
     }
@@ -129,6 +133,7 @@ pub fn scan(path: &Path) -> Scan {
     consistency::check_subject(&subject, &mut out);
     Scan {
         subject,
+        session_dirs: dirs,
         diagnostics: out,
     }
 }
@@ -137,6 +142,10 @@ pub fn scan(path: &Path) -> Scan {
 fn session_dirs(root: &Path, out: &mut Vec<Diagnostic>) -> Vec<PathBuf> {
     if root.join(SESSION_FILE).exists() {
         return vec![root.to_path_buf()];
+    }
+    if root.join(TRIALS_FILE).exists() {
+        out.push(missing_meta(root));
+        return Vec::new();
     }
     let mut found = Vec::new();
     let mut seen = HashSet::new();
@@ -177,17 +186,19 @@ fn walk(
         if sub.join(SESSION_FILE).exists() {
             found.push(sub);
         } else if sub.join(TRIALS_FILE).exists() {
-            out.push(
-                Diagnostic::error(
-                    sub.join(SESSION_FILE),
-                    "missing: the folder has trials.csv but no session.toml",
-                )
-                .expected("session.toml with subject and date in every session folder"),
-            );
+            out.push(missing_meta(&sub));
         } else {
             walk(&sub, depth + 1, seen, found, out);
         }
     }
+}
+
+fn missing_meta(dir: &Path) -> Diagnostic {
+    Diagnostic::error(
+        dir.join(SESSION_FILE),
+        "missing: the folder has trials.csv but no session.toml",
+    )
+    .expected("session.toml with subject and date in every session folder")
 }
 
 fn open(path: &Path) -> Option<(BufReader<File>, u64)> {
@@ -203,12 +214,16 @@ pub fn read_session(dir: &Path, out: &mut Vec<Diagnostic>) -> Option<Session> {
         .file_name()
         .map(|n| n.to_string_lossy().into_owned())
         .unwrap_or_else(|| dir.display().to_string());
-    let meta = read_meta(&dir.join(SESSION_FILE), out);
+    let meta_path = dir.join(SESSION_FILE);
+    let meta = read_meta_partial(&meta_path, out);
+    let declared: Option<Vec<&str>> = meta
+        .as_ref()
+        .map(|m| m.meta.cues.iter().map(|c| c.name.as_str()).collect());
 
     let trials_path = dir.join(TRIALS_FILE);
     let raw_trials = if trials_path.exists() {
         match open(&trials_path) {
-            Some((r, _)) => tables::read_trials(&trials_path, r, out),
+            Some((r, _)) => tables::read_trials(&trials_path, r, declared.as_deref(), out),
             None => {
                 out.push(Diagnostic::error(&trials_path, "cannot open"));
                 None
@@ -233,24 +248,26 @@ pub fn read_session(dir: &Path, out: &mut Vec<Diagnostic>) -> Option<Session> {
         tables::read_photometry(p, r, out)
     });
 
-    let trials = match (&meta, &raw_trials) {
-        (Some(meta), Some(raw)) => Some(match_cues(&trials_path, meta, &raw.value, out)),
-        _ => None,
+    if let (Some(m), Some(raw)) = (&meta, &raw_trials) {
+        consistency::check_trials(&m.meta, &meta_path, &trials_path, &raw.value, out);
+    }
+    let errors_after = out.iter().filter(|d| d.is_error()).count();
+    let (Some(meta), Some(raw)) = (meta, raw_trials) else {
+        return None;
     };
-    let session = Session {
+    if errors_after > errors_before || !meta.ok {
+        return None;
+    }
+    let trials = match_cues(&meta.meta, &raw.value);
+    Some(Session {
         dir: dir.to_path_buf(),
         name,
-        meta: meta?,
-        trials: trials?,
+        meta: meta.meta,
+        trials,
         spikes,
         licks,
         photometry,
-    };
-    if let Some(raw) = &raw_trials {
-        consistency::check_session(&session, &trials_path, &raw.value, out);
-    }
-    let errors_after = out.iter().filter(|d| d.is_error()).count();
-    (errors_after == errors_before).then_some(session)
+    })
 }
 
 type Reader = BufReader<File>;
@@ -276,61 +293,28 @@ fn optional_file<T>(
     read(&path, r, len, out).map(|r| r.value)
 }
 
-/// Turn cue names into indices into `meta.cues`, reporting undeclared names.
-fn match_cues(
-    path: &Path,
-    meta: &SessionMeta,
-    raw: &[RawTrial],
-    out: &mut Vec<Diagnostic>,
-) -> Vec<Trial> {
-    let declared: Vec<&str> = meta.cues.iter().map(|c| c.name.as_str()).collect();
-    let mut undeclared = 0usize;
-    let mut trials = Vec::with_capacity(raw.len());
-    for r in raw {
-        let cue = match &r.cue {
-            None => None,
-            Some(name) => match declared.iter().position(|d| d == name) {
-                Some(i) => Some(i),
-                None => {
-                    undeclared += 1;
-                    if undeclared <= super::csvio::MAX_SHOWN_PER_FILE {
-                        let expected = if declared.is_empty() {
-                            "a cue declared with [[cue]] in session.toml (none are)".to_string()
-                        } else {
-                            format!("one of the cues in session.toml: {}", declared.join(", "))
-                        };
-                        out.push(
-                            Diagnostic::error(path, format!("cue `{name}` is not declared"))
-                                .at_line(r.line)
-                                .column("cue")
-                                .expected(expected),
-                        );
-                    }
-                    continue;
-                }
-            },
-        };
-        trials.push(Trial {
-            number: r.number,
-            cue,
-            cue_s: r.cue_s,
-            reward_s: r.reward_s,
-            // A size without a delivery time is reported by `consistency` and counts as none.
-            reward_ul: if r.reward_s.is_some() {
-                r.reward_ul.unwrap_or(0.0)
-            } else {
-                0.0
-            },
-        });
-    }
-    if undeclared > super::csvio::MAX_SHOWN_PER_FILE {
-        let more = undeclared - super::csvio::MAX_SHOWN_PER_FILE;
-        out.push(Diagnostic::error(
-            path,
-            format!("{more} more undeclared cue names not shown"),
-        ));
-    }
-    trials
+/// Turn cue names into indices into `meta.cues` (the reader has already reported, and left
+/// out, rows naming an undeclared cue).
+fn match_cues(meta: &SessionMeta, raw: &[RawTrial]) -> Vec<Trial> {
+    raw.iter()
+        .filter_map(|r| {
+            let cue = match &r.cue {
+                None => None,
+                Some(name) => Some(meta.cues.iter().position(|c| &c.name == name)?),
+            };
+            Some(Trial {
+                number: r.number,
+                cue,
+                cue_s: r.cue_s,
+                reward_s: r.reward_s,
+                // A size without a delivery time is warned about and counts as no reward.
+                reward_ul: match r.reward_s {
+                    Some(_) => r.reward_ul.unwrap_or(0.0),
+                    None => 0.0,
+                },
+            })
+        })
+        .collect()
 }
 
 #[cfg(test)]

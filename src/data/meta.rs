@@ -27,8 +27,23 @@ struct RawCue {
     reward_delay_s: Option<Spanned<Value>>,
 }
 
+/// A `session.toml` that parsed as TOML: what could be read, and whether it was all valid
+/// (the cues of a file with a bad date still let trials.csv be checked).
+#[derive(Debug, Clone)]
+pub struct MetaRead {
+    pub meta: SessionMeta,
+    pub ok: bool,
+}
+
 /// Read and validate `session.toml`; problems go to `out`. `None` if any error was found.
 pub fn read_meta(path: &Path, out: &mut Vec<Diagnostic>) -> Option<SessionMeta> {
+    read_meta_partial(path, out)
+        .filter(|m| m.ok)
+        .map(|m| m.meta)
+}
+
+/// Like [`read_meta`], keeping what was valid of a file with errors.
+pub fn read_meta_partial(path: &Path, out: &mut Vec<Diagnostic>) -> Option<MetaRead> {
     let bytes = match read_limited(path) {
         Ok(b) => b,
         Err(d) => {
@@ -36,7 +51,7 @@ pub fn read_meta(path: &Path, out: &mut Vec<Diagnostic>) -> Option<SessionMeta> 
             return None;
         }
     };
-    parse_meta(path, &bytes, out)
+    parse_meta_partial(path, &bytes, out)
 }
 
 fn read_limited(path: &Path) -> Result<Vec<u8>, Diagnostic> {
@@ -59,8 +74,19 @@ fn read_limited(path: &Path) -> Result<Vec<u8>, Diagnostic> {
     std::fs::read(path).map_err(|e| Diagnostic::error(path, format!("cannot read: {e}")))
 }
 
-/// Parse the bytes of a `session.toml` (separate from the file for tests).
+/// Parse the bytes of a `session.toml` (separate from the file for tests); `None` on any error.
 pub fn parse_meta(path: &Path, bytes: &[u8], out: &mut Vec<Diagnostic>) -> Option<SessionMeta> {
+    parse_meta_partial(path, bytes, out)
+        .filter(|m| m.ok)
+        .map(|m| m.meta)
+}
+
+/// Parse what can be parsed; `None` only when the bytes are not TOML text at all.
+pub fn parse_meta_partial(
+    path: &Path,
+    bytes: &[u8],
+    out: &mut Vec<Diagnostic>,
+) -> Option<MetaRead> {
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
     if let Some(pos) = bytes.iter().position(|&b| b == 0) {
         out.push(
@@ -223,7 +249,7 @@ pub fn parse_meta(path: &Path, bytes: &[u8], out: &mut Vec<Diagnostic>) -> Optio
         };
         if cues.iter().any(|k| k.name == name) {
             out.push(err(
-                cue_line,
+                cue.name.as_ref().map_or(cue_line, |v| at(v.span())),
                 "cue.name",
                 format!("cue `{name}` is declared twice"),
                 "each cue name once",
@@ -258,15 +284,16 @@ pub fn parse_meta(path: &Path, bytes: &[u8], out: &mut Vec<Diagnostic>) -> Optio
         });
     }
 
-    if out.iter().filter(|d| d.is_error()).count() > before {
-        return None;
-    }
-    Some(SessionMeta {
-        subject,
-        date,
-        start_time,
-        rig,
-        cues,
+    let ok = out.iter().filter(|d| d.is_error()).count() == before;
+    Some(MetaRead {
+        meta: SessionMeta {
+            subject,
+            date,
+            start_time,
+            rig,
+            cues,
+        },
+        ok,
     })
 }
 
@@ -383,7 +410,7 @@ mod tests {
                 ("date".to_string(), Some(1)),
                 ("start_time".to_string(), Some(2)),
                 ("cue.reward_delay_s".to_string(), Some(5)),
-                ("cue.name".to_string(), Some(6)),
+                ("cue.name".to_string(), Some(7)),
             ]
         );
     }

@@ -4,7 +4,7 @@
 //! and sorts what can be sorted (with a warning). Generic over `BufRead` so tests and property
 //! tests can feed bytes directly.
 
-use super::csvio::{optional, required, Table};
+use super::csvio::{optional, required, shorten, Table};
 use super::diag::Diagnostic;
 use super::{Photometry, Spikes};
 use std::collections::HashMap;
@@ -44,99 +44,72 @@ pub struct Span {
 
 const TRIAL_COLS: [&str; 5] = ["trial", "cue", "cue_s", "reward_s", "reward_ul"];
 
-/// Read trials.csv: per-row checks only (the cue names are matched by the caller).
+/// Read trials.csv with every per-row check. `declared` (the cue names of session.toml, when
+/// it could be read) lets undeclared cue names be reported. Only rows without any problem are
+/// kept.
 pub fn read_trials<R: BufRead>(
     path: &Path,
     reader: R,
+    declared: Option<&[&str]>,
     out: &mut Vec<Diagnostic>,
 ) -> Option<Read<Vec<RawTrial>>> {
     let specs = TRIAL_COLS.map(required);
     let mut t = Table::new(path, reader, &specs, out)?;
     let mut trials: Vec<RawTrial> = Vec::new();
     let mut last_number: Option<(i64, u64)> = None;
+    let mut rows_seen = 0usize;
     while t.next_row() {
+        rows_seen += 1;
         let line = t.line();
-        let number = match t.text(0) {
-            "" => {
-                t.diags.error_at(
-                    line,
-                    "trial",
-                    "empty value".into(),
-                    "an integer trial number",
-                );
-                None
-            }
-            s => match s.parse::<i64>() {
-                Ok(n) => Some(n),
-                Err(_) => {
-                    let msg = format!("not an integer: `{}`", super::csvio::shorten(s));
-                    t.diags
-                        .error_at(line, "trial", msg, "an integer trial number");
-                    None
-                }
-            },
-        };
-        if let (Some(n), Some((prev, prev_line))) = (number, last_number) {
-            if n == prev {
-                let msg = format!("trial {n} appears twice (first on line {prev_line})");
-                t.diags.error_at(line, "trial", msg, "unique trial numbers");
-            } else if n < prev {
-                let msg = format!("trial {n} comes after trial {prev} (line {prev_line})");
-                t.diags
-                    .error_at(line, "trial", msg, "increasing trial numbers");
+        let errors_before = t.diags.errors;
+        let number = trial_number(&mut t, &mut last_number);
+        let cue = Some(t.text(1).to_string()).filter(|s| !s.is_empty());
+        if let (Some(name), Some(declared)) = (&cue, declared) {
+            if !declared.contains(&name.as_str()) {
+                let expected = if declared.is_empty() {
+                    "a cue declared with [[cue]] in session.toml (none are)".to_string()
+                } else {
+                    format!("one of the cues in session.toml: {}", declared.join(", "))
+                };
+                let msg = format!("cue `{}` is not declared", shorten(name));
+                t.diags.error_at(line, "cue", msg, &expected);
             }
         }
-        let cue = Some(t.text(1).to_string()).filter(|s| !s.is_empty());
         let cue_s = t.non_negative(2, "cue_s", "a time in seconds");
         let reward_s = t.non_negative(3, "reward_s", "a time in seconds");
         let reward_ul = t.non_negative(4, "reward_ul", "a reward size in µl");
-        let (Ok(cue_s), Ok(reward_s), Ok(reward_ul), Some(number)) =
-            (cue_s, reward_s, reward_ul, number)
-        else {
+        let (Ok(cue_s), Ok(reward_s), Ok(reward_ul)) = (cue_s, reward_s, reward_ul) else {
             continue;
         };
-        // Only a number greater than all before it moves the bar; a duplicate is reported above.
-        if last_number.is_none_or(|(prev, _)| number > prev) {
-            last_number = Some((number, line));
-        } else {
-            continue;
-        }
-        let mut row_ok = true;
         match (&cue, cue_s) {
             (Some(name), None) => {
-                let msg = format!("cue `{name}` without an onset time");
+                let msg = format!("cue `{}` without an onset time", shorten(name));
                 t.diags
                     .error_at(line, "cue_s", msg, "the cue onset in seconds");
-                row_ok = false;
             }
-            (None, Some(_)) => {
-                t.diags.error_at(
-                    line,
-                    "cue",
-                    "cue onset given but no cue name".into(),
-                    "a cue name from session.toml, or empty cue_s",
-                );
-                row_ok = false;
-            }
+            (None, Some(_)) => t.diags.error_at(
+                line,
+                "cue",
+                "cue onset given but no cue name".into(),
+                "a cue name from session.toml, or empty cue_s",
+            ),
             _ => {}
         }
         if cue.is_none() && cue_s.is_none() && reward_s.is_none() {
             t.diags.error_at(
                 line,
                 "trial",
-                format!("trial {number} has neither a cue nor a reward"),
+                "trial has neither a cue nor a reward".into(),
                 "a cue (cue, cue_s), a reward (reward_s), or both",
             );
-            row_ok = false;
         }
         if let (Some(c), Some(r)) = (cue_s, reward_s) {
             if r < c {
                 let msg = format!("reward at {r} s comes before the cue at {c} s");
                 t.diags.error_at(line, "reward_s", msg, "reward_s ≥ cue_s");
-                row_ok = false;
             }
         }
-        if row_ok {
+        if let (Some(number), true) = (number, t.diags.errors == errors_before) {
             trials.push(RawTrial {
                 line,
                 number,
@@ -147,9 +120,10 @@ pub fn read_trials<R: BufRead>(
             });
         }
     }
-    if trials.is_empty() && t.diags.errors == 0 {
+    if rows_seen == 0 && t.diags.errors == 0 {
         let d = Diagnostic::error(path, "no trials: the table has a header but no rows")
-            .expected("one row per trial");
+            .at_line(1)
+            .expected("one row per trial under the header");
         t.diags.push(d);
     }
     let errors = t.finish(out);
@@ -157,6 +131,43 @@ pub fn read_trials<R: BufRead>(
         value: trials,
         errors,
     })
+}
+
+/// The `trial` column: an integer greater than every trial number before it.
+fn trial_number<R: BufRead>(t: &mut Table<R>, last: &mut Option<(i64, u64)>) -> Option<i64> {
+    let line = t.line();
+    let text = t.text(0);
+    if text.is_empty() {
+        t.diags.error_at(
+            line,
+            "trial",
+            "empty value".into(),
+            "an integer trial number",
+        );
+        return None;
+    }
+    let Ok(n) = text.parse::<i64>() else {
+        let msg = format!("not an integer: `{}`", shorten(text));
+        t.diags
+            .error_at(line, "trial", msg, "an integer trial number");
+        return None;
+    };
+    match *last {
+        Some((prev, prev_line)) if n == prev => {
+            let msg = format!("trial {n} appears twice (first on line {prev_line})");
+            t.diags.error_at(line, "trial", msg, "unique trial numbers");
+        }
+        Some((prev, prev_line)) if n < prev => {
+            let msg = format!("trial {n} comes after trial {prev} (line {prev_line})");
+            t.diags
+                .error_at(line, "trial", msg, "increasing trial numbers");
+        }
+        _ => {
+            *last = Some((n, line));
+            return Some(n);
+        }
+    }
+    None
 }
 
 /// Read spikes.csv into per-unit sorted spike trains (units in natural name order).
