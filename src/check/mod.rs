@@ -76,6 +76,10 @@ fn check_marks(dir: &Path, session: Option<&Session>, out: &mut Vec<Diagnostic>)
             out.push(Diagnostic::error(&path, format!("cannot read: {source}")));
             return;
         }
+        Err(marks::MarksError::Invalid { message, .. }) => {
+            out.push(Diagnostic::error(&path, message));
+            return;
+        }
     };
     if let Some((line, text)) = &journal.torn_tail {
         out.push(
