@@ -1,1 +1,261 @@
-//! (in progress)
+//! Fitting the TD model (and the Rescorla–Wagner baseline) to recorded dopamine responses.
+//!
+//! Where to start: [`dataset::FitData`] is what a fit sees — the subject's trial spans in
+//! training order and one [`dataset::ObsPoint`] per observed response window, each flagged
+//! `excluded` or not. [`objective::Problem`] turns learning parameters into per-window δ sums
+//! and scores them (gain and baselines in closed form, σ² profiled out);
+//! [`optimise::fit_multistart`] searches the learning parameters; [`bootstrap`] gives
+//! percentile intervals and the γ profile check; [`compare`] fits every model and scores it on
+//! held-out sessions; [`report`] writes the text report and CSV tables; [`saved`] keeps the
+//! chosen fit in the subject folder. [`run_fit`] runs the whole job.
+//!
+//! Excluded trials: their observations leave the likelihood, but every trial stays in the spans,
+//! so the model learns from all of them (the animal lived through them).
+
+pub mod bootstrap;
+pub mod compare;
+pub mod dataset;
+pub mod objective;
+pub mod optimise;
+pub mod report;
+pub mod saved;
+pub mod synthetic;
+
+pub use bootstrap::{GammaProfile, Intervals, ResampleUnit};
+pub use compare::ModelRow;
+pub use dataset::{Exclusions, FitData, ObsPoint, WindowKind};
+pub use objective::{LearnParams, LinearFit, ModelSpec, Problem};
+pub use optimise::{FitResult, SearchOptions};
+
+use crate::model::Representation;
+
+/// Fewest included observations a fit accepts: below this the closed-form part alone
+/// (gain, two baselines, σ) nearly saturates the data.
+pub const MIN_OBSERVATIONS: usize = 10;
+
+/// What can stop a fit. Each message says what was found and what to try.
+#[derive(Debug, thiserror::Error, PartialEq)]
+pub enum FitError {
+    #[error("no observations to fit: {0}")]
+    NoObservations(String),
+    #[error(
+        "all {n} observations belong to excluded trials; nothing is left to fit \
+         (rerun with --ignore-marks to fit them anyway)"
+    )]
+    AllExcluded { n: usize },
+    #[error("only {n} observations remain after exclusions; at least {min} are needed for a fit")]
+    TooFew { n: usize, min: usize },
+    #[error("the observed responses have zero variance ({n} observations, all equal to {value}); there is nothing for the model to explain")]
+    ZeroVariance { n: usize, value: f64 },
+    #[error("observation {index} (session {session}, trial {trial}, {window} window) is not a finite number")]
+    NotFinite {
+        index: usize,
+        session: String,
+        trial: i64,
+        window: &'static str,
+    },
+    #[error("the optimiser found no parameters with a finite likelihood for {model}")]
+    NoFiniteFit { model: String },
+}
+
+/// How the fit runs. Defaults are the ones `trialdesk fit --help` states.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FitOptions {
+    /// The representation whose parameters are reported and saved.
+    pub representation: Representation,
+    /// Free λ (otherwise fixed at `lambda`).
+    pub fit_lambda: bool,
+    pub lambda: f64,
+    /// Bootstrap replicates; 0 disables intervals.
+    pub bootstrap: usize,
+    pub resample: ResampleUnit,
+    pub seed: u64,
+    /// Sessions held out at the end for the comparison's held-out error (`None`: the last fifth,
+    /// at least one).
+    pub holdout_sessions: Option<usize>,
+    /// Fit the other models for the comparison table.
+    pub compare: bool,
+    pub search: SearchOptions,
+}
+
+impl Default for FitOptions {
+    fn default() -> Self {
+        FitOptions {
+            representation: Representation::Csc,
+            fit_lambda: false,
+            lambda: 0.0,
+            bootstrap: 50,
+            resample: ResampleUnit::Trials,
+            seed: 7,
+            holdout_sessions: None,
+            compare: true,
+            search: SearchOptions::default(),
+        }
+    }
+}
+
+/// Progress reporting for long phases; the library never draws anything itself.
+pub trait Progress: Sync {
+    /// A new phase with `total` steps.
+    fn phase(&self, _name: &str, _total: u64) {}
+    /// One step done.
+    fn tick(&self) {}
+}
+
+/// Progress that goes nowhere.
+pub struct NoProgress;
+impl Progress for NoProgress {}
+
+/// Everything one `trialdesk fit` computes.
+#[derive(Debug, Clone)]
+pub struct FitOutcome {
+    pub model: ModelSpec,
+    pub best: FitResult,
+    /// Predicted response for every point (excluded ones too), from the best fit.
+    pub predicted: Vec<f64>,
+    pub n_included: usize,
+    pub r_squared: f64,
+    pub rmse: f64,
+    pub intervals: Option<Intervals>,
+    pub gamma_profile: Option<GammaProfile>,
+    pub comparison: Vec<ModelRow>,
+    /// Trailing sessions held out for the comparison's held-out error.
+    pub holdout_sessions: usize,
+    /// Plain-language warnings for the report (poorly constrained γ, negative gain, ...).
+    pub warnings: Vec<String>,
+}
+
+/// Check that `data` can be fitted; returns the indices of the included points.
+pub fn validate(data: &FitData) -> Result<Vec<usize>, FitError> {
+    if data.points.is_empty() {
+        return Err(FitError::NoObservations(
+            "no trial gave a cue or reward response window".into(),
+        ));
+    }
+    for (i, p) in data.points.iter().enumerate() {
+        if !p.observed.is_finite() {
+            let (session, trial) = data.label(p.span);
+            return Err(FitError::NotFinite {
+                index: i,
+                session: session.to_string(),
+                trial,
+                window: p.kind.name(),
+            });
+        }
+    }
+    let included = data.included();
+    if included.is_empty() {
+        return Err(FitError::AllExcluded {
+            n: data.points.len(),
+        });
+    }
+    if included.len() < MIN_OBSERVATIONS {
+        return Err(FitError::TooFew {
+            n: included.len(),
+            min: MIN_OBSERVATIONS,
+        });
+    }
+    let first = data.points[included[0]].observed;
+    let spread = included
+        .iter()
+        .map(|&i| (data.points[i].observed - first).abs())
+        .fold(0.0, f64::max);
+    if spread <= 1e-12 * first.abs().max(1e-300) || spread == 0.0 {
+        return Err(FitError::ZeroVariance {
+            n: included.len(),
+            value: first,
+        });
+    }
+    Ok(included)
+}
+
+/// Fit the chosen representation, its intervals and γ check, and (optionally) the comparison.
+pub fn run_fit(
+    data: &FitData,
+    opts: &FitOptions,
+    progress: &dyn Progress,
+) -> Result<FitOutcome, FitError> {
+    let included = validate(data)?;
+    let model = ModelSpec::Td(opts.representation);
+    let problem = Problem::new(data, model, opts.fit_lambda, opts.lambda);
+
+    progress.phase("fitting", opts.search.budget(&problem) as u64);
+    let best =
+        optimise::fit_multistart(&problem, &included, &opts.search, progress).ok_or_else(|| {
+            FitError::NoFiniteFit {
+                model: model.name().to_string(),
+            }
+        })?;
+    let x = problem.predictors(&best.params);
+    let predicted: Vec<f64> = data
+        .points
+        .iter()
+        .zip(&x)
+        .map(|(p, &xi)| best.linear.predict(p.kind, xi))
+        .collect();
+    let (r_squared, rmse) = objective::goodness(data, &included, &predicted);
+
+    let mut warnings = Vec::new();
+    if best.linear.gain <= 0.0 {
+        warnings.push(format!(
+            "the fitted gain is {} (not positive): the responses do not rise with the model's \
+             prediction error, so the learning parameters mean little",
+            report::num(best.linear.gain)
+        ));
+    }
+
+    let gamma_profile = if problem.has_gamma() {
+        progress.phase("checking γ", 4 * opts.search.max_iters_refine);
+        let prof = bootstrap::gamma_profile(&problem, &included, &best, &opts.search, progress);
+        if prof.flat {
+            warnings.push(prof.warning(data.dt));
+        }
+        Some(prof)
+    } else {
+        None
+    };
+
+    let intervals = if opts.bootstrap > 0 {
+        progress.phase("bootstrap", opts.bootstrap as u64);
+        let iv = bootstrap::bootstrap(
+            &problem,
+            &included,
+            &best,
+            opts.bootstrap,
+            opts.resample,
+            opts.seed,
+            &opts.search,
+            progress,
+        );
+        if iv.n_ok < opts.bootstrap {
+            warnings.push(format!(
+                "{} of {} bootstrap replicates could not be fitted and were left out",
+                opts.bootstrap - iv.n_ok,
+                opts.bootstrap
+            ));
+        }
+        Some(iv)
+    } else {
+        None
+    };
+
+    let comparison = if opts.compare {
+        compare::compare(data, &included, opts, (model, &best), progress)
+    } else {
+        Vec::new()
+    };
+
+    Ok(FitOutcome {
+        model,
+        best,
+        predicted,
+        n_included: included.len(),
+        r_squared,
+        rmse,
+        intervals,
+        gamma_profile,
+        comparison,
+        holdout_sessions: compare::holdout_count(data.n_sessions(), opts.holdout_sessions),
+        warnings,
+    })
+}

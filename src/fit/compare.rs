@@ -1,0 +1,122 @@
+//! Model comparison: csc, microstimulus and presence TD and trial-level Rescorla–Wagner, each
+//! fitted to the same included observations, scored by lnL, AIC, BIC and held-out error.
+//!
+//! Held-out error uses the last sessions (forward validation, not random trials: learning makes
+//! trials dependent, methods.md §4). Learning parameters, gain and baselines are fitted on the
+//! earlier sessions' observations; the model pass still runs over every trial, held-out ones
+//! included, and the held-out observations are predicted with the training gain and baselines.
+
+use super::objective::{aic, bic, LearnParams, ModelSpec, Problem};
+use super::optimise::{fit_multistart, FitResult};
+use super::{FitData, FitOptions, Progress};
+use crate::model::{MicrostimulusParams, Representation};
+
+/// One row of the comparison table.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ModelRow {
+    pub model: ModelSpec,
+    pub params: LearnParams,
+    pub log_likelihood: f64,
+    /// Parameters counted: learning parameters, gain, baselines, σ.
+    pub k: usize,
+    pub n: usize,
+    pub aic: f64,
+    pub bic: f64,
+    /// RMSE on the held-out sessions' included observations; `None` when there is no earlier
+    /// session to train on or nothing to predict.
+    pub heldout_rmse: Option<f64>,
+    pub heldout_n: usize,
+}
+
+/// The models of the comparison, in table order.
+pub fn models() -> [ModelSpec; 4] {
+    [
+        ModelSpec::Td(Representation::Csc),
+        ModelSpec::Td(Representation::Microstimulus(MicrostimulusParams::default())),
+        ModelSpec::Td(Representation::Presence),
+        ModelSpec::RescorlaWagner,
+    ]
+}
+
+/// Number of trailing sessions held out: `requested`, or the last fifth (at least one); never
+/// all of them. 0 when the subject has a single session.
+pub fn holdout_count(n_sessions: usize, requested: Option<usize>) -> usize {
+    if n_sessions < 2 {
+        return 0;
+    }
+    let want = requested.unwrap_or_else(|| (n_sessions as f64 / 5.0).round().max(1.0) as usize);
+    want.min(n_sessions - 1)
+}
+
+/// Split included points into (training, held-out) by session.
+pub fn split(data: &FitData, idx: &[usize], n_holdout: usize) -> (Vec<usize>, Vec<usize>) {
+    let first_held = data.n_sessions().saturating_sub(n_holdout);
+    idx.iter()
+        .partition(|&&i| n_holdout == 0 || data.session_of(i) < first_held)
+}
+
+/// Fit every model of [`models`]; `chosen` reuses the main fit for its model.
+pub fn compare(
+    data: &FitData,
+    idx: &[usize],
+    opts: &FitOptions,
+    chosen: (ModelSpec, &FitResult),
+    progress: &dyn Progress,
+) -> Vec<ModelRow> {
+    let n_holdout = holdout_count(data.n_sessions(), opts.holdout_sessions);
+    let (train, test) = split(data, idx, n_holdout);
+    progress.phase("comparing models", 0);
+    let mut rows = Vec::new();
+    for model in models() {
+        let problem = Problem::new(data, model, opts.fit_lambda, opts.lambda);
+        let full = if same_model(model, chosen.0) {
+            Some(chosen.1.clone())
+        } else {
+            fit_multistart(&problem, idx, &opts.search, progress)
+        };
+        let Some(full) = full else { continue };
+        let heldout = heldout_error(&problem, &train, &test, opts, progress);
+        let k = problem.n_params(&full.linear);
+        rows.push(ModelRow {
+            model,
+            params: full.params,
+            log_likelihood: full.log_likelihood,
+            k,
+            n: idx.len(),
+            aic: aic(full.log_likelihood, k),
+            bic: bic(full.log_likelihood, k, idx.len()),
+            heldout_rmse: heldout.map(|h| h.0),
+            heldout_n: heldout.map(|h| h.1).unwrap_or(0),
+        });
+    }
+    rows
+}
+
+fn same_model(a: ModelSpec, b: ModelSpec) -> bool {
+    a.name() == b.name()
+}
+
+/// (RMSE, n) of predicting `test` from a fit on `train`.
+pub fn heldout_error(
+    problem: &Problem,
+    train: &[usize],
+    test: &[usize],
+    opts: &FitOptions,
+    progress: &dyn Progress,
+) -> Option<(f64, usize)> {
+    if test.is_empty() || train.len() < super::MIN_OBSERVATIONS {
+        return None;
+    }
+    let fit = fit_multistart(problem, train, &opts.search, progress)?;
+    let x = problem.predictors(&fit.params);
+    let data = problem.data;
+    let sse: f64 = test
+        .iter()
+        .map(|&i| {
+            let p = &data.points[i];
+            (p.observed - fit.linear.predict(p.kind, x[i])).powi(2)
+        })
+        .sum();
+    let rmse = (sse / test.len() as f64).sqrt();
+    rmse.is_finite().then_some((rmse, test.len()))
+}

@@ -1,0 +1,225 @@
+//! What a fit sees: trial spans in training order and one observation per response window.
+//!
+//! [`FitData`] is built by [`build`] from a loaded subject, its observations (`obs`) and its
+//! marks, or directly from parts (tests, benchmarks, the simulator's recovery checks).
+
+use crate::data::Subject;
+use crate::marks::MarkState;
+use crate::model::{layout_subject, TrialSpan};
+use crate::obs::{event_bins, window_bins, ObsOptions, TrialObs};
+use std::collections::{BTreeMap, HashMap};
+
+/// Which event a response window follows.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum WindowKind {
+    /// After cue onset.
+    Cue,
+    /// After the delivered reward, or after the expected reward time on omission trials.
+    Reward,
+}
+
+impl WindowKind {
+    pub const ALL: [WindowKind; 2] = [WindowKind::Cue, WindowKind::Reward];
+
+    pub fn name(self) -> &'static str {
+        match self {
+            WindowKind::Cue => "cue",
+            WindowKind::Reward => "reward",
+        }
+    }
+
+    pub fn index(self) -> usize {
+        match self {
+            WindowKind::Cue => 0,
+            WindowKind::Reward => 1,
+        }
+    }
+}
+
+/// One observed response and where the model's δ for it lies.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ObsPoint {
+    /// Index into [`FitData::spans`].
+    pub span: usize,
+    pub kind: WindowKind,
+    /// The model bins (within the span) whose δ is summed: `first_bin..end_bin`, already shifted
+    /// back by the response latency and clipped to the span.
+    pub first_bin: u32,
+    pub end_bin: u32,
+    /// Observed response (window mean minus pre-cue baseline).
+    pub observed: f64,
+    /// The trial is marked `exclude` (and marks are honoured): out of the likelihood.
+    pub excluded: bool,
+}
+
+/// The excluded-trial count the report must show, with reasons.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Exclusions {
+    /// `--ignore-marks`: marks were read but not applied.
+    pub ignore_marks: bool,
+    /// Trials whose standing mark is `exclude` (applied or, with `ignore_marks`, not).
+    pub n_trials: usize,
+    /// Those trials counted per reason ("(no reason given)" for an empty one).
+    pub by_reason: BTreeMap<String, usize>,
+}
+
+/// The fitting data of one subject.
+#[derive(Debug, Clone)]
+pub struct FitData {
+    /// Every trial the model can place, in training order; the model runs over all of them.
+    pub spans: Vec<TrialSpan>,
+    pub n_cues: usize,
+    /// Model bin width, seconds.
+    pub dt: f64,
+    /// Session folder names, indexed by `TrialSpan::session`.
+    pub session_names: Vec<String>,
+    /// The `trial` number of each span.
+    pub trial_numbers: Vec<i64>,
+    pub points: Vec<ObsPoint>,
+    pub exclusions: Exclusions,
+}
+
+impl FitData {
+    /// Indices of the points that enter the likelihood.
+    pub fn included(&self) -> Vec<usize> {
+        (0..self.points.len())
+            .filter(|&i| !self.points[i].excluded)
+            .collect()
+    }
+
+    /// (session name, trial number) of a span.
+    pub fn label(&self, span: usize) -> (&str, i64) {
+        let s = &self.spans[span];
+        (
+            self.session_names
+                .get(s.session)
+                .map(String::as_str)
+                .unwrap_or("?"),
+            self.trial_numbers.get(span).copied().unwrap_or(-1),
+        )
+    }
+
+    /// Session index of a point.
+    pub fn session_of(&self, point: usize) -> usize {
+        self.spans[self.points[point].span].session
+    }
+
+    /// Number of sessions that have at least one span.
+    pub fn n_sessions(&self) -> usize {
+        self.spans.iter().map(|s| s.session + 1).max().unwrap_or(0)
+    }
+
+    /// The same data with every exclusion lifted (`--ignore-marks`), keeping the counts.
+    pub fn ignoring_marks(&self) -> FitData {
+        let mut d = self.clone();
+        for p in &mut d.points {
+            p.excluded = false;
+        }
+        d.exclusions.ignore_marks = true;
+        d
+    }
+}
+
+/// Clip a δ-sum window (in bins, may start before the span) to the span's bins.
+pub fn clip_bins(first: i64, end: i64, n_bins: usize) -> Option<(u32, u32)> {
+    let lo = first.max(0);
+    let hi = end.min(n_bins as i64);
+    (hi > lo).then_some((lo as u32, hi as u32))
+}
+
+/// Reason shown for an exclusion without one.
+pub const NO_REASON: &str = "(no reason given)";
+
+/// The fitting data of a loaded subject: spans at bin width `dt`, one point per observed
+/// response window (mapped onto bins by [`crate::obs::window_bins`]), flagged by the standing
+/// marks (`marks[i]` belongs to `subject.sessions[i]`; missing entries mean no marks).
+pub fn build(
+    subject: &Subject,
+    observations: &[TrialObs],
+    obs_opts: &ObsOptions,
+    dt: f64,
+    marks: &[MarkState],
+    ignore_marks: bool,
+) -> FitData {
+    let spans = layout_subject(subject, dt);
+    let index: HashMap<(usize, usize), usize> = spans
+        .iter()
+        .enumerate()
+        .map(|(i, s)| ((s.session, s.trial), i))
+        .collect();
+    let excluded_mark = |session: usize, trial: usize| -> Option<&str> {
+        let number = subject.sessions[session].trials[trial].number;
+        let state = marks.get(session)?;
+        state.is_excluded(number).then(|| {
+            state
+                .marks
+                .get(&number)
+                .map(|m| m.reason.as_str())
+                .unwrap_or("")
+        })
+    };
+
+    let mut exclusions = Exclusions {
+        ignore_marks,
+        ..Default::default()
+    };
+    for s in &spans {
+        if let Some(reason) = excluded_mark(s.session, s.trial) {
+            exclusions.n_trials += 1;
+            let reason = if reason.trim().is_empty() {
+                NO_REASON
+            } else {
+                reason.trim()
+            };
+            *exclusions.by_reason.entry(reason.to_string()).or_default() += 1;
+        }
+    }
+
+    let mut points = Vec::with_capacity(observations.len() * 2);
+    for o in observations {
+        let Some(&si) = index.get(&(o.session, o.trial)) else {
+            continue;
+        };
+        let span = &spans[si];
+        let excluded = !ignore_marks && excluded_mark(o.session, o.trial).is_some();
+        let (cue_bin, reward_bin) = event_bins(span);
+        for (kind, value, event, window) in [
+            (WindowKind::Cue, o.cue, cue_bin, obs_opts.cue_window),
+            (
+                WindowKind::Reward,
+                o.reward,
+                reward_bin,
+                obs_opts.reward_window,
+            ),
+        ] {
+            let (Some(value), Some(event)) = (value, event) else {
+                continue;
+            };
+            let bins = window_bins(span, event, window, obs_opts.latency, dt);
+            if bins.is_empty() {
+                continue;
+            }
+            points.push(ObsPoint {
+                span: si,
+                kind,
+                first_bin: bins.start as u32,
+                end_bin: bins.end as u32,
+                observed: value,
+                excluded,
+            });
+        }
+    }
+
+    FitData {
+        trial_numbers: spans
+            .iter()
+            .map(|s| subject.sessions[s.session].trials[s.trial].number)
+            .collect(),
+        session_names: subject.sessions.iter().map(|s| s.name.clone()).collect(),
+        n_cues: subject.cue_names().len(),
+        spans,
+        dt,
+        points,
+        exclusions,
+    }
+}

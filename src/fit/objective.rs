@@ -1,0 +1,304 @@
+//! The fitting objective: model δ summed per window → closed-form gain and baselines →
+//! Gaussian log-likelihood with σ² profiled out.
+//!
+//! Observation model (methods.md §4, after Montague, Dayan & Sejnowski 1996): for window j of
+//! kind e (cue or reward), y_j = b_e + g·x_j + ε, ε ~ N(0, σ²), with x_j the model δ summed over
+//! the window's bins. One gain for both windows (one response function up to scale, Eshel et
+//! al. 2016) and one baseline per window kind, since cue and reward windows sit at different
+//! points of the trial and their pre-event levels need not match. For fixed learning parameters
+//! this is ordinary least squares; σ̂² = RSS/n, and the profiled log-likelihood is
+//! lnL = −n/2·(ln(2π·RSS/n) + 1).
+
+use super::dataset::{FitData, WindowKind};
+use crate::model::{rw, td, FeatureSpace, Representation, TdParams};
+
+/// A model the fitter can score.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum ModelSpec {
+    Td(Representation),
+    /// Trial-level Rescorla–Wagner: x = δ_cue or δ_reward of the trial.
+    RescorlaWagner,
+}
+
+impl ModelSpec {
+    pub fn name(&self) -> &'static str {
+        match self {
+            ModelSpec::Td(r) => r.name(),
+            ModelSpec::RescorlaWagner => "rescorla-wagner",
+        }
+    }
+}
+
+/// Learning parameters in natural units (γ and λ per model bin).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LearnParams {
+    pub alpha: f64,
+    pub gamma: f64,
+    pub lambda: f64,
+}
+
+/// The closed-form part of a fit.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LinearFit {
+    pub gain: f64,
+    /// Baseline per window kind (`WindowKind::index`); `None` when no such window was fitted.
+    pub baselines: [Option<f64>; 2],
+    pub rss: f64,
+    pub n: usize,
+}
+
+impl LinearFit {
+    pub fn predict(&self, kind: WindowKind, x: f64) -> f64 {
+        self.baselines[kind.index()].unwrap_or(0.0) + self.gain * x
+    }
+
+    /// Number of baselines estimated.
+    pub fn n_baselines(&self) -> usize {
+        self.baselines.iter().filter(|b| b.is_some()).count()
+    }
+
+    /// Profiled Gaussian log-likelihood.
+    pub fn log_likelihood(&self) -> f64 {
+        gaussian_loglik(self.rss, self.n)
+    }
+}
+
+/// lnL of n residuals with sum of squares `rss` at the maximum-likelihood σ² = rss/n.
+pub fn gaussian_loglik(rss: f64, n: usize) -> f64 {
+    let n = n as f64;
+    -0.5 * n * ((2.0 * std::f64::consts::PI * rss / n).ln() + 1.0)
+}
+
+/// Akaike information criterion, 2k − 2lnL.
+pub fn aic(loglik: f64, k: usize) -> f64 {
+    2.0 * k as f64 - 2.0 * loglik
+}
+
+/// Schwarz's Bayesian information criterion, k·ln n − 2lnL.
+pub fn bic(loglik: f64, k: usize, n: usize) -> f64 {
+    k as f64 * (n as f64).ln() - 2.0 * loglik
+}
+
+/// Least squares of y on [one indicator per window kind, x] over the points `idx` (repeats
+/// allowed: bootstrap samples). Two passes (group means, then centred sums) for accuracy.
+/// `None` when `idx` is empty. A predictor without spread within groups gets gain 0.
+pub fn least_squares(
+    x: &[f64],
+    y: &[f64],
+    kind: &[WindowKind],
+    idx: &[usize],
+) -> Option<LinearFit> {
+    if idx.is_empty() {
+        return None;
+    }
+    let mut n = [0usize; 2];
+    let mut sx = [0.0; 2];
+    let mut sy = [0.0; 2];
+    for &i in idx {
+        let g = kind[i].index();
+        n[g] += 1;
+        sx[g] += x[i];
+        sy[g] += y[i];
+    }
+    let mut mx = [0.0; 2];
+    let mut my = [0.0; 2];
+    for g in 0..2 {
+        if n[g] > 0 {
+            mx[g] = sx[g] / n[g] as f64;
+            my[g] = sy[g] / n[g] as f64;
+        }
+    }
+    let (mut sxx, mut sxy, mut syy) = (0.0, 0.0, 0.0);
+    for &i in idx {
+        let g = kind[i].index();
+        let dx = x[i] - mx[g];
+        let dy = y[i] - my[g];
+        sxx += dx * dx;
+        sxy += dx * dy;
+        syy += dy * dy;
+    }
+    let scale: f64 = idx.iter().map(|&i| x[i] * x[i]).sum::<f64>().max(1e-300);
+    let gain = if sxx > 1e-14 * scale { sxy / sxx } else { 0.0 };
+    let mut baselines = [None; 2];
+    for g in 0..2 {
+        if n[g] > 0 {
+            baselines[g] = Some(my[g] - gain * mx[g]);
+        }
+    }
+    // Direct residual sum: RSS = Syy − g·Sxy loses digits when the fit is good.
+    let rss: f64 = idx
+        .iter()
+        .map(|&i| {
+            let g = kind[i].index();
+            let r = y[i] - my[g] - gain * (x[i] - mx[g]);
+            r * r
+        })
+        .sum::<f64>()
+        .max(syy * 1e-30);
+    Some(LinearFit {
+        gain,
+        baselines,
+        rss,
+        n: idx.len(),
+    })
+}
+
+/// (R², RMSE) of `predicted` against the observed values of the points `idx`.
+pub fn goodness(data: &FitData, idx: &[usize], predicted: &[f64]) -> (f64, f64) {
+    let n = idx.len().max(1) as f64;
+    let mean = idx.iter().map(|&i| data.points[i].observed).sum::<f64>() / n;
+    let (mut ss_res, mut ss_tot) = (0.0, 0.0);
+    for &i in idx {
+        let y = data.points[i].observed;
+        ss_res += (y - predicted[i]).powi(2);
+        ss_tot += (y - mean).powi(2);
+    }
+    let r2 = if ss_tot > 0.0 {
+        1.0 - ss_res / ss_tot
+    } else {
+        0.0
+    };
+    (r2, (ss_res / n).sqrt())
+}
+
+/// Bounds of the search on the logit scale: keeps α in about [6e-6, 0.99999] and γ, λ likewise,
+/// where the likelihood is flat anyway, so the simplex cannot run off to infinity.
+pub const Z_BOUND: f64 = 12.0;
+
+pub fn expit(z: f64) -> f64 {
+    let z = z.clamp(-Z_BOUND, Z_BOUND);
+    1.0 / (1.0 + (-z).exp())
+}
+
+pub fn logit(p: f64) -> f64 {
+    let p = p.clamp(1e-12, 1.0 - 1e-12);
+    (p / (1.0 - p)).ln().clamp(-Z_BOUND, Z_BOUND)
+}
+
+/// One model on one data set: maps search coordinates to δ sums and scores them.
+pub struct Problem<'a> {
+    pub data: &'a FitData,
+    pub model: ModelSpec,
+    pub fit_lambda: bool,
+    /// λ when not fitted.
+    pub lambda: f64,
+    /// Built once per representation; every evaluation reuses it.
+    space: Option<FeatureSpace>,
+    observed: Vec<f64>,
+    kinds: Vec<WindowKind>,
+}
+
+impl<'a> Problem<'a> {
+    pub fn new(data: &'a FitData, model: ModelSpec, fit_lambda: bool, lambda: f64) -> Self {
+        let space = match model {
+            ModelSpec::Td(repr) => Some(FeatureSpace::new(&data.spans, data.n_cues, repr, data.dt)),
+            ModelSpec::RescorlaWagner => None,
+        };
+        Problem {
+            data,
+            model,
+            fit_lambda: fit_lambda && matches!(model, ModelSpec::Td(_)),
+            lambda,
+            space,
+            observed: data.points.iter().map(|p| p.observed).collect(),
+            kinds: data.points.iter().map(|p| p.kind).collect(),
+        }
+    }
+
+    pub fn has_gamma(&self) -> bool {
+        matches!(self.model, ModelSpec::Td(_))
+    }
+
+    /// Number of searched coordinates: α, then γ, then λ.
+    pub fn n_free(&self) -> usize {
+        match self.model {
+            ModelSpec::Td(_) => 2 + usize::from(self.fit_lambda),
+            ModelSpec::RescorlaWagner => 1,
+        }
+    }
+
+    /// Parameters counted by AIC/BIC: learning parameters, gain, baselines, σ.
+    pub fn n_params(&self, linear: &LinearFit) -> usize {
+        self.n_free() + 1 + linear.n_baselines() + 1
+    }
+
+    pub fn to_params(&self, z: &[f64]) -> LearnParams {
+        LearnParams {
+            alpha: expit(z[0]),
+            gamma: if self.has_gamma() { expit(z[1]) } else { 0.0 },
+            lambda: if self.fit_lambda {
+                expit(z[2])
+            } else {
+                self.lambda
+            },
+        }
+    }
+
+    pub fn to_z(&self, p: &LearnParams) -> Vec<f64> {
+        let mut z = vec![logit(p.alpha)];
+        if self.has_gamma() {
+            z.push(logit(p.gamma));
+        }
+        if self.fit_lambda {
+            z.push(logit(p.lambda));
+        }
+        z
+    }
+
+    /// The model's δ summed over each point's window (excluded points too: one pass over all
+    /// trials serves every point).
+    pub fn predictors(&self, p: &LearnParams) -> Vec<f64> {
+        let data = self.data;
+        match (self.model, &self.space) {
+            (ModelSpec::Td(repr), Some(space)) => {
+                let params = TdParams {
+                    alpha: p.alpha,
+                    gamma: p.gamma,
+                    lambda: p.lambda,
+                    dt: data.dt,
+                    representation: repr,
+                };
+                let run = td::run_in(space, &data.spans, &params);
+                data.points
+                    .iter()
+                    .map(|pt| {
+                        let d = run.trial_delta(pt.span);
+                        d[pt.first_bin as usize..pt.end_bin as usize].iter().sum()
+                    })
+                    .collect()
+            }
+            _ => {
+                let trials = rw::run(&data.spans, data.n_cues, p.alpha);
+                data.points
+                    .iter()
+                    .map(|pt| match pt.kind {
+                        WindowKind::Cue => trials[pt.span].delta_cue,
+                        WindowKind::Reward => trials[pt.span].delta_reward,
+                    })
+                    .collect()
+            }
+        }
+    }
+
+    /// Closed-form fit on the points `idx` given precomputed predictors.
+    pub fn linear(&self, x: &[f64], idx: &[usize]) -> Option<LinearFit> {
+        least_squares(x, &self.observed, &self.kinds, idx)
+    }
+
+    /// −lnL at search coordinates `z` on the points `idx`; a huge finite number when the
+    /// likelihood is not finite, so the simplex moves away instead of failing.
+    pub fn cost(&self, z: &[f64], idx: &[usize]) -> f64 {
+        let x = self.predictors(&self.to_params(z));
+        match self.linear(&x, idx) {
+            Some(lin) => {
+                let nll = -lin.log_likelihood();
+                if nll.is_finite() {
+                    nll
+                } else {
+                    f64::MAX / 4.0
+                }
+            }
+            None => f64::MAX / 4.0,
+        }
+    }
+}

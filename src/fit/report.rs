@@ -1,0 +1,346 @@
+//! The fit's outputs: the plain-text report for the lab notebook, `params.csv` and
+//! `trials.csv` (tidy tables: one row per parameter, one row per observation window).
+
+use super::bootstrap::{tau_s, Intervals, Replicate};
+use super::dataset::{FitData, WindowKind};
+use super::objective::ModelSpec;
+use super::FitOutcome;
+use crate::util::fmt_f64;
+use std::fmt::Write as _;
+use std::io::Write;
+
+/// A number for people: 4 significant digits, no exponent for everyday magnitudes.
+pub fn num(x: f64) -> String {
+    if !x.is_finite() {
+        return if x.is_nan() {
+            "n/a".into()
+        } else {
+            format!("{x}")
+        };
+    }
+    let a = x.abs();
+    if a != 0.0 && !(1e-3..1e5).contains(&a) {
+        format!("{x:.3e}")
+    } else {
+        let digits = if a == 0.0 {
+            0
+        } else {
+            (3 - a.log10().floor() as i32).max(0) as usize
+        };
+        format!("{x:.digits$}")
+    }
+}
+
+/// One reported parameter: name, estimate, interval.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ParamRow {
+    pub name: &'static str,
+    pub estimate: f64,
+    pub interval: Option<(f64, f64)>,
+}
+
+/// The rows of `params.csv`, in order: alpha, gamma (per bin), tau_s (seconds, −dt/ln γ),
+/// lambda (only when fitted), gain, baseline_cue, baseline_reward (when fitted).
+pub fn param_rows(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -> Vec<ParamRow> {
+    let p = out.best.params;
+    let lin = &out.best.linear;
+    let dt = data.dt;
+    let iv = |f: &dyn Fn(&Replicate) -> Option<f64>| -> Option<(f64, f64)> {
+        out.intervals
+            .as_ref()
+            .and_then(|i: &Intervals| i.interval(f))
+    };
+    let mut rows = vec![ParamRow {
+        name: "alpha",
+        estimate: p.alpha,
+        interval: iv(&|r| Some(r.params.alpha)),
+    }];
+    if matches!(out.model, ModelSpec::Td(_)) {
+        rows.push(ParamRow {
+            name: "gamma",
+            estimate: p.gamma,
+            interval: iv(&|r| Some(r.params.gamma)),
+        });
+        // τ is monotone in γ, so its percentile interval is γ's mapped through.
+        rows.push(ParamRow {
+            name: "tau_s",
+            estimate: tau_s(p.gamma, dt),
+            interval: iv(&|r| Some(tau_s(r.params.gamma, dt))),
+        });
+        if lambda_fitted {
+            rows.push(ParamRow {
+                name: "lambda",
+                estimate: p.lambda,
+                interval: iv(&|r| Some(r.params.lambda)),
+            });
+        }
+    }
+    rows.push(ParamRow {
+        name: "gain",
+        estimate: lin.gain,
+        interval: iv(&|r| Some(r.gain)),
+    });
+    for kind in WindowKind::ALL {
+        if let Some(b) = lin.baselines[kind.index()] {
+            rows.push(ParamRow {
+                name: match kind {
+                    WindowKind::Cue => "baseline_cue",
+                    WindowKind::Reward => "baseline_reward",
+                },
+                estimate: b,
+                interval: iv(&|r| r.baselines[kind.index()]),
+            });
+        }
+    }
+    rows
+}
+
+/// `params.csv`: `parameter,estimate,lower,upper` (bounds empty without a bootstrap).
+pub fn write_params_csv(w: &mut dyn Write, rows: &[ParamRow]) -> std::io::Result<()> {
+    writeln!(w, "parameter,estimate,lower,upper")?;
+    for r in rows {
+        let (lo, hi) = match r.interval {
+            Some((l, h)) => (fmt_f64(l), fmt_f64(h)),
+            None => (String::new(), String::new()),
+        };
+        writeln!(w, "{},{},{},{}", r.name, fmt_f64(r.estimate), lo, hi)?;
+    }
+    Ok(())
+}
+
+/// `trials.csv`: `session,trial,window,observed,predicted,excluded`, one row per window, in
+/// training order; excluded windows are predicted too (the model ran over them).
+pub fn write_trials_csv(
+    w: &mut dyn Write,
+    data: &FitData,
+    predicted: &[f64],
+) -> Result<(), csv::Error> {
+    let mut out = csv::Writer::from_writer(w);
+    out.write_record([
+        "session",
+        "trial",
+        "window",
+        "observed",
+        "predicted",
+        "excluded",
+    ])?;
+    for (p, &pred) in data.points.iter().zip(predicted) {
+        let (session, trial) = data.label(p.span);
+        out.write_record([
+            session,
+            &trial.to_string(),
+            p.kind.name(),
+            &fmt_f64(p.observed),
+            &fmt_f64(pred),
+            if p.excluded { "true" } else { "false" },
+        ])?;
+    }
+    out.flush()?;
+    Ok(())
+}
+
+/// Context for the text report that the library does not know by itself.
+#[derive(Debug, Clone, Default)]
+pub struct ReportContext {
+    /// Subject id or folder.
+    pub subject: String,
+    /// One line describing the observations (activity, windows, latency).
+    pub observations: String,
+    /// The command line to suggest with `nice`.
+    pub command: String,
+}
+
+/// The plain-text report.
+pub fn text_report(
+    out: &FitOutcome,
+    data: &FitData,
+    ctx: &ReportContext,
+    lambda_fitted: bool,
+) -> String {
+    let mut s = String::new();
+    let n_trials = data.spans.len();
+    let _ = writeln!(
+        s,
+        "trialdesk fit: {} ({} sessions, {} trials, {} response windows, {} fitted)",
+        ctx.subject,
+        data.n_sessions(),
+        n_trials,
+        data.points.len(),
+        out.n_included
+    );
+    let lambda_note = if lambda_fitted {
+        "λ fitted".to_string()
+    } else {
+        format!("λ fixed at {}", num(out.best.params.lambda))
+    };
+    let _ = writeln!(
+        s,
+        "model: TD({}), {} representation, {} s bins, {lambda_note}; gain and baselines by least squares",
+        "λ",
+        out.model.name(),
+        data.dt
+    );
+    if !ctx.observations.is_empty() {
+        let _ = writeln!(s, "observations: {}", ctx.observations);
+    }
+    let _ = writeln!(s);
+
+    let rows = param_rows(out, data, lambda_fitted);
+    match &out.intervals {
+        Some(iv) => {
+            let _ = writeln!(
+                s,
+                "Parameters (95% bootstrap percentile intervals, {} of {} replicates resampling {}):",
+                iv.n_ok,
+                iv.n_requested,
+                iv.unit.name()
+            );
+        }
+        None => {
+            let _ = writeln!(s, "Parameters (no bootstrap: intervals not computed):");
+        }
+    }
+    let _ = writeln!(
+        s,
+        "  {:<16} {:>12} {:>12} {:>12}",
+        "parameter", "estimate", "lower", "upper"
+    );
+    for r in &rows {
+        let (lo, hi) = r
+            .interval
+            .map(|(l, h)| (num(l), num(h)))
+            .unwrap_or_else(|| ("-".into(), "-".into()));
+        let unit = match r.name {
+            "gamma" | "lambda" => format!("  per {} s bin", data.dt),
+            "tau_s" => "  seconds".to_string(),
+            _ => String::new(),
+        };
+        let _ = writeln!(
+            s,
+            "  {:<16} {:>12} {:>12} {:>12}{unit}",
+            r.name,
+            num(r.estimate),
+            lo,
+            hi
+        );
+    }
+    let _ = writeln!(s);
+    let _ = writeln!(
+        s,
+        "Goodness of fit: R² = {}, RMSE = {} (response units), log-likelihood = {}, n = {}",
+        num(out.r_squared),
+        num(out.rmse),
+        num(out.best.log_likelihood),
+        out.n_included
+    );
+    let _ = writeln!(s);
+
+    if !out.comparison.is_empty() {
+        write_comparison(&mut s, out, data);
+        let _ = writeln!(s);
+    }
+
+    write_exclusions(&mut s, data);
+    let _ = writeln!(s);
+
+    for w in &out.warnings {
+        let _ = writeln!(s, "Warning: {w}");
+    }
+    let _ = writeln!(
+        s,
+        "Present the fit as a hypothesis: some dopamine data deviate from a TD prediction error."
+    );
+    let _ = writeln!(
+        s,
+        "Heavy fits slow the machine: do not run them on a rig computer while it is acquiring; \
+         run at low priority: nice -n 19 {}",
+        if ctx.command.is_empty() {
+            "trialdesk fit ..."
+        } else {
+            &ctx.command
+        }
+    );
+    s
+}
+
+fn write_comparison(s: &mut String, out: &FitOutcome, data: &FitData) {
+    let best_aic = out
+        .comparison
+        .iter()
+        .map(|r| r.aic)
+        .fold(f64::INFINITY, f64::min);
+    let held = out.comparison.iter().any(|r| r.heldout_n > 0);
+    let holdout_note = if held {
+        format!(
+            "held-out RMSE: fitted on the first {} session(s), predicting the last {}",
+            data.n_sessions() - out.holdout_sessions,
+            out.holdout_sessions
+        )
+    } else {
+        "held-out RMSE: n/a (needs at least two sessions with observations)".to_string()
+    };
+    let _ = writeln!(
+        s,
+        "Model comparison (same {} observations; k counts learning parameters, gain, baselines, σ; {holdout_note}):",
+        out.n_included
+    );
+    let _ = writeln!(
+        s,
+        "  {:<16} {:>12} {:>3} {:>12} {:>8} {:>12} {:>14}",
+        "model", "lnL", "k", "AIC", "ΔAIC", "BIC", "held-out RMSE"
+    );
+    for r in &out.comparison {
+        let held = match r.heldout_rmse {
+            Some(e) => format!("{} (n={})", num(e), r.heldout_n),
+            None => "n/a".into(),
+        };
+        let mark = if r.model.name() == out.model.name() {
+            " *"
+        } else {
+            ""
+        };
+        let _ = writeln!(
+            s,
+            "  {:<16} {:>12} {:>3} {:>12} {:>8} {:>12} {:>14}{mark}",
+            r.model.name(),
+            num(r.log_likelihood),
+            r.k,
+            num(r.aic),
+            num(r.aic - best_aic),
+            num(r.bic),
+            held
+        );
+    }
+    let _ = writeln!(
+        s,
+        "  (* the representation whose parameters are reported above and saved)"
+    );
+}
+
+fn write_exclusions(s: &mut String, data: &FitData) {
+    let ex = &data.exclusions;
+    if ex.ignore_marks {
+        let _ = writeln!(
+            s,
+            "Excluded trials: none (--ignore-marks: {} trial(s) marked exclude were fitted anyway).",
+            ex.n_trials
+        );
+    } else if ex.n_trials == 0 {
+        let _ = writeln!(s, "Excluded trials: none (no trial is marked exclude).");
+    } else {
+        let _ = writeln!(
+            s,
+            "Excluded trials: {} — their responses are left out of the fit; the model still learns from them.",
+            ex.n_trials
+        );
+    }
+    for (reason, n) in &ex.by_reason {
+        let _ = writeln!(s, "  {reason:<32} {n:>5}");
+    }
+    if ex.n_trials > 0 {
+        let _ = writeln!(
+            s,
+            "Caution: excluding trials after seeing a fit can bias it; rerun with --ignore-marks to compare."
+        );
+    }
+}

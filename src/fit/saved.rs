@@ -1,0 +1,113 @@
+//! The fitted parameters kept in the subject folder (`trialdesk-fit.toml`), where the reviewer
+//! and `summary` find them.
+
+use serde::{Deserialize, Serialize};
+use std::path::{Path, PathBuf};
+
+/// File name inside the subject folder.
+pub const SAVED_FIT_FILE: &str = "trialdesk-fit.toml";
+
+/// Baseline per window kind (absent when that window was not fitted).
+#[derive(Debug, Clone, Copy, PartialEq, Default, Serialize, Deserialize)]
+pub struct Baselines {
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub cue: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reward: Option<f64>,
+}
+
+/// A saved fit of one representation.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct SavedFit {
+    pub alpha: f64,
+    /// Per model bin.
+    pub gamma: f64,
+    pub lambda: f64,
+    /// Model bin width, seconds.
+    pub dt: f64,
+    /// `csc`, `presence` or `microstimulus`.
+    pub representation: String,
+    pub gain: f64,
+    pub baselines: Baselines,
+    /// RFC 3339 UTC.
+    pub fitted_at: String,
+    /// Trials whose observations were left out (0 with `ignore_marks`).
+    pub n_excluded: usize,
+    pub ignore_marks: bool,
+    /// Whether λ was fitted or fixed.
+    #[serde(default)]
+    pub lambda_fitted: bool,
+    #[serde(default)]
+    pub log_likelihood: Option<f64>,
+    #[serde(default)]
+    pub n_observations: Option<usize>,
+    /// Observation settings the fit used, so a reader can rebuild the same observations.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub unit: Option<String>,
+    #[serde(default)]
+    pub latency_s: Option<f64>,
+    #[serde(default)]
+    pub cue_window_s: Option<[f64; 2]>,
+    #[serde(default)]
+    pub reward_window_s: Option<[f64; 2]>,
+    #[serde(default)]
+    pub baseline_window_s: Option<[f64; 2]>,
+}
+
+#[derive(Debug, thiserror::Error)]
+pub enum SavedFitError {
+    #[error("{path}: {source}")]
+    Io {
+        path: PathBuf,
+        source: std::io::Error,
+    },
+    #[error("{path}: not a valid saved fit: {message}")]
+    Parse { path: PathBuf, message: String },
+}
+
+pub fn saved_path(subject_root: &Path) -> PathBuf {
+    subject_root.join(SAVED_FIT_FILE)
+}
+
+/// The saved fit of a subject: `None` when there is none, an error when it cannot be read.
+pub fn load_saved(subject_root: &Path) -> Option<Result<SavedFit, SavedFitError>> {
+    let path = saved_path(subject_root);
+    let text = match std::fs::read_to_string(&path) {
+        Ok(t) => t,
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => return None,
+        Err(source) => return Some(Err(SavedFitError::Io { path, source })),
+    };
+    Some(
+        toml::from_str::<SavedFit>(&text).map_err(|e| SavedFitError::Parse {
+            path,
+            message: e.to_string(),
+        }),
+    )
+}
+
+/// Write the fit next to the sessions, replacing the previous one atomically (write to a
+/// temporary file, then rename) so a reader never sees half a file.
+pub fn save(subject_root: &Path, fit: &SavedFit) -> Result<PathBuf, SavedFitError> {
+    let path = saved_path(subject_root);
+    let text = toml::to_string(fit).map_err(|e| SavedFitError::Parse {
+        path: path.clone(),
+        message: e.to_string(),
+    })?;
+    let body = format!(
+        "# Written by `trialdesk fit`; rerunning the fit replaces it. gamma and lambda are per\n\
+         # model bin of width dt seconds.\n{text}"
+    );
+    let tmp = subject_root.join(format!(".{SAVED_FIT_FILE}.tmp"));
+    let io = |source| SavedFitError::Io {
+        path: path.clone(),
+        source,
+    };
+    std::fs::write(&tmp, body).map_err(io)?;
+    std::fs::rename(&tmp, &path).map_err(io)?;
+    Ok(path)
+}
+
+/// Now as RFC 3339 UTC, seconds precision.
+pub fn now_rfc3339() -> String {
+    humantime::format_rfc3339_seconds(std::time::SystemTime::now()).to_string()
+}

@@ -1,0 +1,162 @@
+//! Synthetic fitting data with known parameters, built in memory: for recovery checks,
+//! benchmarks and planning ("how many days pin γ down?").
+//!
+//! The schedule is a plain Pavlovian one (one cue, fixed delay, some omissions, some uncued
+//! rewards); the observations are drawn directly from the fitter's own observation model,
+//! y = b_e + g·(δ summed over the window) + N(0, σ²), so a recovery failure points at the
+//! search, not at the measurement layer. (The full simulator, with spikes, is `simulate`.)
+
+use super::dataset::{build, FitData};
+use crate::data::{CueDef, Session, SessionMeta, Subject, Trial};
+use crate::marks::MarkState;
+use crate::model::{layout_subject, run, Representation, TdParams};
+use crate::obs::{event_bins, window_bins, ObsOptions, TrialKind, TrialObs};
+use rand::{Rng, SeedableRng};
+use rand_chacha::ChaCha8Rng;
+use rand_distr::{Distribution, Normal};
+use std::path::PathBuf;
+
+/// What to build.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SyntheticSpec {
+    pub sessions: usize,
+    pub trials_per_session: usize,
+    /// Cue onset → reward, seconds.
+    pub delay_s: f64,
+    /// Probability a cued trial is rewarded (the rest are omissions).
+    pub p_reward: f64,
+    /// Fraction of trials that are uncued rewards.
+    pub p_uncued: f64,
+    pub reward_ul: f64,
+    pub alpha: f64,
+    pub gamma: f64,
+    pub lambda: f64,
+    pub representation: Representation,
+    pub dt: f64,
+    pub gain: f64,
+    /// Baselines of the cue and reward windows.
+    pub baselines: [f64; 2],
+    pub noise_sd: f64,
+    pub seed: u64,
+}
+
+impl Default for SyntheticSpec {
+    fn default() -> Self {
+        SyntheticSpec {
+            sessions: 5,
+            trials_per_session: 100,
+            delay_s: 1.5,
+            p_reward: 0.8,
+            p_uncued: 0.1,
+            reward_ul: 1.0,
+            alpha: 0.1,
+            gamma: 0.98,
+            lambda: 0.0,
+            representation: Representation::Csc,
+            dt: 0.05,
+            gain: 5.0,
+            baselines: [0.5, -0.2],
+            noise_sd: 1.0,
+            seed: 7,
+        }
+    }
+}
+
+/// An in-memory subject with the spec's schedule (no spikes, licks or photometry).
+pub fn subject(spec: &SyntheticSpec) -> Subject {
+    let mut rng = ChaCha8Rng::seed_from_u64(spec.seed);
+    let sessions = (0..spec.sessions)
+        .map(|d| {
+            let mut t = 10.0;
+            let trials = (0..spec.trials_per_session)
+                .map(|i| {
+                    t += 15.0 + rng.random::<f64>() * 10.0;
+                    let uncued = rng.random::<f64>() < spec.p_uncued;
+                    let rewarded = uncued || rng.random::<f64>() < spec.p_reward;
+                    Trial {
+                        number: i as i64 + 1,
+                        cue: (!uncued).then_some(0),
+                        cue_s: (!uncued).then_some(t),
+                        reward_s: rewarded.then_some(if uncued { t } else { t + spec.delay_s }),
+                        reward_ul: if rewarded { spec.reward_ul } else { 0.0 },
+                    }
+                })
+                .collect();
+            let name = format!("2026-03-{:02}", d + 1);
+            Session {
+                dir: PathBuf::from(format!("synthetic/{name}")),
+                name: name.clone(),
+                meta: SessionMeta {
+                    subject: "m-syn".into(),
+                    date: name,
+                    start_time: None,
+                    rig: Some("box-2".into()),
+                    cues: vec![CueDef {
+                        name: "tone-hi".into(),
+                        reward_delay_s: Some(spec.delay_s),
+                    }],
+                },
+                trials,
+                spikes: None,
+                licks: None,
+                photometry: None,
+            }
+        })
+        .collect();
+    Subject {
+        root: PathBuf::from("synthetic"),
+        sessions,
+    }
+}
+
+/// Observations drawn from the observation model at the spec's true parameters, windows
+/// mapped with `obs_opts` exactly as the fitter maps them.
+pub fn observations(spec: &SyntheticSpec, subj: &Subject, obs_opts: &ObsOptions) -> Vec<TrialObs> {
+    let spans = layout_subject(subj, spec.dt);
+    let td = TdParams {
+        alpha: spec.alpha,
+        gamma: spec.gamma,
+        lambda: spec.lambda,
+        dt: spec.dt,
+        representation: spec.representation,
+    };
+    let run = run(&spans, subj.cue_names().len(), &td);
+    let mut rng = ChaCha8Rng::seed_from_u64(spec.seed ^ 0x5eed_0b5e);
+    let noise = Normal::new(0.0, spec.noise_sd.max(0.0)).expect("finite sd");
+    spans
+        .iter()
+        .enumerate()
+        .map(|(i, span)| {
+            let delta = run.trial_delta(i);
+            let (cue_bin, reward_bin) = event_bins(span);
+            let mut draw = |event: Option<usize>, window: (f64, f64), base: f64| {
+                let bins = window_bins(span, event?, window, obs_opts.latency, spec.dt);
+                let x: f64 = delta[bins].iter().sum();
+                Some(base + spec.gain * x + noise.sample(&mut rng))
+            };
+            let cue = draw(cue_bin, obs_opts.cue_window, spec.baselines[0]);
+            let reward = draw(reward_bin, obs_opts.reward_window, spec.baselines[1]);
+            let session = &subj.sessions[span.session];
+            let trial = &session.trials[span.trial];
+            let kind = TrialKind::of(session, trial).expect("cue or reward");
+            TrialObs {
+                session: span.session,
+                trial: span.trial,
+                cue,
+                reward,
+                omission: kind == TrialKind::Omission,
+                anticipatory_lick_rate: None,
+                kind,
+            }
+        })
+        .collect()
+}
+
+/// Subject, observations and fitting data in one go (no marks).
+pub fn fit_data(spec: &SyntheticSpec) -> (Subject, FitData) {
+    let subj = subject(spec);
+    let opts = ObsOptions::default();
+    let obs = observations(spec, &subj, &opts);
+    let data = build(&subj, &obs, &opts, spec.dt, &[] as &[MarkState], false);
+    (subj, data)
+}
