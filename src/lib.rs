@@ -11,6 +11,7 @@ pub mod fit;
 pub mod marks;
 pub mod model;
 pub mod obs;
+pub mod photometry;
 pub mod simulate;
 pub mod summary;
 pub mod tui;
