@@ -248,8 +248,11 @@ pub fn read_session(dir: &Path, out: &mut Vec<Diagnostic>) -> Option<Session> {
         tables::read_photometry(p, r, out)
     });
 
+    // Warnings built on a file with errors would mostly echo those errors.
     if let (Some(m), Some(raw)) = (&meta, &raw_trials) {
-        consistency::check_trials(&m.meta, &meta_path, &trials_path, &raw.value, out);
+        if m.ok && raw.errors == 0 {
+            consistency::check_trials(&m.meta, &meta_path, &trials_path, &raw.value, out);
+        }
     }
     let errors_after = out.iter().filter(|d| d.is_error()).count();
     let (Some(meta), Some(raw)) = (meta, raw_trials) else {
