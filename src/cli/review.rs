@@ -1,14 +1,122 @@
-//! `trialdesk review`.
+//! `trialdesk review`: load the data, settle reviewer, reasons and keys, then hand over to the
+//! terminal reviewer (`crate::tui`).
 
 use super::{CliError, CmdResult};
-use std::path::PathBuf;
+use crate::data;
+use crate::tui::derived::ModelSettings;
+use crate::tui::keymap::{Keymap, SHIPPED};
+use crate::tui::state::{Options, Tone, DEFAULT_REASONS};
+use crate::tui::{app, config, terminal};
+use std::io::IsTerminal;
+use std::path::{Path, PathBuf};
 
 #[derive(clap::Args, Debug)]
+#[command(
+    after_help = "Keys come from keymaps/default.toml, then keymap.toml in the config \
+folder (Linux: ~/.config/trialdesk/), then --keymap. config.toml there may set \
+reviewer = \"name\" and reasons = [...]. NO_COLOR turns colour off."
+)]
 pub struct Args {
     /// A subject folder or one session folder
     pub path: PathBuf,
+    /// A keymap file laid over the others, or a shipped layout name (default, one_handed)
+    #[arg(long, value_name = "FILE")]
+    pub keymap: Option<String>,
+    /// Plain ASCII drawing: no box-drawing or block characters
+    #[arg(long)]
+    pub ascii: bool,
+    /// Name for the reviewer column (default: config.toml's reviewer, else the login name)
+    #[arg(long, value_name = "NAME")]
+    pub reviewer: Option<String>,
 }
 
-pub fn run(_args: Args) -> CmdResult {
-    Err(CliError::failed("not built yet"))
+fn read_layer(path: &Path) -> Result<(String, String), CliError> {
+    let text = std::fs::read_to_string(path)
+        .map_err(|e| CliError::failed(format!("{}: {e}", path.display())))?;
+    Ok((path.display().to_string(), text))
+}
+
+/// The keymap in force: default, then the user's keymap.toml, then `--keymap`.
+pub fn keymap_for(cfg_dir: Option<&Path>, flag: Option<&str>) -> Result<Keymap, CliError> {
+    let mut layers = Vec::new();
+    if let Some(dir) = cfg_dir {
+        let user = dir.join("keymap.toml");
+        if user.is_file() {
+            layers.push(read_layer(&user)?);
+        }
+    }
+    if let Some(k) = flag {
+        if SHIPPED.iter().any(|(n, _)| *n == k) && !Path::new(k).exists() {
+            layers.push((format!("--keymap {k}"), format!("layout = \"{k}\"\n")));
+        } else if Path::new(k).is_file() {
+            layers.push(read_layer(Path::new(k))?);
+        } else {
+            return Err(CliError::usage(format!(
+                "--keymap {k}: no such file, and not a shipped layout (default, one_handed)"
+            )));
+        }
+    }
+    Keymap::build(&layers).map_err(|e| CliError::failed(format!("keymap: {e}")))
+}
+
+pub fn run(args: Args) -> CmdResult {
+    let cfg_dir = config::config_dir();
+    let cfg = match &cfg_dir {
+        Some(d) => config::load(d).map_err(CliError::failed)?,
+        None => config::Config::default(),
+    };
+    let keymap = keymap_for(cfg_dir.as_deref(), args.keymap.as_deref())?;
+    let reviewer = args
+        .reviewer
+        .or(cfg.reviewer)
+        .unwrap_or_else(crate::marks::reviewer_name);
+    let opts = Options {
+        ascii: args.ascii,
+        color: std::env::var_os("NO_COLOR").is_none_or(|v| v.is_empty()),
+        reviewer,
+        reasons: cfg
+            .reasons
+            .unwrap_or_else(|| DEFAULT_REASONS.iter().map(|s| s.to_string()).collect()),
+    };
+    if !std::io::stdout().is_terminal() || !std::io::stdin().is_terminal() {
+        return Err(CliError::usage(
+            "review needs an interactive terminal (for lists use `trialdesk marks` or `trialdesk summary`)",
+        ));
+    }
+    let loaded = data::load(&args.path).map_err(|f| {
+        let lines: Vec<String> = f.diagnostics.iter().map(|d| d.to_string()).collect();
+        CliError::failed(lines.join("\n"))
+    })?;
+    if loaded.subject.sessions.is_empty() {
+        return Err(CliError::failed(format!(
+            "{}: no session folders (a session folder holds session.toml)",
+            args.path.display()
+        )));
+    }
+    let (settings, fit_problem) = ModelSettings::from_subject(&loaded.subject.root);
+    let mut state = app::build_state(loaded.subject, opts, keymap, &settings);
+    if let Some(p) = fit_problem {
+        state.status.text = p;
+        state.status.tone = Tone::Warn;
+    } else if !loaded.warnings.is_empty() {
+        state.status.text = format!(
+            "{} data warning(s); `trialdesk check {}` lists them",
+            loaded.warnings.len(),
+            args.path.display()
+        );
+        state.status.tone = Tone::Warn;
+    }
+    let stop = terminal::watch_signals()?;
+    let (mut term, guard) = terminal::enter()?;
+    let result = app::run_loop(&mut term, &mut state, &stop);
+    drop(term);
+    drop(guard);
+    result.map_err(CliError::failed)?;
+    let unsaved: usize = state.marks.iter().map(|m| m.unsaved.len()).sum();
+    if unsaved > 0 {
+        return Err(CliError::failed(format!(
+            "{unsaved} mark row(s) could not be written to marks.csv and are lost; see the errors shown while reviewing"
+        )));
+    }
+    Ok(0)
 }

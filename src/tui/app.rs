@@ -1,0 +1,143 @@
+//! The event loop: keys → actions → `update`, redraw, and a journal refresh every second.
+//! It routes and nothing more; what an action means lives in `update`, how things look in
+//! `screens`.
+
+use super::action::Action;
+use super::derived::{self, ModelSettings, ModelView, SessionView};
+use super::keymap::{editor_action, picker_action};
+use super::state::{Options, Overlay, Screen, SessionMarks, SignalKind, State, Status, Tone};
+use super::{screens, update};
+use crate::data::Subject;
+use crossterm::event::{self, Event, KeyCode, KeyEvent, KeyEventKind, KeyModifiers};
+use ratatui::backend::Backend;
+use ratatui::Terminal;
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::time::{Duration, Instant};
+
+use super::keymap::Keymap;
+
+/// How often other reviewers' rows are looked for.
+pub const REFRESH_EVERY: Duration = Duration::from_secs(1);
+
+/// Build the reviewer's state for a loaded subject: model run at the given parameters, the
+/// first session's traces, every session's journal.
+pub fn build_state(
+    subject: Subject,
+    opts: Options,
+    keymap: Keymap,
+    settings: &ModelSettings,
+) -> State {
+    let obs_opts = settings.obs_options(&subject);
+    let model = ModelView::build(&subject, settings, &obs_opts);
+    let obs = derived::observe_spans(&subject, &model, &obs_opts);
+    let days = derived::day_lines(&subject, &model, &obs);
+    let first = &subject.sessions[0];
+    let signal = if first.spikes.as_ref().is_some_and(|s| !s.units.is_empty()) {
+        SignalKind::Spikes
+    } else if first.photometry.is_some() {
+        SignalKind::Photometry
+    } else {
+        SignalKind::Licks
+    };
+    let view = SessionView::build(first, signal, None);
+    let n = subject.sessions.len();
+    let mut state = State {
+        subject,
+        opts,
+        keymap,
+        screen: Screen::Trial,
+        overlay: Overlay::None,
+        session: 0,
+        trial: 0,
+        unit: None,
+        signal,
+        marks: vec![SessionMarks::default(); n],
+        undo: Vec::new(),
+        status: Status {
+            text: String::new(),
+            tone: Tone::Info,
+        },
+        model,
+        view,
+        obs,
+        days,
+        quit: false,
+    };
+    for si in 0..n {
+        update::reread_journal(&mut state, si);
+    }
+    state
+}
+
+/// The action a key means in the state's current mode. ctrl-c always quits.
+pub fn key_to_action(state: &State, key: &KeyEvent) -> Option<Action> {
+    if key.code == KeyCode::Char('c') && key.modifiers.contains(KeyModifiers::CONTROL) {
+        return Some(Action::Quit);
+    }
+    match state.overlay {
+        Overlay::Picker { .. } => picker_action(key),
+        Overlay::Editor { .. } => editor_action(key),
+        Overlay::Help if key.code == KeyCode::Esc => Some(Action::Cancel),
+        Overlay::Help | Overlay::None => state.keymap.lookup(key),
+    }
+}
+
+/// Feed a key to the state (what the loop does per key press; tests and benches call it too).
+pub fn handle_key(state: &mut State, key: &KeyEvent) {
+    if let Some(action) = key_to_action(state, key) {
+        update::update(state, action);
+    }
+}
+
+/// Draw one frame.
+pub fn draw<B: Backend>(terminal: &mut Terminal<B>, state: &State) -> Result<(), B::Error> {
+    terminal.draw(|f| {
+        let area = f.area();
+        screens::render(f.buffer_mut(), area, state)
+    })?;
+    Ok(())
+}
+
+/// Run until quit or until `stop` is raised (SIGTERM/SIGHUP).
+pub fn run_loop<B: Backend>(
+    terminal: &mut Terminal<B>,
+    state: &mut State,
+    stop: &AtomicBool,
+) -> Result<(), String>
+where
+    B::Error: std::fmt::Display,
+{
+    let err = |e: &dyn std::fmt::Display| format!("terminal: {e}");
+    draw(terminal, state).map_err(|e| err(&e))?;
+    let mut last_refresh = Instant::now();
+    while !state.quit && !stop.load(Ordering::Relaxed) {
+        let wait = REFRESH_EVERY
+            .saturating_sub(last_refresh.elapsed())
+            .min(Duration::from_millis(250));
+        let mut dirty = false;
+        match event::poll(wait) {
+            Ok(true) => match event::read() {
+                Ok(Event::Key(key)) if key.kind != KeyEventKind::Release => {
+                    handle_key(state, &key);
+                    dirty = true;
+                }
+                Ok(Event::Resize(..)) => dirty = true,
+                Ok(_) => {}
+                Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
+                Err(e) => return Err(err(&e)),
+            },
+            Ok(false) => {}
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
+            Err(e) => return Err(err(&e)),
+        }
+        if last_refresh.elapsed() >= REFRESH_EVERY {
+            update::update(state, Action::RefreshMarks);
+            last_refresh = Instant::now();
+            dirty = true;
+        }
+        if dirty && !state.quit {
+            draw(terminal, state).map_err(|e| err(&e))?;
+        }
+    }
+    Ok(())
+}

@@ -1,0 +1,421 @@
+//! Values the screens draw that take real work, computed when their inputs change (never per
+//! frame): the model run, one session's per-trial activity traces, the days table.
+//!
+//! The work itself is the core's (`model::run`, `obs::SessionActivity`, `obs::observe`); this
+//! file only decides what to ask for and keeps the answers.
+
+use super::state::SignalKind;
+use crate::data::{Session, Subject};
+use crate::fit::{self, saved::SavedFit, saved::SAVED_FIT_FILE};
+use crate::model::Representation;
+use crate::model::{self, layout_subject, TdParams, TdRun, TrialSpan, POST_S};
+use crate::obs::{self, ObsOptions, SessionActivity, Signal, TrialKind, TrialObs, WindowDeltas};
+use std::path::Path;
+
+/// Where the model's parameters came from; the trial and fit screens say it beside the traces.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ParamSource {
+    /// The subject's saved fit (from `trialdesk fit`), with what it said about itself.
+    SavedFit { label: String },
+    /// No saved fit: the stated defaults.
+    Defaults,
+}
+
+impl ParamSource {
+    pub fn label(&self) -> String {
+        match self {
+            ParamSource::SavedFit { label } => format!("saved fit ({label})"),
+            ParamSource::Defaults => "defaults (no saved fit)".to_string(),
+        }
+    }
+}
+
+/// The saved fit's readout mapping, when there is one: prediction = baseline + gain·Σδ.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Readout {
+    pub cue_baseline: f64,
+    pub reward_baseline: f64,
+    pub gain: f64,
+}
+
+/// The parameters in force and what goes with them.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ModelSettings {
+    pub params: TdParams,
+    pub source: ParamSource,
+    pub readout: Option<Readout>,
+    /// What the saved fit says about itself, for the fit screen.
+    pub lines: Vec<String>,
+    /// Observation settings the saved fit used (unit, windows, latency), laid over the defaults.
+    pub saved: Option<SavedFit>,
+}
+
+impl ModelSettings {
+    /// The stated defaults (α 0.1, γ 0.98 per bin, λ 0, csc, dt 0.05 s).
+    pub fn defaults() -> Self {
+        ModelSettings {
+            params: TdParams::default(),
+            source: ParamSource::Defaults,
+            readout: None,
+            lines: vec!["no saved fit: run `trialdesk fit PATH` to fit this subject".to_string()],
+            saved: None,
+        }
+    }
+
+    /// The subject's saved fit (`trialdesk-fit.toml`), or the defaults with a reason why.
+    pub fn from_subject(root: &Path) -> (Self, Option<String>) {
+        match fit::saved::load_saved(root) {
+            None => (Self::defaults(), None),
+            Some(Err(e)) => (Self::defaults(), Some(format!("saved fit not used: {e}"))),
+            Some(Ok(f)) => match Representation::parse(&f.representation) {
+                None => (
+                    Self::defaults(),
+                    Some(format!(
+                        "saved fit not used: unknown representation {:?}",
+                        f.representation
+                    )),
+                ),
+                Some(rep) => {
+                    let params = TdParams {
+                        alpha: f.alpha,
+                        gamma: f.gamma,
+                        lambda: f.lambda,
+                        dt: f.dt,
+                        representation: rep,
+                    };
+                    let mut lines = vec![format!(
+                        "fitted {}{}; gain {:.3}",
+                        f.fitted_at,
+                        if f.ignore_marks {
+                            ", ignoring marks"
+                        } else {
+                            ""
+                        },
+                        f.gain
+                    )];
+                    let mut quality = format!("{} trial(s) excluded at fit time", f.n_excluded);
+                    if let (Some(ll), Some(n)) = (f.log_likelihood, f.n_observations) {
+                        quality =
+                            format!("log-likelihood {ll:.1} over {n} observations; {quality}");
+                    }
+                    lines.push(quality);
+                    let readout = Readout {
+                        cue_baseline: f.baselines.cue.unwrap_or(0.0),
+                        reward_baseline: f.baselines.reward.unwrap_or(0.0),
+                        gain: f.gain,
+                    };
+                    (
+                        ModelSettings {
+                            params,
+                            source: ParamSource::SavedFit {
+                                label: format!("{}, {}", SAVED_FIT_FILE, f.fitted_at),
+                            },
+                            readout: Some(readout),
+                            lines,
+                            saved: Some(f),
+                        },
+                        None,
+                    )
+                }
+            },
+        }
+    }
+
+    /// Observation options: the subject's defaults with the saved fit's choices laid over.
+    pub fn obs_options(&self, subject: &Subject) -> ObsOptions {
+        let mut o = obs_options_for(subject);
+        if let Some(f) = &self.saved {
+            if let (Some(u), Signal::Spikes { .. }) = (&f.unit, &o.signal) {
+                o.signal = Signal::Spikes {
+                    unit: Some(u.clone()),
+                };
+            }
+            if let Some(l) = f.latency_s {
+                o.latency = l;
+            }
+            if let Some([a, b]) = f.cue_window_s {
+                o.cue_window = (a, b);
+            }
+            if let Some([a, b]) = f.reward_window_s {
+                o.reward_window = (a, b);
+            }
+            if let Some([a, b]) = f.baseline_window_s {
+                o.baseline = (a, b);
+            }
+        }
+        o
+    }
+}
+
+/// One pass of the TD model over the whole subject, at the parameters in force.
+#[derive(Debug, Clone)]
+pub struct ModelView {
+    pub params: TdParams,
+    pub source: ParamSource,
+    pub readout: Option<Readout>,
+    /// Extra lines from the saved fit (quality, exclusions) for the fit screen.
+    pub fit_lines: Vec<String>,
+    pub spans: Vec<TrialSpan>,
+    pub run: TdRun,
+    /// `[session][trial]` → index into `spans` (trials the model skips have none).
+    pub span_of: Vec<Vec<Option<usize>>>,
+    /// Per span, δ summed over the cue and reward observation windows.
+    pub window_deltas: Vec<WindowDeltas>,
+}
+
+impl ModelView {
+    pub fn build(subject: &Subject, settings: &ModelSettings, obs: &ObsOptions) -> Self {
+        let params = settings.params;
+        let spans = layout_subject(subject, params.dt);
+        let run = model::run(&spans, subject.cue_names().len(), &params);
+        let mut span_of: Vec<Vec<Option<usize>>> = subject
+            .sessions
+            .iter()
+            .map(|s| vec![None; s.trials.len()])
+            .collect();
+        for (i, s) in spans.iter().enumerate() {
+            span_of[s.session][s.trial] = Some(i);
+        }
+        let window_deltas = spans
+            .iter()
+            .enumerate()
+            .map(|(i, s)| obs::window_delta_sums(s, run.trial_delta(i), obs, params.dt))
+            .collect();
+        ModelView {
+            params,
+            source: settings.source.clone(),
+            readout: settings.readout,
+            fit_lines: settings.lines.clone(),
+            spans,
+            run,
+            span_of,
+            window_deltas,
+        }
+    }
+}
+
+/// Observation options for a subject: spikes when its first session has units, else photometry.
+pub fn obs_options_for(subject: &Subject) -> ObsOptions {
+    let has_spikes = subject
+        .sessions
+        .first()
+        .and_then(|s| s.spikes.as_ref())
+        .is_some_and(|s| !s.units.is_empty());
+    if has_spikes {
+        ObsOptions::default()
+    } else {
+        ObsOptions::photometry()
+    }
+}
+
+/// Per model span, its observations (`None` where the trial gave none or the signal is absent).
+pub fn observe_spans(
+    subject: &Subject,
+    model: &ModelView,
+    opts: &ObsOptions,
+) -> Vec<Option<TrialObs>> {
+    let mut out = vec![None; model.spans.len()];
+    if let Ok(all) = obs::observe(subject, opts) {
+        for o in all {
+            if let Some(Some(i)) = model.span_of.get(o.session).and_then(|v| v.get(o.trial)) {
+                out[*i] = Some(o);
+            }
+        }
+    }
+    out
+}
+
+/// A run of trials sharing cue and outcome, for the session screen's grouping.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Group {
+    pub label: String,
+    /// Trial indices in trial order.
+    pub trials: Vec<usize>,
+}
+
+/// One session's activity, binned per trial on a common window around alignment.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SessionView {
+    /// What the rows measure ("population rate (spikes/s)", "licks/s", ...).
+    pub label: String,
+    /// Why there is nothing to show, when there is nothing.
+    pub missing: Option<String>,
+    /// Window start relative to alignment, seconds (negative: before the cue).
+    pub from_s: f64,
+    pub to_s: f64,
+    pub bin_s: f64,
+    /// Per trial (index in the session), the binned activity; empty for unaligned trials.
+    pub traces: Vec<Vec<f64>>,
+    pub groups: Vec<Group>,
+    /// Robust range of the values (2nd and 98th percentiles) for shading.
+    pub range: (f64, f64),
+}
+
+/// Bin width of the precomputed traces; the screens resample them to their width.
+pub const VIEW_BIN_S: f64 = 0.05;
+/// Time shown before alignment.
+pub const VIEW_PRE_S: f64 = 1.0;
+
+impl SessionView {
+    pub fn build(session: &Session, signal: SignalKind, unit: Option<&str>) -> SessionView {
+        let max_delay = session
+            .meta
+            .cues
+            .iter()
+            .filter_map(|c| c.reward_delay_s)
+            .fold(0.0_f64, f64::max);
+        let (from_s, to_s, bin_s) = (-VIEW_PRE_S, max_delay + POST_S, VIEW_BIN_S);
+        let licks;
+        let (label, act) = match signal {
+            SignalKind::Spikes => {
+                let sig = Signal::Spikes {
+                    unit: unit.map(str::to_string),
+                };
+                (
+                    sig.label(),
+                    SessionActivity::new(session, &sig).map_err(|e| e.to_string()),
+                )
+            }
+            SignalKind::Photometry => (
+                Signal::Photometry.label(),
+                SessionActivity::new(session, &Signal::Photometry).map_err(|e| e.to_string()),
+            ),
+            SignalKind::Licks => {
+                licks = session.licks.as_deref();
+                (
+                    "lick rate (licks/s)".to_string(),
+                    licks
+                        .map(|l| SessionActivity::Spikes { units: vec![l] })
+                        .ok_or_else(|| format!("session {} has no licks.csv", session.name)),
+                )
+            }
+        };
+        let (traces, missing) = match &act {
+            Ok(a) => (
+                session
+                    .trials
+                    .iter()
+                    .map(|t| match obs::alignment_time(t) {
+                        Some(t0) => a.trace(t0, from_s, to_s, bin_s),
+                        None => Vec::new(),
+                    })
+                    .collect(),
+                None,
+            ),
+            Err(e) => (vec![Vec::new(); session.trials.len()], Some(e.clone())),
+        };
+        let range = robust_range(traces.iter().flatten().copied());
+        SessionView {
+            label,
+            missing,
+            from_s,
+            to_s,
+            bin_s,
+            traces,
+            groups: group_trials(session),
+            range,
+        }
+    }
+}
+
+/// Trials grouped by cue (in `session.toml` order) then outcome; uncued rewards last.
+pub fn group_trials(session: &Session) -> Vec<Group> {
+    let kinds = [
+        TrialKind::Rewarded,
+        TrialKind::Omission,
+        TrialKind::UnrewardedCue,
+        TrialKind::UncuedReward,
+    ];
+    let mut groups = Vec::new();
+    let cue_keys = (0..session.meta.cues.len()).map(Some).chain([None]);
+    for cue in cue_keys {
+        for kind in kinds {
+            let trials: Vec<usize> = session
+                .trials
+                .iter()
+                .enumerate()
+                .filter(|(_, t)| t.cue == cue && TrialKind::of(session, t) == Some(kind))
+                .map(|(i, _)| i)
+                .collect();
+            if trials.is_empty() {
+                continue;
+            }
+            let label = match cue {
+                Some(c) => format!(
+                    "{} {}",
+                    session.meta.cues[c].name,
+                    kind.name().replace('_', " ")
+                ),
+                None => kind.name().replace('_', " "),
+            };
+            groups.push(Group { label, trials });
+        }
+    }
+    groups
+}
+
+/// 2nd and 98th percentile of the finite values, so one huge artifact doesn't wash out the rest.
+pub fn robust_range(values: impl Iterator<Item = f64>) -> (f64, f64) {
+    let mut v: Vec<f64> = values.filter(|x| x.is_finite()).collect();
+    if v.is_empty() {
+        return (0.0, 1.0);
+    }
+    v.sort_by(f64::total_cmp);
+    let at = |q: f64| v[((v.len() - 1) as f64 * q).round() as usize];
+    let (lo, hi) = (at(0.02), at(0.98));
+    if hi > lo {
+        (lo, hi)
+    } else {
+        (lo, lo + 1.0)
+    }
+}
+
+/// One row of the days screen (the parts that do not depend on marks).
+#[derive(Debug, Clone, PartialEq)]
+pub struct DayLine {
+    pub session: usize,
+    pub n_trials: usize,
+    pub cue_response: Option<f64>,
+    pub reward_response: Option<f64>,
+    /// Mean reward-window response on omission trials (negative = a dip).
+    pub omission_dip: Option<f64>,
+    pub lick_rate: Option<f64>,
+    pub delta_cue: Option<f64>,
+    pub delta_reward: Option<f64>,
+}
+
+fn mean(it: impl Iterator<Item = f64>) -> Option<f64> {
+    let (s, n) = it.fold((0.0, 0usize), |(s, n), x| (s + x, n + 1));
+    (n > 0).then(|| s / n as f64)
+}
+
+/// Per-session means of the per-trial observations and model window δ.
+pub fn day_lines(subject: &Subject, model: &ModelView, obs: &[Option<TrialObs>]) -> Vec<DayLine> {
+    subject
+        .sessions
+        .iter()
+        .enumerate()
+        .map(|(si, s)| {
+            let spans: Vec<usize> = model.span_of[si].iter().flatten().copied().collect();
+            let os = || spans.iter().filter_map(|&i| obs[i].as_ref());
+            DayLine {
+                session: si,
+                n_trials: s.trials.len(),
+                cue_response: mean(os().filter_map(|o| o.cue)),
+                reward_response: mean(
+                    os().filter(|o| o.kind == TrialKind::Rewarded)
+                        .filter_map(|o| o.reward),
+                ),
+                omission_dip: mean(os().filter(|o| o.omission).filter_map(|o| o.reward)),
+                lick_rate: mean(os().filter_map(|o| o.anticipatory_lick_rate)),
+                delta_cue: mean(spans.iter().filter_map(|&i| model.window_deltas[i].cue)),
+                delta_reward: mean(
+                    spans
+                        .iter()
+                        .filter(|&&i| model.spans[i].reward_bin.is_some())
+                        .filter_map(|&i| model.window_deltas[i].reward),
+                ),
+            }
+        })
+        .collect()
+}

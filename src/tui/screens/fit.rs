@@ -1,0 +1,123 @@
+//! The fit screen: the parameters in force and where they came from, what the fit said about
+//! itself, the caution about marking after looking at a fit, and observed vs predicted per
+//! trial of the current session.
+
+use crate::marks::MarkKind;
+use crate::tui::state::State;
+use crate::tui::theme::{Role, Theme};
+use crate::tui::widgets::{fill_row, num, put};
+use ratatui::buffer::Buffer;
+use ratatui::layout::Rect;
+
+pub const CAUTION: &str =
+    "Caution: marking trials after seeing a fit can bias it. Decide on the data, then refit.";
+
+pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
+    let m = &state.model;
+    let p = &m.params;
+    let mut y = 0u16;
+    let mut line = |buf: &mut Buffer, text: &str, role: Role| {
+        put(buf, area, 1, y, text, theme.style(role));
+        y += 1;
+    };
+    line(
+        buf,
+        &format!("parameters: {}", m.source.label()),
+        Role::Title,
+    );
+    line(
+        buf,
+        &format!(
+            "alpha {}  gamma {} per {} s bin  lambda {}  representation {}",
+            p.alpha,
+            p.gamma,
+            p.dt,
+            p.lambda,
+            p.representation.name()
+        ),
+        Role::Plain,
+    );
+    for l in &m.fit_lines {
+        line(buf, &theme.clean(l), Role::Plain);
+    }
+    let excluded: usize = state
+        .marks
+        .iter()
+        .map(|s| {
+            s.state
+                .marks
+                .values()
+                .filter(|t| t.kind == MarkKind::Exclude)
+                .count()
+        })
+        .sum();
+    line(
+        buf,
+        &format!("excluded trials now marked across the subject: {excluded}"),
+        Role::Plain,
+    );
+    line(buf, CAUTION, Role::Tone(crate::tui::state::Tone::Warn));
+    let (pred_head, predicted): (&str, Box<dyn Fn(Option<f64>, bool) -> Option<f64>>) =
+        match m.readout {
+            Some(r) => (
+                "predicted",
+                Box::new(move |d: Option<f64>, cue: bool| {
+                    d.map(|d| if cue { r.cue_baseline } else { r.reward_baseline } + r.gain * d)
+                }),
+            ),
+            None => ("model sum of delta", Box::new(|d: Option<f64>, _| d)),
+        };
+    y += 1;
+    let header = format!(
+        "{:>6} {:<9} {:>9} {:>9}   {:>9} {:>9}   ({pred_head} beside observed)",
+        "trial", "outcome", "cue obs", "cue pred", "rew obs", "rew pred"
+    );
+    put(buf, area, 1, y, &header, theme.style(Role::Title));
+    y += 1;
+    let table = Rect::new(
+        area.x,
+        area.y + y,
+        area.width,
+        area.height.saturating_sub(y),
+    );
+    let session = state.current_session();
+    let rows = table.height as usize;
+    let n = session.trials.len();
+    let first = state
+        .trial
+        .saturating_sub(rows / 2)
+        .min(n.saturating_sub(rows));
+    for (dy, ti) in (first..n.min(first + rows)).enumerate() {
+        let trial = &session.trials[ti];
+        let dy = dy as u16;
+        let (obs, wd) = match state.span_of(ti) {
+            Some(i) => (state.obs[i].as_ref(), Some(m.window_deltas[i])),
+            None => (None, None),
+        };
+        let (glyph, role) = theme.mark_glyph(state.mark_of(trial.number).map(|t| t.kind));
+        let text = format!(
+            "{:>5} {:<9} {:>9} {:>9}   {:>9} {:>9}",
+            trial.number,
+            obs.map_or("-", |o| o.kind.name())
+                .replace('_', " ")
+                .chars()
+                .take(9)
+                .collect::<String>(),
+            num(obs.and_then(|o| o.cue), 2),
+            num(predicted(wd.and_then(|w| w.cue), true), 2),
+            num(obs.and_then(|o| o.reward), 2),
+            num(predicted(wd.and_then(|w| w.reward), false), 2),
+        );
+        let current = ti == state.trial;
+        if current {
+            fill_row(buf, table, dy, theme.style(Role::Current));
+        }
+        let style = if current {
+            theme.style(Role::Current)
+        } else {
+            theme.style(Role::Plain)
+        };
+        put(buf, table, 0, dy, glyph, theme.style(role).patch(style));
+        put(buf, table, 1, dy, &text, style);
+    }
+}

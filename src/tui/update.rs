@@ -1,0 +1,473 @@
+//! `update(&mut State, Action)`: the one place the reviewer's state changes.
+//!
+//! Marks go to disk here, synchronously, through `marks::append` (durable when it returns):
+//! the status line says "saved" only after that, and a failed append keeps the row in memory
+//! (shown, flagged, retried on every refresh) instead of pretending.
+
+use super::action::Action;
+use super::derived::SessionView;
+use super::state::{NoteTarget, Overlay, Screen, SignalKind, State, Status, Tone, UndoEntry};
+use crate::marks::{self, MarkKind, MarkRow};
+
+/// Trials skipped by `jump_forward` / `jump_back`.
+const JUMP: usize = 10;
+
+pub fn update(state: &mut State, action: Action) {
+    match state.overlay.clone() {
+        Overlay::Picker { kind, selected } => return picker(state, kind, selected, action),
+        Overlay::Editor { .. } => return editor(state, action),
+        Overlay::Help => {
+            if matches!(
+                action,
+                Action::ToggleHelp | Action::Cancel | Action::Confirm
+            ) {
+                state.overlay = Overlay::None;
+                return;
+            }
+            if action == Action::Quit {
+                state.quit = true;
+            }
+            return;
+        }
+        Overlay::None => {}
+    }
+    let n = state.current_session().trials.len();
+    let last = n.saturating_sub(1);
+    match action {
+        Action::NextTrial => state.trial = (state.trial + 1).min(last),
+        Action::PrevTrial => state.trial = state.trial.saturating_sub(1),
+        Action::JumpForward => state.trial = (state.trial + JUMP).min(last),
+        Action::JumpBack => state.trial = state.trial.saturating_sub(JUMP),
+        Action::FirstTrial => state.trial = 0,
+        Action::LastTrial => state.trial = last,
+        Action::NextUnmarked => next_unmarked(state),
+        Action::NextSession => open_session(state, state.session + 1),
+        Action::PrevSession => {
+            if state.session > 0 {
+                open_session(state, state.session - 1)
+            } else {
+                info(state, "this is the first session");
+            }
+        }
+        Action::ShowTrial => state.screen = Screen::Trial,
+        Action::ShowSession => state.screen = Screen::Session,
+        Action::ShowDays => state.screen = Screen::Days,
+        Action::ShowFit => state.screen = Screen::Fit,
+        Action::CycleScreen => {
+            let i = Screen::ALL
+                .iter()
+                .position(|s| *s == state.screen)
+                .unwrap_or(0);
+            state.screen = Screen::ALL[(i + 1) % Screen::ALL.len()];
+        }
+        Action::NextUnit | Action::PrevUnit => step_unit(state, action == Action::NextUnit),
+        Action::CycleSignal => cycle_signal(state),
+        Action::MarkExclude | Action::MarkSuspect => {
+            if state.current_trial().is_some() {
+                let kind = if action == Action::MarkExclude {
+                    MarkKind::Exclude
+                } else {
+                    MarkKind::Suspect
+                };
+                state.overlay = Overlay::Picker { kind, selected: 0 };
+            }
+        }
+        Action::MarkClear => {
+            if let Some(t) = state.current_trial().map(|t| t.number) {
+                if state.mark_of(t).is_some() {
+                    commit_mark(state, MarkKind::Clear, String::new(), String::new());
+                } else {
+                    info(state, &format!("trial {t} has no mark to clear"));
+                }
+            }
+        }
+        Action::NoteTrial => {
+            if let Some(t) = state.current_trial().map(|t| t.number) {
+                open_editor(state, NoteTarget::Trial(t));
+            }
+        }
+        Action::NoteSession => open_editor(state, NoteTarget::Session),
+        Action::UndoMark => undo(state),
+        Action::RefreshMarks => refresh(state),
+        Action::ToggleHelp => state.overlay = Overlay::Help,
+        Action::Quit => state.quit = true,
+        // Picker and editor keys mean nothing outside them.
+        _ => {}
+    }
+}
+
+fn info(state: &mut State, text: &str) {
+    state.status = Status {
+        text: text.to_string(),
+        tone: Tone::Info,
+    };
+}
+
+fn next_unmarked(state: &mut State) {
+    let session = state.current_session();
+    let found = (state.trial + 1..session.trials.len())
+        .find(|&i| state.mark_of(session.trials[i].number).is_none());
+    match found {
+        Some(i) => state.trial = i,
+        None => info(state, "no unmarked trial after this one"),
+    }
+}
+
+/// Switch to another session: rebuild its traces, re-read its journal.
+pub fn open_session(state: &mut State, index: usize) {
+    if index >= state.subject.sessions.len() {
+        info(state, "this is the last session");
+        return;
+    }
+    state.session = index;
+    state.trial = 0;
+    let units = state
+        .current_session()
+        .spikes
+        .as_ref()
+        .map_or(0, |s| s.units.len());
+    if state.unit.is_some_and(|u| u >= units) {
+        state.unit = None;
+    }
+    if !signal_available(state, state.signal) {
+        if let Some(s) = [
+            SignalKind::Spikes,
+            SignalKind::Photometry,
+            SignalKind::Licks,
+        ]
+        .into_iter()
+        .find(|s| signal_available(state, *s))
+        {
+            state.signal = s;
+        }
+    }
+    rebuild_view(state);
+    reread_journal(state, index);
+}
+
+fn rebuild_view(state: &mut State) {
+    let unit = state.unit_name().map(str::to_string);
+    state.view = SessionView::build(state.current_session(), state.signal, unit.as_deref());
+}
+
+pub fn signal_available(state: &State, signal: SignalKind) -> bool {
+    let s = state.current_session();
+    match signal {
+        SignalKind::Spikes => s.spikes.as_ref().is_some_and(|x| !x.units.is_empty()),
+        SignalKind::Photometry => s.photometry.as_ref().is_some_and(|p| !p.time_s.is_empty()),
+        SignalKind::Licks => s.licks.is_some(),
+    }
+}
+
+fn step_unit(state: &mut State, forward: bool) {
+    let n = state
+        .current_session()
+        .spikes
+        .as_ref()
+        .map_or(0, |s| s.units.len());
+    if n == 0 {
+        info(state, "this session has no sorted units");
+        return;
+    }
+    // The cycle is all, 0, 1, ..., n-1, all.
+    let pos = state.unit.map_or(0, |u| u + 1);
+    let pos = if forward {
+        (pos + 1) % (n + 1)
+    } else {
+        (pos + n) % (n + 1)
+    };
+    state.unit = pos.checked_sub(1);
+    state.signal = SignalKind::Spikes;
+    rebuild_view(state);
+}
+
+fn cycle_signal(state: &mut State) {
+    let order = [
+        SignalKind::Spikes,
+        SignalKind::Photometry,
+        SignalKind::Licks,
+    ];
+    let i = order.iter().position(|s| *s == state.signal).unwrap_or(0);
+    let next = (1..=order.len())
+        .map(|k| order[(i + k) % order.len()])
+        .find(|s| signal_available(state, *s));
+    match next {
+        Some(s) if s != state.signal => {
+            state.signal = s;
+            rebuild_view(state);
+            info(state, &format!("showing {}", s.name()));
+        }
+        _ => info(state, "no other signal recorded in this session"),
+    }
+}
+
+fn picker(state: &mut State, kind: MarkKind, selected: usize, action: Action) {
+    let n = state.opts.reasons.len();
+    match action {
+        Action::PickerUp => {
+            state.overlay = Overlay::Picker {
+                kind,
+                selected: selected.saturating_sub(1),
+            }
+        }
+        Action::PickerDown => {
+            state.overlay = Overlay::Picker {
+                kind,
+                selected: (selected + 1).min(n.saturating_sub(1)),
+            }
+        }
+        Action::PickReason(i) if i < n => choose_reason(state, kind, i),
+        Action::Confirm if selected < n => choose_reason(state, kind, selected),
+        Action::Cancel | Action::Quit => {
+            state.overlay = Overlay::None;
+            info(state, "not marked");
+        }
+        _ => {}
+    }
+}
+
+fn choose_reason(state: &mut State, kind: MarkKind, i: usize) {
+    let reason = state.opts.reasons[i].clone();
+    if reason == "other" {
+        open_editor(state, NoteTarget::MarkNote { kind, reason });
+    } else {
+        state.overlay = Overlay::None;
+        commit_mark(state, kind, reason, String::new());
+    }
+}
+
+fn open_editor(state: &mut State, target: NoteTarget) {
+    state.overlay = Overlay::Editor {
+        target,
+        text: String::new(),
+        cursor: 0,
+    };
+}
+
+fn editor(state: &mut State, action: Action) {
+    let Overlay::Editor {
+        target,
+        text,
+        cursor,
+    } = &mut state.overlay
+    else {
+        return;
+    };
+    let byte_at = |s: &str, c: usize| s.char_indices().nth(c).map_or(s.len(), |(b, _)| b);
+    let len = text.chars().count();
+    match action {
+        Action::TypeChar(c) if !c.is_control() => {
+            let b = byte_at(text, *cursor);
+            text.insert(b, c);
+            *cursor += 1;
+        }
+        Action::DeleteBack if *cursor > 0 => {
+            let b = byte_at(text, *cursor - 1);
+            text.remove(b);
+            *cursor -= 1;
+        }
+        Action::CursorLeft => *cursor = cursor.saturating_sub(1),
+        Action::CursorRight => *cursor = (*cursor + 1).min(len),
+        Action::CursorHome => *cursor = 0,
+        Action::CursorEnd => *cursor = len,
+        Action::Cancel => {
+            state.overlay = Overlay::None;
+            info(state, "note discarded");
+        }
+        Action::Confirm => {
+            let target = target.clone();
+            let note = text.trim().to_string();
+            state.overlay = Overlay::None;
+            match target {
+                NoteTarget::MarkNote { kind, reason } => commit_mark(state, kind, reason, note),
+                _ if note.is_empty() => info(state, "empty note, nothing written"),
+                NoteTarget::Trial(t) => write_note(state, Some(t), note),
+                NoteTarget::Session => write_note(state, None, note),
+            }
+        }
+        _ => {}
+    }
+}
+
+fn new_row(
+    state: &State,
+    trial: Option<i64>,
+    mark: MarkKind,
+    reason: String,
+    note: String,
+) -> MarkRow {
+    MarkRow {
+        trial,
+        mark,
+        reason,
+        note,
+        reviewer: state.opts.reviewer.clone(),
+        at: marks::now_rfc3339(),
+    }
+}
+
+fn commit_mark(state: &mut State, kind: MarkKind, reason: String, note: String) {
+    let Some(trial) = state.current_trial().map(|t| t.number) else {
+        return;
+    };
+    let before = state.mark_of(trial).cloned();
+    let what = match kind {
+        MarkKind::Clear => format!("trial {trial} cleared"),
+        _ => format!("trial {trial} {} ({reason})", past(kind)),
+    };
+    let row = new_row(state, Some(trial), kind, reason, note);
+    state.undo.push(UndoEntry {
+        session: state.session,
+        trial,
+        before,
+    });
+    save_row(state, state.session, row, &what);
+}
+
+fn past(kind: MarkKind) -> &'static str {
+    match kind {
+        MarkKind::Exclude => "excluded",
+        MarkKind::Suspect => "suspect",
+        MarkKind::Clear => "cleared",
+        MarkKind::Note => "noted",
+    }
+}
+
+fn write_note(state: &mut State, trial: Option<i64>, note: String) {
+    let what = match trial {
+        Some(t) => format!("note on trial {t}"),
+        None => "session note".to_string(),
+    };
+    let row = new_row(state, trial, MarkKind::Note, String::new(), note);
+    save_row(state, state.session, row, &what);
+}
+
+fn undo(state: &mut State) {
+    let Some(entry) = state.undo.pop() else {
+        info(
+            state,
+            "nothing of yours to undo (notes stay; add another note to correct one)",
+        );
+        return;
+    };
+    let (kind, reason, note, what) = match &entry.before {
+        Some(m) => (
+            m.kind,
+            m.reason.clone(),
+            m.note.clone(),
+            format!(
+                "undo: trial {} {} ({}) again",
+                entry.trial,
+                past(m.kind),
+                m.reason
+            ),
+        ),
+        None => (
+            MarkKind::Clear,
+            "undo".to_string(),
+            String::new(),
+            format!("undo: trial {} unmarked again", entry.trial),
+        ),
+    };
+    let row = new_row(state, Some(entry.trial), kind, reason, note);
+    save_row(state, entry.session, row, &what);
+}
+
+/// Append one row durably; say "saved" only once `marks::append` has returned Ok.
+fn save_row(state: &mut State, session: usize, row: MarkRow, what: &str) {
+    let dir = state.subject.sessions[session].dir.clone();
+    match marks::append(&dir, &row) {
+        Ok(()) => {
+            state.status = Status {
+                text: format!("saved: {what}"),
+                tone: Tone::Saved,
+            };
+            reread_journal(state, session);
+        }
+        Err(e) => {
+            state.marks[session].unsaved.push(row);
+            state.status = Status {
+                text: format!(
+                    "NOT SAVED: {what}: {e}. Kept in memory only; retrying every second."
+                ),
+                tone: Tone::Error,
+            };
+            refold(state, session);
+        }
+    }
+}
+
+fn refold(state: &mut State, session: usize) {
+    let sm = &mut state.marks[session];
+    if sm.unsaved.is_empty() {
+        sm.state = sm.journal.state();
+    } else {
+        let rows: Vec<MarkRow> = sm.journal.rows.iter().chain(&sm.unsaved).cloned().collect();
+        sm.state = marks::fold(&rows);
+    }
+}
+
+/// Read what was appended to one session's journal since the last read (all of it the first
+/// time); returns how many rows arrived.
+pub fn reread_journal(state: &mut State, session: usize) -> usize {
+    let sm = &mut state.marks[session];
+    if sm.journal.path.as_os_str().is_empty() {
+        sm.journal.path = state.subject.sessions[session].dir.join(marks::MARKS_FILE);
+    }
+    let added = match sm.journal.refresh() {
+        Ok(n) => {
+            sm.problem = sm.journal.torn_tail.as_ref().map(|(line, _)| {
+                format!("marks.csv line {line} is incomplete (torn write?); ignored")
+            });
+            n
+        }
+        Err(e) => {
+            sm.problem = Some(e.to_string());
+            0
+        }
+    };
+    refold(state, session);
+    added
+}
+
+/// Retry unsaved rows everywhere, then look for rows other reviewers appended to the current
+/// session's journal.
+fn refresh(state: &mut State) {
+    let mut retried = 0;
+    for si in 0..state.marks.len() {
+        if state.marks[si].unsaved.is_empty() {
+            continue;
+        }
+        let dir = state.subject.sessions[si].dir.clone();
+        let pending = std::mem::take(&mut state.marks[si].unsaved);
+        let mut left = Vec::new();
+        for row in pending {
+            if left.is_empty() && marks::append(&dir, &row).is_ok() {
+                retried += 1;
+            } else {
+                left.push(row);
+            }
+        }
+        state.marks[si].unsaved = left;
+        reread_journal(state, si);
+    }
+    let si = state.session;
+    let added = reread_journal(state, si);
+    let unsaved: usize = state.marks.iter().map(|m| m.unsaved.len()).sum();
+    if retried > 0 && unsaved == 0 {
+        state.status = Status {
+            text: format!("saved: {retried} earlier unsaved row(s) now on disk"),
+            tone: Tone::Saved,
+        };
+    } else if unsaved > 0 && state.status.tone != Tone::Error {
+        state.status = Status {
+            text: format!("{unsaved} row(s) NOT SAVED yet, kept in memory; retrying"),
+            tone: Tone::Error,
+        };
+    } else if added > 0 {
+        info(
+            state,
+            &format!("{added} new row(s) in marks.csv from another reviewer"),
+        );
+    }
+}
