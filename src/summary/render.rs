@@ -1,0 +1,417 @@
+//! Writing learning tables: aligned plain text for a terminal (fits 80 columns for up to two
+//! cues), Markdown for a lab notebook, and tidy long-form CSV for pandas/R (one value per row:
+//! `subject,session,date,day,measure,cue,value,n`).
+
+use super::cohort::CohortRow;
+use super::{DayRow, Mean};
+use crate::util::fmt_f64;
+
+/// One subject's rows and the header lines that say how they were measured.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SubjectSummary {
+    pub subject: String,
+    pub rows: Vec<DayRow>,
+    /// Provenance lines (signal, windows, exclusions, model source), printed above the tables
+    /// in text and Markdown.
+    pub notes: Vec<String>,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Format {
+    Text,
+    Csv,
+    Markdown,
+}
+
+/// The whole output in one format (CSV has no cohort rows: it is tidy, aggregate it there).
+pub fn render(
+    format: Format,
+    subjects: &[SubjectSummary],
+    cohort: Option<&[CohortRow]>,
+) -> Result<String, csv::Error> {
+    Ok(match format {
+        Format::Text => text(subjects, cohort),
+        Format::Markdown => markdown(subjects, cohort),
+        Format::Csv => csv(subjects)?,
+    })
+}
+
+/// A table of already formatted cells; columns in `left` are left-aligned (text), the rest
+/// right-aligned (numbers).
+struct Table {
+    title: String,
+    headers: Vec<String>,
+    rows: Vec<Vec<String>>,
+    left: std::ops::Range<usize>,
+}
+
+impl Table {
+    fn text(&self, out: &mut String) {
+        let widths: Vec<usize> = (0..self.headers.len())
+            .map(|c| {
+                self.rows
+                    .iter()
+                    .map(|r| r[c].chars().count())
+                    .chain([self.headers[c].chars().count()])
+                    .max()
+                    .unwrap_or(0)
+            })
+            .collect();
+        out.push_str(&self.title);
+        out.push('\n');
+        for row in std::iter::once(&self.headers).chain(&self.rows) {
+            let cells: Vec<String> = row
+                .iter()
+                .enumerate()
+                .map(|(c, cell)| {
+                    if self.left.contains(&c) {
+                        format!("{cell:<w$}", w = widths[c])
+                    } else {
+                        format!("{cell:>w$}", w = widths[c])
+                    }
+                })
+                .collect();
+            out.push_str(cells.join("  ").trim_end());
+            out.push('\n');
+        }
+        out.push('\n');
+    }
+
+    fn markdown(&self, out: &mut String) {
+        out.push_str(&format!("**{}**\n\n", md_escape(&self.title)));
+        let line = |cells: &[String]| {
+            let escaped: Vec<String> = cells.iter().map(|c| md_escape(c)).collect();
+            format!("| {} |\n", escaped.join(" | "))
+        };
+        out.push_str(&line(&self.headers));
+        let align: Vec<String> = (0..self.headers.len())
+            .map(|c| {
+                if self.left.contains(&c) {
+                    ":---"
+                } else {
+                    "---:"
+                }
+                .to_string()
+            })
+            .collect();
+        out.push_str(&format!("|{}|\n", align.join("|")));
+        for row in &self.rows {
+            out.push_str(&line(row));
+        }
+        out.push('\n');
+    }
+}
+
+fn md_escape(s: &str) -> String {
+    s.replace('\\', "\\\\").replace('|', "\\|")
+}
+
+fn num(m: &Mean, decimals: usize) -> String {
+    match m.value {
+        Some(v) => format!("{v:.decimals$}"),
+        None => "-".to_string(),
+    }
+}
+
+/// Column headers per cue: the cue names of the subject in the order they first occur.
+fn cue_names(rows: &[DayRow]) -> Vec<String> {
+    let mut names: Vec<String> = Vec::new();
+    for r in rows {
+        for c in &r.cues {
+            if !names.contains(&c.cue) {
+                names.push(c.cue.clone());
+            }
+        }
+    }
+    names
+}
+
+fn cue_cell(
+    r: &DayRow,
+    cue: &str,
+    pick: impl Fn(&super::CueDay) -> Option<Mean>,
+    d: usize,
+) -> String {
+    r.cues
+        .iter()
+        .find(|c| c.cue == cue)
+        .and_then(pick)
+        .map(|m| num(&m, d))
+        .unwrap_or_else(|| "-".to_string())
+}
+
+fn subject_tables(s: &SubjectSummary) -> Vec<Table> {
+    // Sessions are usually named by their date: then one column says both.
+    let show_date = s.rows.iter().any(|r| r.session != r.date);
+    let lead = |r: &DayRow| {
+        let mut v = vec![r.day.to_string(), r.session.clone()];
+        if show_date {
+            v.push(r.date.clone());
+        }
+        v
+    };
+    let lead_h = || {
+        let mut v = vec!["day".to_string(), "session".into()];
+        if show_date {
+            v.push("date".into());
+        }
+        v
+    };
+    let left = 1..(if show_date { 3 } else { 2 });
+    let cues = cue_names(&s.rows);
+    let mut tables = Vec::new();
+
+    let mut h = lead_h();
+    h.extend(
+        [
+            "trials", "rewarded", "omission", "unrew", "uncued", "excl", "susp",
+        ]
+        .map(String::from),
+    );
+    tables.push(Table {
+        title: "Trials (all trials; excl/susp = standing marks)".into(),
+        headers: h,
+        rows: s
+            .rows
+            .iter()
+            .map(|r| {
+                let mut v = lead(r);
+                v.extend(
+                    [
+                        r.trials,
+                        r.counts.rewarded,
+                        r.counts.omission,
+                        r.counts.unrewarded_cue,
+                        r.counts.uncued_reward,
+                        r.excluded,
+                        r.suspect,
+                    ]
+                    .map(|n| n.to_string()),
+                );
+                v
+            })
+            .collect(),
+        left: left.clone(),
+    });
+
+    let mut h = lead_h();
+    h.extend(cues.iter().map(|c| format!("cue:{c}")));
+    h.extend(["reward", "uncued", "omission", "licks/s"].map(String::from));
+    tables.push(Table {
+        title: "Responses (window mean - baseline; excluded trials left out)".into(),
+        headers: h,
+        rows: s
+            .rows
+            .iter()
+            .map(|r| {
+                let mut v = lead(r);
+                v.extend(cues.iter().map(|c| cue_cell(r, c, |d| Some(d.response), 2)));
+                v.extend(
+                    [
+                        &r.reward_response,
+                        &r.uncued_reward_response,
+                        &r.omission_dip,
+                        &r.lick_rate,
+                    ]
+                    .map(|m| num(m, 2)),
+                );
+                v
+            })
+            .collect(),
+        left: left.clone(),
+    });
+
+    if s.rows.iter().any(|r| r.model.is_some()) {
+        let mut h = lead_h();
+        h.extend(cues.iter().map(|c| format!("d:{c}")));
+        h.extend(["d:reward", "d:uncued", "d:omission"].map(String::from));
+        tables.push(Table {
+            title: "Model delta summed over the same windows (same trials)".into(),
+            headers: h,
+            rows: s
+                .rows
+                .iter()
+                .map(|r| {
+                    let mut v = lead(r);
+                    v.extend(cues.iter().map(|c| cue_cell(r, c, |d| d.model_delta, 3)));
+                    let m = r.model.unwrap_or_default();
+                    let blank = r.model.is_none();
+                    v.extend([m.reward, m.uncued_reward, m.omission].map(|x| {
+                        if blank {
+                            "-".to_string()
+                        } else {
+                            num(&x, 3)
+                        }
+                    }));
+                    v
+                })
+                .collect(),
+            left: left.clone(),
+        });
+    }
+    tables
+}
+
+fn cohort_table(rows: &[CohortRow]) -> Table {
+    let mut cues: Vec<String> = Vec::new();
+    for r in rows {
+        for (c, _) in &r.cues {
+            if !cues.contains(c) {
+                cues.push(c.clone());
+            }
+        }
+    }
+    let mut h = vec!["day".to_string(), "subjects".into()];
+    h.extend(cues.iter().map(|c| format!("cue:{c}")));
+    h.extend(["reward", "uncued", "omission", "licks/s"].map(String::from));
+    Table {
+        title: "Cohort: mean over subjects of each subject's day mean, by training day".into(),
+        headers: h,
+        rows: rows
+            .iter()
+            .map(|r| {
+                let mut v = vec![r.day.to_string(), r.subjects.to_string()];
+                v.extend(cues.iter().map(|c| {
+                    r.cues
+                        .iter()
+                        .find(|(n, _)| n == c)
+                        .map(|(_, m)| num(m, 2))
+                        .unwrap_or_else(|| "-".into())
+                }));
+                v.extend(
+                    [&r.reward, &r.uncued_reward, &r.omission, &r.lick_rate].map(|m| num(m, 2)),
+                );
+                v
+            })
+            .collect(),
+        left: 0..0,
+    }
+}
+
+pub fn text(subjects: &[SubjectSummary], cohort: Option<&[CohortRow]>) -> String {
+    let mut out = String::new();
+    for s in subjects {
+        let trials: usize = s.rows.iter().map(|r| r.trials).sum();
+        out.push_str(&format!(
+            "Subject {}: {} sessions, {} trials\n",
+            s.subject,
+            s.rows.len(),
+            trials
+        ));
+        for n in &s.notes {
+            out.push_str(&format!("  {n}\n"));
+        }
+        out.push('\n');
+        for t in subject_tables(s) {
+            t.text(&mut out);
+        }
+    }
+    if let Some(rows) = cohort {
+        cohort_table(rows).text(&mut out);
+    }
+    out
+}
+
+pub fn markdown(subjects: &[SubjectSummary], cohort: Option<&[CohortRow]>) -> String {
+    let mut out = String::new();
+    for s in subjects {
+        let trials: usize = s.rows.iter().map(|r| r.trials).sum();
+        out.push_str(&format!(
+            "## Subject {}: {} sessions, {} trials\n\n",
+            md_escape(&s.subject),
+            s.rows.len(),
+            trials
+        ));
+        for n in &s.notes {
+            out.push_str(&format!("- {}\n", md_escape(n)));
+        }
+        out.push('\n');
+        for t in subject_tables(s) {
+            t.markdown(&mut out);
+        }
+    }
+    if let Some(rows) = cohort {
+        out.push_str("## Cohort\n\n");
+        cohort_table(rows).markdown(&mut out);
+    }
+    out
+}
+
+/// A text cell that a spreadsheet would run as a formula (leading `=`, `+`, `-`, `@`, tab or
+/// carriage return) gets a leading apostrophe (OWASP's CSV-injection advice). Numbers are
+/// written by the program and never pass through here.
+pub fn safe_cell(s: &str) -> String {
+    match s.chars().next() {
+        Some('=' | '+' | '-' | '@' | '\t' | '\r') => format!("'{s}"),
+        _ => s.to_string(),
+    }
+}
+
+/// Long-form CSV: one measured value per row.
+pub fn csv(subjects: &[SubjectSummary]) -> Result<String, csv::Error> {
+    let mut w = csv::Writer::from_writer(Vec::new());
+    w.write_record([
+        "subject", "session", "date", "day", "measure", "cue", "value", "n",
+    ])?;
+    for s in subjects {
+        for r in &s.rows {
+            let mut put = |measure: &str, cue: &str, value: String, n: String| {
+                w.write_record([
+                    safe_cell(&s.subject),
+                    safe_cell(&r.session),
+                    safe_cell(&r.date),
+                    r.day.to_string(),
+                    measure.to_string(),
+                    safe_cell(cue),
+                    value,
+                    n,
+                ])
+            };
+            let mean = |m: &Mean| (m.value.map(fmt_f64).unwrap_or_default(), m.n.to_string());
+            for (measure, count) in [
+                ("trials", r.trials),
+                ("rewarded", r.counts.rewarded),
+                ("omission", r.counts.omission),
+                ("unrewarded_cue", r.counts.unrewarded_cue),
+                ("uncued_reward", r.counts.uncued_reward),
+                ("excluded", r.excluded),
+                ("suspect", r.suspect),
+            ] {
+                put(measure, "", count.to_string(), String::new())?;
+            }
+            for c in &r.cues {
+                put("cue_trials", &c.cue, c.trials.to_string(), String::new())?;
+                let (v, n) = mean(&c.response);
+                put("cue_response", &c.cue, v, n)?;
+                let (v, n) = mean(&c.lick_rate);
+                put("anticipatory_lick_rate", &c.cue, v, n)?;
+                if let Some(m) = &c.model_delta {
+                    let (v, n) = mean(m);
+                    put("model_delta_cue", &c.cue, v, n)?;
+                }
+            }
+            for (measure, m) in [
+                ("reward_response", &r.reward_response),
+                ("uncued_reward_response", &r.uncued_reward_response),
+                ("omission_response", &r.omission_dip),
+            ] {
+                let (v, n) = mean(m);
+                put(measure, "", v, n)?;
+            }
+            if let Some(md) = &r.model {
+                for (measure, m) in [
+                    ("model_delta_reward", &md.reward),
+                    ("model_delta_uncued_reward", &md.uncued_reward),
+                    ("model_delta_omission", &md.omission),
+                ] {
+                    let (v, n) = mean(m);
+                    put(measure, "", v, n)?;
+                }
+            }
+        }
+    }
+    let bytes = w
+        .into_inner()
+        .map_err(|e| csv::Error::from(e.into_error()))?;
+    Ok(String::from_utf8(bytes).expect("csv of UTF-8 strings is UTF-8"))
+}
