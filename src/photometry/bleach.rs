@@ -198,6 +198,78 @@ fn golden(mut lo: f64, mut hi: f64, f: impl Fn(f64) -> f64) -> f64 {
     }
 }
 
+/// Minimise `f` over two variables by Nelder–Mead (standard coefficients), from `start` with
+/// initial steps `step`, until the simplex is smaller than 1e-11 in every coordinate.
+fn nelder_mead_2d(f: impl Fn([f64; 2]) -> f64, start: [f64; 2], step: f64) -> [f64; 2] {
+    let mut pts = [
+        start,
+        [start[0] + step, start[1]],
+        [start[0], start[1] + step],
+    ];
+    let mut val = pts.map(&f);
+    for _ in 0..2000 {
+        let mut order = [0, 1, 2];
+        order.sort_by(|&i, &j| val[i].total_cmp(&val[j]));
+        let [best, mid, worst] = order;
+        let size = (0..2)
+            .map(|k| {
+                let c = [pts[0][k], pts[1][k], pts[2][k]];
+                c.iter().copied().fold(f64::NEG_INFINITY, f64::max)
+                    - c.iter().copied().fold(f64::INFINITY, f64::min)
+            })
+            .fold(0.0, f64::max);
+        if size < 1e-11 {
+            return pts[best];
+        }
+        let centroid = [
+            0.5 * (pts[best][0] + pts[mid][0]),
+            0.5 * (pts[best][1] + pts[mid][1]),
+        ];
+        let along = |t: f64| {
+            [
+                centroid[0] + t * (pts[worst][0] - centroid[0]),
+                centroid[1] + t * (pts[worst][1] - centroid[1]),
+            ]
+        };
+        let reflected = along(-1.0);
+        let fr = f(reflected);
+        if fr < val[best] {
+            let expanded = along(-2.0);
+            let fe = f(expanded);
+            (pts[worst], val[worst]) = if fe < fr {
+                (expanded, fe)
+            } else {
+                (reflected, fr)
+            };
+        } else if fr < val[mid] {
+            (pts[worst], val[worst]) = (reflected, fr);
+        } else {
+            let contracted = if fr < val[worst] {
+                along(-0.5)
+            } else {
+                along(0.5)
+            };
+            let fc = f(contracted);
+            if fc < val[worst].min(fr) {
+                (pts[worst], val[worst]) = (contracted, fc);
+            } else {
+                // Shrink towards the best point.
+                for i in [mid, worst] {
+                    pts[i] = [
+                        pts[best][0] + 0.5 * (pts[i][0] - pts[best][0]),
+                        pts[best][1] + 0.5 * (pts[i][1] - pts[best][1]),
+                    ];
+                    val[i] = f(pts[i]);
+                }
+            }
+        }
+    }
+    let best = (0..3)
+        .min_by(|&i, &j| val[i].total_cmp(&val[j]))
+        .unwrap_or(0);
+    pts[best]
+}
+
 fn log_grid(lo: f64, hi: f64, count: usize) -> Vec<f64> {
     (0..count)
         .map(|i| lo + (hi - lo) * i as f64 / (count - 1) as f64)
@@ -256,22 +328,19 @@ pub fn fit_bleaching(
                 }
             }
         }
-        let (mut s2, mut a, mut b) = best2;
+        let (_, a0, b0) = best2;
         let cstep = coarse[1] - coarse[0];
-        for _ in 0..20 {
-            a = golden((a - cstep).max(lo), (a + cstep).min(b - gap), |x| {
-                sse(&p, &[x, b])
-            });
-            b = golden((b - cstep).max(a + gap), (b + cstep).min(hi), |x| {
-                sse(&p, &[a, x])
-            });
-            let s = sse(&p, &[a, b]);
-            let done = (s2 - s).abs() <= 1e-13 * s.max(f64::MIN_POSITIVE);
-            s2 = s;
-            if done {
-                break;
+        // Nelder–Mead polish: the two τ are correlated, so a joint search follows the valley
+        // that coordinate-wise searches crawl along. The gap is kept by a penalty (+∞).
+        let objective = |v: [f64; 2]| {
+            if v[1] - v[0] < gap || v[0] < lo || v[1] > hi {
+                f64::INFINITY
+            } else {
+                sse(&p, &v)
             }
-        }
+        };
+        let [a, b] = nelder_mead_2d(objective, [a0, b0], 0.5 * cstep);
+        let s2 = objective([a, b]);
         // Keep the second component only when it explains something the first does not.
         if s2.is_finite() && s2 < single * (1.0 - 1e-9) {
             log_taus = vec![a, b];

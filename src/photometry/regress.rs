@@ -225,7 +225,7 @@ pub fn ols(control: &[f64], signal: &[f64]) -> Result<LineFit, PhotometryError> 
 
 /// Median of a buffer, reordering it (mean of the two middle values for an even count, as
 /// numpy does).
-pub(crate) fn median_in_place(v: &mut [f64]) -> f64 {
+pub fn median_of(v: &mut [f64]) -> f64 {
     let n = v.len();
     let mid = n / 2;
     let (lower, m, _) = v.select_nth_unstable_by(mid, f64::total_cmp);
@@ -287,7 +287,7 @@ pub fn irls(
         for ((r, &x), &y) in scratch.iter_mut().zip(control).zip(signal) {
             *r = ((y - f.y0) - a - b * (x - f.x0)).abs();
         }
-        scale = median_in_place(scratch) / MAD_TO_SIGMA;
+        scale = median_of(scratch) / MAD_TO_SIGMA;
         if !(scale > 0.0) {
             // Over half the samples sit exactly on the line: nothing left to reweight.
             converged = true;
@@ -425,7 +425,7 @@ pub fn sliding(
             for ((w, &y), &fh) in weights.iter_mut().zip(signal).zip(fitted.iter()) {
                 *w = (y - fh).abs();
             }
-            let scale = median_in_place(weights) / MAD_TO_SIGMA;
+            let scale = median_of(weights) / MAD_TO_SIGMA;
             robust_scale = Some(scale);
             if !(scale > 0.0) {
                 converged = true;

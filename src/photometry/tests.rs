@@ -155,7 +155,10 @@ fn sliding_window_follows_a_drifting_coupling() {
     let slid = preprocess(&r, &opts).unwrap();
     let worst = |d: &[f64]| d.iter().fold(0.0f64, |m, v| m.max(v.abs()));
     let (w, s) = (worst(&whole.dff), worst(&slid.dff));
-    assert!(w > 0.1 && s < 0.02 && s < w / 10.0, "whole {w}, sliding {s}");
+    assert!(
+        w > 0.1 && s < 0.02 && s < w / 10.0,
+        "whole {w}, sliding {s}"
+    );
     let BaselineFit::SlidingControl(s) = slid.baseline else {
         panic!()
     };
