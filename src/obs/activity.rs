@@ -67,19 +67,29 @@ impl<'a> SessionActivity<'a> {
                         hint: "no photometry.csv or no samples in it".into(),
                     })?;
                 let values = photometry_activity(session)?;
-                let mut prefix = Vec::with_capacity(values.len() + 1);
-                let mut acc = 0.0;
-                prefix.push(acc);
-                for v in &values {
-                    acc += v;
-                    prefix.push(acc);
-                }
-                Ok(SessionActivity::Photometry {
-                    time: &ph.time_s,
-                    values,
-                    prefix,
-                })
+                Ok(SessionActivity::from_samples(&ph.time_s, values))
             }
+        }
+    }
+
+    /// A continuous trace given as samples (sorted times, one value each), e.g. the raw
+    /// photometry signal or any preprocessed version of it.
+    pub fn from_samples(time: &'a [f64], mut values: Vec<f64>) -> Self {
+        // A preprocessing step that returned a different length must not index out of bounds.
+        let n = time.len().min(values.len());
+        let time = &time[..n];
+        values.truncate(n);
+        let mut prefix = Vec::with_capacity(values.len() + 1);
+        let mut acc = 0.0;
+        prefix.push(acc);
+        for v in &values {
+            acc += v;
+            prefix.push(acc);
+        }
+        SessionActivity::Photometry {
+            time,
+            values,
+            prefix,
         }
     }
 
