@@ -288,14 +288,22 @@ fn cohort_table(rows: &[CohortRow]) -> Table {
     }
 }
 
+fn sessions(n: usize) -> String {
+    if n == 1 {
+        "1 session".to_string()
+    } else {
+        format!("{n} sessions")
+    }
+}
+
 pub fn text(subjects: &[SubjectSummary], cohort: Option<&[CohortRow]>) -> String {
     let mut out = String::new();
     for s in subjects {
         let trials: usize = s.rows.iter().map(|r| r.trials).sum();
         out.push_str(&format!(
-            "Subject {}: {} sessions, {} trials\n",
+            "Subject {}: {}, {} trials\n",
             s.subject,
-            s.rows.len(),
+            sessions(s.rows.len()),
             trials
         ));
         for n in &s.notes {
@@ -317,9 +325,9 @@ pub fn markdown(subjects: &[SubjectSummary], cohort: Option<&[CohortRow]>) -> St
     for s in subjects {
         let trials: usize = s.rows.iter().map(|r| r.trials).sum();
         out.push_str(&format!(
-            "## Subject {}: {} sessions, {} trials\n\n",
+            "## Subject {}: {}, {} trials\n\n",
             md_escape(&s.subject),
-            s.rows.len(),
+            sessions(s.rows.len()),
             trials
         ));
         for n in &s.notes {
