@@ -144,6 +144,15 @@ impl Theme {
         }
     }
 
+    /// Marks the current row beside the reverse video.
+    pub fn pointer(&self) -> &'static str {
+        if self.ascii {
+            ">"
+        } else {
+            "▸"
+        }
+    }
+
     /// The ellipsis that ends cut text.
     pub fn ellipsis(&self) -> &'static str {
         if self.ascii {

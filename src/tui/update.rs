@@ -13,6 +13,12 @@ use crate::marks::{self, MarkKind, MarkRow};
 const JUMP: usize = 10;
 
 pub fn update(state: &mut State, action: Action) {
+    // Quit wins in every mode (ctrl-c reaches here from the picker and the editor too);
+    // everything acknowledged is already on disk.
+    if action == Action::Quit {
+        state.quit = true;
+        return;
+    }
     match state.overlay.clone() {
         Overlay::Picker { kind, selected } => return picker(state, kind, selected, action),
         Overlay::Editor { .. } => return editor(state, action),
@@ -218,7 +224,7 @@ fn picker(state: &mut State, kind: MarkKind, selected: usize, action: Action) {
         }
         Action::PickReason(i) if i < n => choose_reason(state, kind, i),
         Action::Confirm if selected < n => choose_reason(state, kind, selected),
-        Action::Cancel | Action::Quit => {
+        Action::Cancel => {
             state.overlay = Overlay::None;
             info(state, "not marked");
         }

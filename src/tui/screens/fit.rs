@@ -5,28 +5,32 @@
 use crate::marks::MarkKind;
 use crate::tui::state::State;
 use crate::tui::theme::{Role, Theme};
+use crate::tui::widgets::trial_list::outcome_tag;
 use crate::tui::widgets::{fill_row, num, put};
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
 
-pub const CAUTION: &str =
-    "Caution: marking trials after seeing a fit can bias it. Decide on the data, then refit.";
+pub const CAUTION: &str = "Caution: marking trials after seeing a fit can bias it.";
+pub const CAUTION_2: &str =
+    "Decide marks on the data alone; `trialdesk fit --help` shows how to compare.";
 
 pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
     let m = &state.model;
     let p = &m.params;
     let mut y = 0u16;
-    let mut line = |buf: &mut Buffer, text: &str, role: Role| {
-        put(buf, area, 1, y, text, theme.style(role));
-        y += 1;
+    let line = |buf: &mut Buffer, y: &mut u16, text: &str, role: Role| {
+        put(buf, area, 1, *y, text, theme.style(role));
+        *y += 1;
     };
     line(
         buf,
+        &mut y,
         &format!("parameters: {}", m.source.label()),
         Role::Title,
     );
     line(
         buf,
+        &mut y,
         &format!(
             "alpha {}  gamma {} per {} s bin  lambda {}  representation {}",
             p.alpha,
@@ -38,7 +42,7 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         Role::Plain,
     );
     for l in &m.fit_lines {
-        line(buf, &theme.clean(l), Role::Plain);
+        line(buf, &mut y, &theme.clean(l), Role::Plain);
     }
     let excluded: usize = state
         .marks
@@ -53,10 +57,22 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         .sum();
     line(
         buf,
+        &mut y,
         &format!("excluded trials now marked across the subject: {excluded}"),
         Role::Plain,
     );
-    line(buf, CAUTION, Role::Tone(crate::tui::state::Tone::Warn));
+    line(
+        buf,
+        &mut y,
+        CAUTION,
+        Role::Tone(crate::tui::state::Tone::Warn),
+    );
+    line(
+        buf,
+        &mut y,
+        CAUTION_2,
+        Role::Tone(crate::tui::state::Tone::Warn),
+    );
     let (pred_head, predicted): (&str, Box<dyn Fn(Option<f64>, bool) -> Option<f64>>) =
         match m.readout {
             Some(r) => (
@@ -65,12 +81,31 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
                     d.map(|d| if cue { r.cue_baseline } else { r.reward_baseline } + r.gain * d)
                 }),
             ),
-            None => ("model sum of delta", Box::new(|d: Option<f64>, _| d)),
+            None => ("sum d", Box::new(|d: Option<f64>, _| d)),
         };
     y += 1;
+    if m.readout.is_none() {
+        line(
+            buf,
+            &mut y,
+            "no gain/baseline without a fit: 'sum d' is the model's delta summed over",
+            Role::Dim,
+        );
+        line(
+            buf,
+            &mut y,
+            "each observation window, beside the observed response",
+            Role::Dim,
+        );
+    }
     let header = format!(
-        "{:>6} {:<9} {:>9} {:>9}   {:>9} {:>9}   ({pred_head} beside observed)",
-        "trial", "outcome", "cue obs", "cue pred", "rew obs", "rew pred"
+        "{:>6} {:<7} {:>9} {:>9}   {:>9} {:>9}",
+        "trial",
+        "outcome",
+        "cue obs",
+        format!("cue {pred_head}"),
+        "rew obs",
+        format!("rew {pred_head}")
     );
     put(buf, area, 1, y, &header, theme.style(Role::Title));
     y += 1;
@@ -96,13 +131,9 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         };
         let (glyph, role) = theme.mark_glyph(state.mark_of(trial.number).map(|t| t.kind));
         let text = format!(
-            "{:>5} {:<9} {:>9} {:>9}   {:>9} {:>9}",
+            "{:>5} {:<7} {:>9} {:>9}   {:>9} {:>9}",
             trial.number,
-            obs.map_or("-", |o| o.kind.name())
-                .replace('_', " ")
-                .chars()
-                .take(9)
-                .collect::<String>(),
+            outcome_tag(crate::obs::TrialKind::of(session, trial)),
             num(obs.and_then(|o| o.cue), 2),
             num(predicted(wd.and_then(|w| w.cue), true), 2),
             num(obs.and_then(|o| o.reward), 2),

@@ -14,21 +14,21 @@ pub fn lines(state: &State) -> Vec<String> {
         .keymap
         .bindings
         .iter()
-        .map(|(a, _)| format!("{:<14} {}", state.keymap.keys_for(*a), a.describe()))
+        .map(|(a, _)| format!("{:<12} {}", state.keymap.keys_for(*a), a.describe()))
         .collect();
-    out.push(format!("{:<14} {}", "ctrl-c", "quit (always)"));
-    out.push(format!("{:<14} {}", "picker", "1-9, up/down + enter, esc"));
+    out.push(format!("{:<12} {}", "ctrl-c", "quit (always)"));
+    out.push(format!("{:<12} {}", "in picker", "1-9, or up/down + enter"));
     out.push(format!(
-        "{:<14} {}",
-        "note editor", "type, enter saves, esc drops"
+        "{:<12} {}",
+        "in editor", "type; enter saves, esc drops"
     ));
     out
 }
 
 pub fn render(buf: &mut Buffer, screen: Rect, state: &State, theme: &Theme) {
     let lines = lines(state);
-    let col_w = 44u16;
-    let cols = if screen.width >= 2 * col_w + 4 { 2 } else { 1 };
+    let col_w = 39u16;
+    let cols = if screen.width >= 2 * col_w + 2 { 2 } else { 1 };
     let per_col = lines.len().div_ceil(cols);
     let w = (col_w * cols as u16 + 2).min(screen.width);
     let h = (per_col as u16 + 3).min(screen.height);

@@ -3,7 +3,7 @@
 //! all on one time axis so the columns line up.
 
 use crate::obs::TrialKind;
-use crate::tui::state::State;
+use crate::tui::state::{SignalKind, State};
 use crate::tui::theme::{Role, Theme};
 use crate::tui::widgets::trace::{self, Trace};
 use crate::tui::widgets::{put, raster, trial_list, TimeAxis};
@@ -29,16 +29,21 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
     render_detail(buf, right, state, theme);
 }
 
-/// Row heights of the right-hand side for a given height: (raster, each trace incl. title).
-fn heights(h: u16) -> (u16, u16) {
+/// Row heights of the right-hand side for a given height and the raster rows wanted:
+/// (raster, each trace incl. its title). Rows the raster does not need go to the traces.
+fn heights(h: u16, wanted: u16) -> (u16, u16) {
     // Fixed rows: info, licks, events, seconds, notes.
     let fixed = 5;
-    let trace_h = match h {
+    let mut trace_h = match h {
         34.. => 7,
         26.. => 5,
         _ => 4,
     };
-    let raster = h.saturating_sub(fixed + 3 * trace_h).max(1);
+    let raster = h
+        .saturating_sub(fixed + 3 * trace_h)
+        .clamp(1, wanted.max(1));
+    let spare = h.saturating_sub(fixed + 3 * trace_h + raster);
+    trace_h += spare / 3;
     (raster, trace_h)
 }
 
@@ -61,7 +66,12 @@ fn render_detail(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         to: view.to_s,
         width: area.width.saturating_sub(GUTTER),
     };
-    let (raster_h, trace_h) = heights(area.height);
+    let wanted = match (state.unit, &session.spikes) {
+        (None, Some(sp)) => sp.units.len().max(1) as u16,
+        (None, None) => 1,
+        (Some(_), _) => u16::MAX,
+    };
+    let (raster_h, trace_h) = heights(area.height, wanted);
     let mut y = area.y;
     let row = |y: u16, h: u16| {
         Rect::new(
@@ -97,6 +107,7 @@ fn render_detail(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
             title: &obs_title,
             cols: &observed,
             role: Role::Plain,
+            include_zero: state.signal != SignalKind::Photometry,
         },
         theme,
         &guides,
@@ -117,6 +128,7 @@ fn render_detail(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
                     title: &vt,
                     cols: &value,
                     role: Role::Cue,
+                    include_zero: true,
                 },
                 theme,
                 &guides,
@@ -131,6 +143,7 @@ fn render_detail(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
                     title: &dtitle,
                     cols: &delta,
                     role: Role::Reward,
+                    include_zero: true,
                 },
                 theme,
                 &guides,
@@ -162,7 +175,6 @@ fn render_detail(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         };
         put(buf, row(y, 1), 1, 0, &text, theme.style(Role::Dim));
     }
-    let _ = session;
 }
 
 fn render_info(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {

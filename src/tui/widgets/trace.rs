@@ -11,6 +11,8 @@ pub struct Trace<'a> {
     pub title: &'a str,
     pub cols: &'a [f64],
     pub role: Role,
+    /// Keep 0 inside the scale (rates, model traces); off for signals far from zero.
+    pub include_zero: bool,
 }
 
 /// Draw `trace` into `area`: `gutter` label columns (the scale), then the plot.
@@ -26,7 +28,15 @@ pub fn render(
         return;
     }
     let finite = trace.cols.iter().copied().filter(|v| v.is_finite());
-    let (lo, mut hi) = finite.fold((0.0_f64, 0.0_f64), |(l, h), v| (l.min(v), h.max(v)));
+    let start = if trace.include_zero {
+        (0.0_f64, 0.0_f64)
+    } else {
+        (f64::INFINITY, f64::NEG_INFINITY)
+    };
+    let (mut lo, mut hi) = finite.fold(start, |(l, h), v| (l.min(v), h.max(v)));
+    if !lo.is_finite() {
+        (lo, hi) = (0.0, 1.0);
+    }
     if hi - lo < 1e-12 {
         hi = lo + 1.0;
     }

@@ -64,6 +64,15 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
                 theme.style(role).patch(theme.style(Role::Current)),
             );
             put(buf, area, 1, dy, &text, theme.style(Role::Current));
+            // A visible pointer as well as reverse video, for NO_COLOR and screen readers.
+            put(
+                buf,
+                area,
+                1,
+                dy,
+                theme.pointer(),
+                theme.style(Role::Current),
+            );
         } else {
             put(buf, area, 0, dy, glyph, theme.style(role));
             put(buf, area, 1, dy, &text, theme.style(Role::Plain));

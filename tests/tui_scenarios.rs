@@ -1,0 +1,299 @@
+//! Scenario tests: the fixture subject + a key string → the state and the marks.csv rows
+//! expected on disk (the `at` column is left out: the clock is not under test).
+
+mod tui_support;
+
+use trialdesk::marks::{self, MarkKind, MarkRow};
+use trialdesk::tui::action::Action;
+use trialdesk::tui::keymap::Keymap;
+use trialdesk::tui::state::{Overlay, Screen, Tone};
+use trialdesk::tui::update::update;
+use tui_support::*;
+
+const DAY1: &str = "2026-03-02";
+const DAY2: &str = "2026-03-03";
+const HEADER: &str = "trial,mark,reason,note,reviewer";
+
+#[test]
+fn step_and_exclude_with_a_reason() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    press(&mut st, "jjx3");
+    assert_eq!(st.trial, 2);
+    assert_eq!(st.mark_of(3).unwrap().kind, MarkKind::Exclude);
+    assert_eq!(st.status.tone, Tone::Saved);
+    assert_eq!(st.status.text, "saved: trial 3 excluded (valve failure)");
+    assert_eq!(
+        marks_rows(&dir, DAY1),
+        [HEADER, "3,exclude,valve failure,,tester"]
+    );
+}
+
+#[test]
+fn picker_moves_and_cancels() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    press(&mut st, "x<down><down><up>");
+    assert!(matches!(st.overlay, Overlay::Picker { selected: 1, .. }));
+    press(&mut st, "<esc>");
+    assert_eq!(st.overlay, Overlay::None);
+    assert!(!dir.join(DAY1).join("marks.csv").exists());
+    press(&mut st, "s<down><enter>");
+    assert_eq!(
+        marks_rows(&dir, DAY1),
+        [HEADER, "1,suspect,lost unit,,tester"]
+    );
+}
+
+#[test]
+fn other_reason_asks_for_words() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    press(&mut st, "js5baseline drifts, see rig log<enter>");
+    assert_eq!(
+        marks_rows(&dir, DAY1),
+        [
+            HEADER,
+            "2,suspect,other,\"baseline drifts, see rig log\",tester"
+        ]
+    );
+}
+
+#[test]
+fn undo_appends_compensating_rows() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    press(&mut st, "x1s2");
+    assert_eq!(st.mark_of(1).unwrap().kind, MarkKind::Suspect);
+    press(&mut st, "u");
+    let m = st.mark_of(1).unwrap();
+    assert_eq!((m.kind, m.reason.as_str()), (MarkKind::Exclude, "artifact"));
+    press(&mut st, "<ctrl-z>");
+    assert!(st.mark_of(1).is_none());
+    press(&mut st, "u");
+    assert!(st.status.text.starts_with("nothing of yours to undo"));
+    assert_eq!(
+        marks_rows(&dir, DAY1),
+        [
+            HEADER,
+            "1,exclude,artifact,,tester",
+            "1,suspect,lost unit,,tester",
+            "1,exclude,artifact,,tester",
+            "1,clear,undo,,tester",
+        ]
+    );
+}
+
+#[test]
+fn trial_and_session_notes() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    press(&mut st, "jnvalve clicked twicee<backspace><enter>");
+    press(&mut st, "Npatch cord replaced after trial 8<enter>");
+    press(&mut st, "n   <enter>");
+    assert!(st.status.text.contains("empty note"));
+    assert_eq!(
+        marks_rows(&dir, DAY1),
+        [
+            HEADER,
+            "2,note,,valve clicked twice,tester",
+            ",note,,patch cord replaced after trial 8,tester",
+        ]
+    );
+    assert_eq!(st.notes_of(Some(2)).count(), 1);
+    assert_eq!(st.notes_of(None).count(), 1);
+    let text = frame_text(80, 24, &st);
+    assert!(
+        text.contains("notes: tester: valve clicked twice"),
+        "{text}"
+    );
+}
+
+#[test]
+fn editor_cursor_edits_in_place() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    press(&mut st, "nlik<left>c<home>C<end>s<esc>");
+    assert!(st.status.text.contains("discarded"));
+    press(&mut st, "nac<left>b<enter>");
+    assert_eq!(marks_rows(&dir, DAY1)[1], "1,note,,abc,tester");
+}
+
+#[test]
+fn clear_only_when_marked() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    press(&mut st, "c");
+    assert_eq!(st.status.text, "trial 1 has no mark to clear");
+    press(&mut st, "x4c");
+    assert!(st.mark_of(1).is_none());
+    assert_eq!(
+        marks_rows(&dir, DAY1),
+        [
+            HEADER,
+            "1,exclude,lick contamination,,tester",
+            "1,clear,,,tester"
+        ]
+    );
+}
+
+#[test]
+fn sessions_keep_their_own_marks() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    press(&mut st, "jx1]");
+    assert_eq!((st.session, st.trial), (1, 0));
+    assert!(st.mark_of(2).is_none());
+    press(&mut st, "Gs1");
+    assert_eq!(
+        marks_rows(&dir, DAY2),
+        [HEADER, "12,suspect,artifact,,tester"]
+    );
+    press(&mut st, "]");
+    assert_eq!(st.session, 1);
+    assert!(st.status.text.contains("last session"));
+    press(&mut st, "[");
+    assert_eq!(st.mark_of(2).unwrap().kind, MarkKind::Exclude);
+}
+
+#[test]
+fn screens_units_and_signals() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    press(&mut st, "2");
+    assert_eq!(st.screen, Screen::Session);
+    press(&mut st, "<tab><tab>");
+    assert_eq!(st.screen, Screen::Fit);
+    press(&mut st, "1...");
+    assert_eq!(st.unit_name(), Some("u3"));
+    assert!(st.view.label.contains("u3"));
+    press(&mut st, ".");
+    assert_eq!(st.unit, None);
+    press(&mut st, ",");
+    assert_eq!(st.unit_name(), Some("u3"));
+    press(&mut st, "a");
+    assert_eq!(st.view.label, "lick rate (licks/s)");
+    // Day 1 has no photometry: the cycle skips it.
+    press(&mut st, "a");
+    assert!(st.view.label.contains("unit u3"));
+}
+
+#[test]
+fn next_unmarked_skips_marked_trials() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    press(&mut st, "jx1jx1gg<space>");
+    assert_eq!(st.trial, 3);
+    press(&mut st, "G<space>");
+    assert!(st.status.text.contains("no unmarked trial"));
+}
+
+#[test]
+fn rows_from_another_reviewer_show_up() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    press(&mut st, "x1");
+    let row = MarkRow {
+        trial: Some(5),
+        mark: MarkKind::Suspect,
+        reason: "lost unit".into(),
+        note: String::new(),
+        reviewer: "ana".into(),
+        at: marks::now_rfc3339(),
+    };
+    marks::append(&dir.join(DAY1), &row).unwrap();
+    assert!(st.mark_of(5).is_none());
+    update(&mut st, Action::RefreshMarks);
+    assert_eq!(st.mark_of(5).unwrap().reviewer, "ana");
+    assert!(st.status.text.contains("1 new row"), "{}", st.status.text);
+    assert_eq!(st.mark_of(1).unwrap().kind, MarkKind::Exclude);
+}
+
+#[test]
+fn failed_append_is_kept_flagged_and_retried() {
+    let (_tmp, dir) = fixture_copy();
+    let marks_path = dir.join(DAY1).join("marks.csv");
+    // A directory where the journal should be: every append fails.
+    std::fs::create_dir(&marks_path).unwrap();
+    let mut st = state(&dir);
+    press(&mut st, "x2");
+    assert_eq!(st.status.tone, Tone::Error);
+    assert!(
+        st.status
+            .text
+            .starts_with("NOT SAVED: trial 1 excluded (lost unit)"),
+        "{}",
+        st.status.text
+    );
+    assert_eq!(st.mark_of(1).unwrap().kind, MarkKind::Exclude);
+    assert_eq!(st.marks[0].unsaved.len(), 1);
+    let text = frame_text(80, 24, &st);
+    assert!(text.contains("1 UNSAVED"), "{text}");
+    std::fs::remove_dir(&marks_path).unwrap();
+    update(&mut st, Action::RefreshMarks);
+    assert!(st.marks[0].unsaved.is_empty());
+    assert_eq!(st.status.tone, Tone::Saved);
+    assert_eq!(
+        marks_rows(&dir, DAY1),
+        [HEADER, "1,exclude,lost unit,,tester"]
+    );
+}
+
+#[test]
+fn one_handed_layout() {
+    let (_tmp, dir) = fixture_copy();
+    let map = Keymap::build(&[("user".into(), "layout = \"one_handed\"\n".into())]).unwrap();
+    let mut st = state_with(&dir, options(), map);
+    press(&mut st, "ffdx1");
+    assert_eq!(
+        marks_rows(&dir, DAY1),
+        [HEADER, "2,exclude,artifact,,tester"]
+    );
+    press(&mut st, "Q");
+    assert!(st.quit);
+}
+
+#[test]
+fn help_lists_the_keymap_in_force() {
+    let (_tmp, dir) = fixture_copy();
+    let user = std::fs::read_to_string(fixture_root().join("../keymaps/good_user.toml")).unwrap();
+    let map = Keymap::build(&[("good_user.toml".into(), user)]).unwrap();
+    let mut st = state_with(&dir, options(), map);
+    press(&mut st, "?");
+    let text = frame_text(100, 30, &st);
+    assert!(
+        text.contains("e            exclude (pick a reason)"),
+        "{text}"
+    );
+    assert!(text.contains("default + good_user.toml"), "{text}");
+    press(&mut st, "<esc>e1");
+    assert_eq!(
+        marks_rows(&dir, DAY1),
+        [HEADER, "1,exclude,artifact,,tester"]
+    );
+}
+
+#[test]
+fn control_characters_never_reach_the_screen() {
+    let (_tmp, dir) = fixture_copy();
+    std::fs::write(
+        dir.join(DAY1).join("marks.csv"),
+        "trial,mark,reason,note,reviewer,at\n1,note,,\"\x1b[2Jgone\x07\",\"ev\x1b]0;il\",2026-03-02T10:00:00Z\n",
+    )
+    .unwrap();
+    let st = state(&dir);
+    let text = frame_text(80, 24, &st);
+    assert!(
+        !text.chars().any(|c| c.is_control() && c != '\n'),
+        "{text:?}"
+    );
+    assert!(text.contains("?[2Jgone?"), "{text}");
+}
+
+#[test]
+fn quit_from_anywhere() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    press(&mut st, "nhalf a note<ctrl-c>");
+    assert!(st.quit);
+}
