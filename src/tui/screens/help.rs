@@ -18,10 +18,7 @@ pub fn lines(state: &State) -> Vec<String> {
         .collect();
     out.push(format!("{:<12} {}", "ctrl-c", "quit (always)"));
     out.push(format!("{:<12} {}", "in picker", "1-9, or up/down + enter"));
-    out.push(format!(
-        "{:<12} {}",
-        "in editor", "type; enter saves, esc drops"
-    ));
+    out.push(format!("{:<12} {}", "in editor", "enter saves, esc drops"));
     out
 }
 
