@@ -1,14 +1,132 @@
-//! `trialdesk simulate`.
+//! `trialdesk simulate`: write a synthetic subject from a known TD model.
 
 use super::{CliError, CmdResult};
+use crate::model::Representation;
+use crate::simulate::{self, CueSpec, PhotometryParams, SimConfig};
 use std::path::PathBuf;
 
+/// Defaults reproduce the demo scenario (demo_data/README.md): 8 days x 120 trials, tones
+/// "tone-hi" (always rewarded), "tone-mid" (half) and "tone-lo" (never), 1.5 s cue-reward
+/// delay, 5 % uncued rewards of 3 uL sweet water, 6 dopamine-like units, CSC TD with
+/// alpha 0.02, gamma 0.98, lambda 0.9 per 50 ms bin.
 #[derive(clap::Args, Debug)]
+#[command(
+    after_help = "The same --seed and options always give the same bytes. \
+    OUT becomes a subject folder (one folder per day, named by date) with truth.toml \
+    recording every parameter."
+)]
 pub struct Args {
-    /// A subject folder or one session folder
-    pub path: PathBuf,
+    /// Subject folder to create (must be absent or empty unless --force)
+    pub out: PathBuf,
+    /// Random seed
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    /// Number of daily sessions
+    #[arg(long, default_value_t = 8)]
+    pub days: usize,
+    #[arg(long, default_value_t = 120)]
+    pub trials_per_day: usize,
+    /// A cue type NAME:P:DELAY (reward probability, cue->reward seconds); repeatable.
+    /// Default: tone-hi:1:1.5, tone-mid:0.5:1.5, tone-lo:0:1.5
+    #[arg(long = "cue", value_name = "NAME:P:DELAY")]
+    pub cues: Vec<String>,
+    /// Share of each day's trials that are uncued rewards
+    #[arg(long, default_value_t = 0.05)]
+    pub uncued_fraction: f64,
+    /// Reward size in uL (also the model's reward magnitude)
+    #[arg(long, default_value_t = 3.0)]
+    pub reward_ul: f64,
+    /// Mean inter-trial interval, s (end of trial to next onset)
+    #[arg(long, default_value_t = 12.0)]
+    pub iti_mean: f64,
+    /// Minimum inter-trial interval, s
+    #[arg(long, default_value_t = 6.0)]
+    pub iti_min: f64,
+    /// TD learning rate
+    #[arg(long, default_value_t = 0.02)]
+    pub alpha: f64,
+    /// TD discount per model bin
+    #[arg(long, default_value_t = 0.98)]
+    pub gamma: f64,
+    /// Eligibility-trace decay per model bin
+    #[arg(long, default_value_t = 0.9)]
+    pub lambda: f64,
+    /// Model bin width, s
+    #[arg(long, default_value_t = 0.05)]
+    pub dt: f64,
+    /// Stimulus representation: csc, presence or microstimulus
+    #[arg(long, default_value = "csc")]
+    pub representation: String,
+    /// Number of dopamine-like units (0: no spikes.csv)
+    #[arg(long, default_value_t = 6)]
+    pub units: usize,
+    /// Write photometry.csv (20 Hz sensor trace with isosbestic control): on or off
+    #[arg(long, default_value = "off", value_parser = ["on", "off"])]
+    pub photometry: String,
+    #[arg(long, default_value = "m-041")]
+    pub subject: String,
+    #[arg(long, default_value = "box-2")]
+    pub rig: String,
+    /// Date of the first session (YYYY-MM-DD); one session a day after it
+    #[arg(long, default_value = "2026-03-02")]
+    pub start_date: String,
+    /// Replace an earlier simulated subject in OUT (its session folders and truth.toml)
+    #[arg(long)]
+    pub force: bool,
 }
 
-pub fn run(_args: Args) -> CmdResult {
-    Err(CliError::failed("not built yet"))
+/// The configuration the arguments describe.
+pub fn config(args: &Args) -> Result<SimConfig, CliError> {
+    let mut c = SimConfig {
+        seed: args.seed,
+        ..Default::default()
+    };
+    let s = &mut c.schedule;
+    s.days = args.days;
+    s.trials_per_day = args.trials_per_day;
+    if !args.cues.is_empty() {
+        s.cues = args
+            .cues
+            .iter()
+            .map(|t| CueSpec::parse(t))
+            .collect::<Result<_, _>>()
+            .map_err(CliError::usage)?;
+    }
+    s.uncued_fraction = args.uncued_fraction;
+    s.reward_ul = args.reward_ul;
+    s.iti_mean_s = args.iti_mean;
+    s.iti_min_s = args.iti_min;
+    s.subject = args.subject.clone();
+    s.rig = args.rig.clone();
+    s.start_date = args.start_date.clone();
+    c.td.alpha = args.alpha;
+    c.td.gamma = args.gamma;
+    c.td.lambda = args.lambda;
+    c.td.dt = args.dt;
+    c.td.representation = Representation::parse(&args.representation).ok_or_else(|| {
+        CliError::usage(format!(
+            "--representation {:?}: expected csc, presence or microstimulus",
+            args.representation
+        ))
+    })?;
+    c.units.count = args.units;
+    c.photometry = (args.photometry == "on").then(PhotometryParams::default);
+    c.validate().map_err(CliError::usage)?;
+    Ok(c)
+}
+
+pub fn run(args: Args) -> CmdResult {
+    let config = config(&args)?;
+    let sim = simulate::simulate(&config).map_err(CliError::failed)?;
+    simulate::write_subject(&sim, &args.out, args.force)
+        .map_err(|e| CliError::failed(e.to_string()))?;
+    let trials: usize = sim.subject.sessions.iter().map(|s| s.trials.len()).sum();
+    eprintln!(
+        "wrote {} sessions, {} trials, {} units to {} (truth.toml records every parameter)",
+        sim.subject.sessions.len(),
+        trials,
+        sim.units.len(),
+        args.out.display()
+    );
+    Ok(0)
 }
