@@ -129,6 +129,17 @@ impl Sums {
         self.add(-w, x, y);
     }
 
+    fn merged(self, o: Sums) -> Sums {
+        Sums {
+            w: self.w + o.w,
+            x: self.x + o.x,
+            y: self.y + o.y,
+            xx: self.xx + o.xx,
+            xy: self.xy + o.xy,
+            yy: self.yy + o.yy,
+        }
+    }
+
     #[inline]
     pub fn moments(&self) -> Moments {
         let mx = self.x / self.w;
@@ -198,13 +209,36 @@ fn flat_control() -> PhotometryError {
     }
 }
 
+/// Weighted sums over the whole session in the shifted frame; `weight(xs, ys)` sees shifted
+/// values. Four interleaved partial sums break the add-latency chain (about 2× faster on long
+/// sessions) at the cost of a slightly different rounding order.
+#[inline(always)]
+fn accumulate(
+    control: &[f64],
+    signal: &[f64],
+    f: &Frame,
+    weight: impl Fn(f64, f64) -> f64,
+) -> Sums {
+    let mut lanes = [Sums::default(); 4];
+    let mut xc = control.chunks_exact(4);
+    let mut yc = signal.chunks_exact(4);
+    for (xs, ys) in (&mut xc).zip(&mut yc) {
+        for k in 0..4 {
+            let (x, y) = (xs[k] - f.x0, ys[k] - f.y0);
+            lanes[k].add(weight(x, y), x, y);
+        }
+    }
+    for (&x, &y) in xc.remainder().iter().zip(yc.remainder()) {
+        let (x, y) = (x - f.x0, y - f.y0);
+        lanes[0].add(weight(x, y), x, y);
+    }
+    let [a, b, c, d] = lanes;
+    a.merged(b).merged(c.merged(d))
+}
+
 /// Unweighted moments of the whole session, the base of OLS and of every R².
 pub(crate) fn session_moments(control: &[f64], signal: &[f64], f: &Frame) -> Moments {
-    let mut s = Sums::default();
-    for (&x, &y) in control.iter().zip(signal) {
-        s.add(1.0, x - f.x0, y - f.y0);
-    }
-    s.moments()
+    accumulate(control, signal, f, |_, _| 1.0).moments()
 }
 
 /// Ordinary least squares of signal on control over the whole session (one pass).
@@ -224,7 +258,7 @@ pub fn ols(control: &[f64], signal: &[f64]) -> Result<LineFit, PhotometryError> 
 }
 
 /// Median of a buffer, reordering it (mean of the two middle values for an even count, as
-/// numpy does).
+/// numpy does). Values must not be NaN.
 pub fn median_of(v: &mut [f64]) -> f64 {
     let n = v.len();
     let mid = n / 2;
@@ -236,6 +270,83 @@ pub fn median_of(v: &mut [f64]) -> f64 {
         let below = lower.iter().copied().fold(f64::NEG_INFINITY, f64::max);
         0.5 * (below + upper)
     }
+}
+
+/// One-pass exact median of non-negative values near a known guess: values within a few % of
+/// the guess are kept in a scratch buffer and the rest only counted, then the median is selected
+/// among the kept few. IRLS recomputes this every round and the answer moves little between
+/// rounds, so the bracket almost always holds it.
+struct Bracket {
+    lo: f64,
+    hi: f64,
+    below: usize,
+    kept: usize,
+}
+
+impl Bracket {
+    /// Values within guess·(1 ± width).
+    fn around(guess: f64, width: f64) -> Bracket {
+        Bracket {
+            lo: guess * (1.0 - width),
+            hi: guess * (1.0 + width),
+            below: 0,
+            kept: 0,
+        }
+    }
+
+    /// Branch-free: about half the values fall below the bracket, in no pattern.
+    #[inline(always)]
+    fn push(&mut self, v: f64, scratch: &mut [f64]) {
+        let is_below = v < self.lo;
+        self.below += usize::from(is_below);
+        scratch[self.kept] = v;
+        self.kept += usize::from(!is_below && v <= self.hi);
+    }
+
+    /// The median of the n values pushed, when the bracket holds it.
+    fn median(&self, n: usize, scratch: &mut [f64]) -> Option<f64> {
+        let mid = n / 2;
+        if !(self.below <= mid && mid < self.below + self.kept) {
+            return None;
+        }
+        let rank = mid - self.below;
+        let (lower, m, _) = scratch[..self.kept].select_nth_unstable_by(rank, f64::total_cmp);
+        let upper = *m;
+        if n % 2 == 1 {
+            return Some(upper);
+        }
+        // The value just below the median sits below the bracket (not kept): let the caller
+        // do a full select. Tracking the largest value below would cost a branch per sample.
+        if rank == 0 {
+            return None;
+        }
+        let lower_max = lower.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        Some(0.5 * (lower_max + upper))
+    }
+}
+
+/// Exact median of the n non-negative values `abs_value(i)`, using `scratch` (≥ n values):
+/// one bracketed pass around `hint` when given (see [`Bracket`]), else or when the bracket
+/// misses, a full select.
+pub(crate) fn median_abs(
+    n: usize,
+    abs_value: impl Fn(usize) -> f64,
+    scratch: &mut [f64],
+    hint: Option<f64>,
+) -> f64 {
+    if let Some(h) = hint.filter(|h| *h > 0.0 && h.is_finite()) {
+        let mut br = Bracket::around(h, 0.05);
+        for i in 0..n {
+            br.push(abs_value(i), scratch);
+        }
+        if let Some(m) = br.median(n, scratch) {
+            return m;
+        }
+    }
+    for (i, s) in scratch[..n].iter_mut().enumerate() {
+        *s = abs_value(i);
+    }
+    median_of(&mut scratch[..n])
 }
 
 /// Iteration limits for IRLS.
@@ -256,12 +367,51 @@ impl Default for IrlsLimits {
     }
 }
 
-/// IRLS fit of signal on control: start from OLS; each round takes the robust scale
-/// s = median|r|/0.6745 of the current residuals, weights w = ψ(r/s)/(r/s), and solves the
-/// weighted least squares. This is the iteration of statsmodels' `RLM.fit` with `scale_est =
-/// "mad"` (Huber 1981; Holland & Welsch 1977), so the fixed points agree. `scratch` must
-/// hold as many values as the signal (the median needs a reorderable copy); the caller can
-/// lend the output buffer.
+/// One IRLS round over the samples: weighted sums for the next line, and the bracketed median
+/// of |r| for the next scale. `line` is (a, b, 1/scale) in the shifted frame. Generic over the
+/// weight so each weight function gets its own loop with the choice made outside it.
+#[inline(never)]
+fn fused_pass(
+    control: &[f64],
+    signal: &[f64],
+    f: &Frame,
+    (a, b, inv): (f64, f64, f64),
+    weight: impl Fn(f64) -> f64,
+    br: &mut Bracket,
+    scratch: &mut [f64],
+) -> Sums {
+    // Locals and two interleaved partial sums: the loop is bound by the latency of its
+    // accumulators, not by arithmetic.
+    let mut local = Bracket { ..*br };
+    let mut lanes = [Sums::default(); 2];
+    let mut xc = control.chunks_exact(2);
+    let mut yc = signal.chunks_exact(2);
+    for (xs, ys) in (&mut xc).zip(&mut yc) {
+        for k in 0..2 {
+            let (xs, ys) = (xs[k] - f.x0, ys[k] - f.y0);
+            let r = ys - a - b * xs;
+            lanes[k].add(weight(r * inv), xs, ys);
+            local.push(r.abs(), scratch);
+        }
+    }
+    for (&x, &y) in xc.remainder().iter().zip(yc.remainder()) {
+        let (xs, ys) = (x - f.x0, y - f.y0);
+        let r = ys - a - b * xs;
+        lanes[0].add(weight(r * inv), xs, ys);
+        local.push(r.abs(), scratch);
+    }
+    *br = local;
+    lanes[0].merged(lanes[1])
+}
+
+/// IRLS fit of signal on control: start from OLS; each round weights the samples by
+/// w = ψ(r/s)/(r/s) with s = median|r|/0.6745 the robust scale, and solves the weighted least
+/// squares. Its fixed point is that of statsmodels' `RLM.fit` with `scale_est = "mad"` (Huber
+/// 1981; Holland & Welsch 1977), which the fixtures check. To read the samples once per round
+/// rather than twice, the scale used in a round is that of the previous round's line (the
+/// first round's from a subsample); at the fixed point the two coincide, and convergence
+/// requires both line and scale to settle.
+/// `scratch` must hold as many values as the signal; the caller can lend the output buffer.
 pub fn irls(
     control: &[f64],
     signal: &[f64],
@@ -270,6 +420,7 @@ pub fn irls(
     scratch: &mut [f64],
 ) -> Result<LineFit, PhotometryError> {
     weight.check()?;
+    let n = signal.len();
     let f = Frame::new(control, signal);
     let base = session_moments(control, signal, &f);
     let (mut a, mut b) = base.line(f.x_scale).ok_or_else(flat_control)?;
@@ -279,28 +430,52 @@ pub fn irls(
             (lo.min(x), hi.max(x))
         });
     let (x_lo, x_hi) = (x_lo - f.x0, x_hi - f.x0);
-    let scratch = &mut scratch[..signal.len()];
-    let mut scale = 0.0;
+    let scratch = &mut scratch[..n];
+    let abs_residual =
+        |a: f64, b: f64| move |i: usize| ((signal[i] - f.y0) - a - b * (control[i] - f.x0)).abs();
+    // The first round only needs a rough scale (its own pass yields the exact one): take the
+    // median over at most ~4096 evenly spaced samples.
+    let stride = (n / 4096).max(1);
+    let rough = n.div_ceil(stride);
+    let mut scale =
+        median_abs(rough, |k| abs_residual(a, b)(k * stride), scratch, None) / MAD_TO_SIGMA;
     let mut iterations = 0;
     let mut converged = false;
+    // Bracket half-width for the first exact median: the rough scale is within a few %.
+    let mut width = 0.1;
     while iterations < limits.max_iter {
-        for ((r, &x), &y) in scratch.iter_mut().zip(control).zip(signal) {
-            *r = ((y - f.y0) - a - b * (x - f.x0)).abs();
-        }
-        scale = median_of(scratch) / MAD_TO_SIGMA;
         if !(scale > 0.0) {
             // Over half the samples sit exactly on the line: nothing left to reweight.
             converged = true;
             break;
         }
-        let inv = 1.0 / scale;
-        let mut s = Sums::default();
-        for (&x, &y) in control.iter().zip(signal) {
-            let (xs, ys) = (x - f.x0, y - f.y0);
-            let w = weight.weight((ys - a - b * xs) * inv);
-            s.add(w, xs, ys);
-        }
-        let (a_new, b_new) = s.moments().line(f.x_scale).ok_or_else(|| {
+        let mut br = Bracket::around(scale * MAD_TO_SIGMA, width);
+        let line = (a, b, 1.0 / scale);
+        let sums = match weight {
+            RobustWeight::TukeyBisquare { .. } => fused_pass(
+                control,
+                signal,
+                &f,
+                line,
+                |u| weight.weight(u),
+                &mut br,
+                scratch,
+            ),
+            RobustWeight::Huber { .. } => fused_pass(
+                control,
+                signal,
+                &f,
+                line,
+                |u| weight.weight(u),
+                &mut br,
+                scratch,
+            ),
+        };
+        let here = match br.median(n, scratch) {
+            Some(m) => m,
+            None => median_abs(n, abs_residual(a, b), scratch, None),
+        } / MAD_TO_SIGMA;
+        let (a_new, b_new) = sums.moments().line(f.x_scale).ok_or_else(|| {
             PhotometryError::RobustFitFailed(
                 "every sample was weighted out (the control does not follow the signal)".into(),
             )
@@ -309,9 +484,12 @@ pub fn irls(
         let moved = ((a_new - a) + (b_new - b) * x_lo)
             .abs()
             .max(((a_new - a) + (b_new - b) * x_hi).abs());
-        a = a_new;
-        b = b_new;
-        if moved <= limits.tol * scale {
+        let scale_moved = (here - scale).abs();
+        // Each |r| moves by at most `moved` when the line moves, so the next median lies
+        // within ±moved of this one: a bracket that cannot miss (up to rounding).
+        width = (1.01 * moved / (here * MAD_TO_SIGMA) + 1e-6).min(1.0);
+        (a, b, scale) = (a_new, b_new, here);
+        if moved <= limits.tol * scale && scale_moved <= limits.tol * scale {
             converged = true;
             break;
         }
@@ -422,10 +600,9 @@ pub fn sliding(
         // so the convergence test keeps the previous F̂ in its own buffer.
         let mut previous = vec![0.0; n];
         while iterations < limits.max_iter {
-            for ((w, &y), &fh) in weights.iter_mut().zip(signal).zip(fitted.iter()) {
-                *w = (y - fh).abs();
-            }
-            let scale = median_of(weights) / MAD_TO_SIGMA;
+            let hint = robust_scale.map(|s| s * MAD_TO_SIGMA);
+            let abs_residual = |i: usize| (signal[i] - fitted[i]).abs();
+            let scale = median_abs(n, abs_residual, weights, hint) / MAD_TO_SIGMA;
             robust_scale = Some(scale);
             if !(scale > 0.0) {
                 converged = true;

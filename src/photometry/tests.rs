@@ -201,3 +201,36 @@ fn method_string_names_fit_scope_and_zscore() {
     let names: Vec<String> = p.coefficients().into_iter().map(|(n, _)| n).collect();
     assert_eq!(names, ["intercept", "slope", "robust_scale", "r_squared"]);
 }
+
+#[test]
+fn bracketed_median_equals_full_select() {
+    // Closed form reference: the full sort's middle (mean of the two middles for even n).
+    let mut state: u64 = 12;
+    let mut next = move || {
+        state ^= state << 13;
+        state ^= state >> 7;
+        state ^= state << 17;
+        (state >> 11) as f64 / (1u64 << 53) as f64
+    };
+    for n in [1usize, 2, 3, 4, 5, 10, 11, 100, 101, 1000] {
+        let values: Vec<f64> = (0..n).map(|_| next()).collect();
+        let mut sorted = values.clone();
+        sorted.sort_by(f64::total_cmp);
+        let want = if n % 2 == 1 {
+            sorted[n / 2]
+        } else {
+            0.5 * (sorted[n / 2 - 1] + sorted[n / 2])
+        };
+        for hint in [
+            None,
+            Some(want),
+            Some(want * 1.03),
+            Some(want * 0.5),
+            Some(10.0),
+        ] {
+            let mut scratch = vec![0.0; n];
+            let got = regress::median_abs(n, |i| values[i], &mut scratch, hint);
+            assert_eq!(got, want, "n = {n}, hint = {hint:?}");
+        }
+    }
+}
