@@ -157,12 +157,11 @@ fn csc_asymptote_is_discounted_reward() {
         let last = spans.len() - 1;
         assert_eq!(spans[last].reward_bin, Some(30));
         let (v, d) = (traces.trial_value(last), traces.trial_delta(last));
-        for k in 0..30 {
+        for (k, vk) in v.iter().enumerate().take(30) {
             let want = gamma.powi(29 - k as i32) * r;
             assert!(
-                (v[k] - want).abs() < 1e-9,
-                "λ {lambda} bin {k}: {} vs {want}",
-                v[k]
+                (vk - want).abs() < 1e-9,
+                "λ {lambda} bin {k}: {vk} vs {want}"
             );
         }
         assert!((d[0] - gamma.powi(30) * r).abs() < 1e-9);
