@@ -6,6 +6,7 @@
 //! file) or at a line longer than [`MAX_LINE_BYTES`] before that line is ever held in memory.
 
 use super::diag::{Diagnostic, Severity};
+use super::number::parse_plain_decimal;
 use std::fmt;
 use std::fs::File;
 use std::io::{self, BufRead, BufReader, Read};
@@ -70,23 +71,40 @@ impl<R: BufRead> Read for LineGuard<R> {
                 self.inner.consume(3);
             }
         }
-        let n = self.inner.read(buf)?;
-        for &b in &buf[..n] {
-            if b == b'\n' {
-                self.line += 1;
-                self.run = 0;
-            } else {
-                self.run += 1;
-                if b == 0 {
-                    return Err(io::Error::other(GuardError::Nul { line: self.line }));
-                }
+        // Chunks no longer than the cap: a line that fits inside one chunk is short enough,
+        // so only lines crossing chunk boundaries need counting. No per-byte branch here.
+        let limit = buf.len().min(self.cap.max(1));
+        let n = self.inner.read(&mut buf[..limit])?;
+        let chunk = &buf[..n];
+        if chunk.contains(&0) {
+            let pos = chunk.iter().position(|&b| b == 0).unwrap_or(0);
+            let line = self.line + count_newlines(&chunk[..pos]);
+            return Err(io::Error::other(GuardError::Nul { line }));
+        }
+        match chunk.iter().position(|&b| b == b'\n') {
+            None => {
+                self.run += n;
                 if self.run > self.cap {
-                    return Err(io::Error::other(GuardError::LongLine { line: self.line }));
+                    let line = self.line;
+                    return Err(io::Error::other(GuardError::LongLine { line }));
                 }
+            }
+            Some(first) => {
+                if self.run + first > self.cap {
+                    let line = self.line;
+                    return Err(io::Error::other(GuardError::LongLine { line }));
+                }
+                let last = chunk.iter().rposition(|&b| b == b'\n').unwrap_or(first);
+                self.line += count_newlines(chunk);
+                self.run = n - last - 1;
             }
         }
         Ok(n)
     }
+}
+
+fn count_newlines(bytes: &[u8]) -> u64 {
+    bytes.iter().filter(|&&b| b == b'\n').count() as u64
 }
 
 /// Diagnostics of one file, capped at [`MAX_SHOWN_PER_FILE`] shown.
@@ -221,6 +239,7 @@ impl<R: BufRead> Table<R> {
         out: &mut Vec<Diagnostic>,
     ) -> Option<Self> {
         let mut rdr = csv::ReaderBuilder::new()
+            .buffer_capacity(1 << 16)
             .has_headers(false)
             .flexible(true)
             .from_reader(LineGuard::new(reader));
@@ -363,11 +382,20 @@ impl<R: BufRead> Table<R> {
         self.columns.get(col).copied().flatten().is_some()
     }
 
+    /// The bytes of requested column `col` in the current row, ASCII whitespace trimmed
+    /// (empty if the column is absent).
+    pub fn bytes(&self, col: usize) -> &[u8] {
+        match self.columns.get(col).copied().flatten() {
+            Some(i) => self.record.get(i).unwrap_or(b"").trim_ascii(),
+            None => b"",
+        }
+    }
+
     /// The trimmed text of requested column `col` in the current row ("" if the column is absent).
     pub fn text(&self, col: usize) -> &str {
         match self.columns.get(col).copied().flatten() {
             Some(i) => {
-                let bytes = self.record.get(i).unwrap_or(b"");
+                let bytes = self.record.get(i).unwrap_or(b"").trim_ascii();
                 // Rows reaching callers were validated as UTF-8 in `next_row`.
                 std::str::from_utf8(bytes).unwrap_or("").trim()
             }
@@ -383,6 +411,9 @@ impl<R: BufRead> Table<R> {
         name: &str,
         what: &str,
     ) -> Result<Option<f64>, Reported> {
+        if let Some(x) = parse_plain_decimal(self.bytes(col)) {
+            return Ok(Some(x));
+        }
         let text = self.text(col);
         if text.is_empty() {
             return Ok(None);

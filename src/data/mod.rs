@@ -9,6 +9,7 @@ pub mod csvio;
 pub mod diag;
 pub mod load;
 pub mod meta;
+pub mod number;
 pub mod tables;
 
 pub use diag::{Diagnostic, Severity};

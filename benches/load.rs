@@ -1,0 +1,172 @@
+//! Load benchmark: a 1,000-trial session with 64 units and about 2 million spikes.
+//!
+//! Writes the session to a temp folder, then times `trialdesk::data::load` in a fresh child
+//! process (so the generator's memory does not count) and reports the median time and the
+//! peak resident memory (VmHWM from /proc/self/status) against the size of the loaded data.
+//! Run: `cargo bench --bench load`.
+
+use rand::{Rng, SeedableRng};
+use rand_chacha::ChaCha8Rng;
+use std::fs::File;
+use std::io::{BufWriter, Write};
+use std::path::Path;
+use std::time::Instant;
+
+const TRIALS: usize = 1000;
+const UNITS: usize = 64;
+const TRIAL_SPACING_S: f64 = 10.0;
+/// 64 units × 3.1 spikes/s × 10,000 s ≈ 2 million spikes.
+const RATE_HZ: f64 = 3.1;
+const TIMED_RUNS: usize = 7;
+const CHILD_ENV: &str = "TRIALDESK_LOAD_BENCH_DIR";
+
+fn main() {
+    if let Ok(dir) = std::env::var(CHILD_ENV) {
+        measure(Path::new(&dir));
+        return;
+    }
+    let tmp = tempfile::tempdir().expect("temp dir");
+    let dir = tmp.path().join("2026-03-02");
+    let spikes = write_session(&dir).expect("write session");
+    let file_bytes = csv_bytes(&dir);
+    println!(
+        "session: {TRIALS} trials, {UNITS} units, {spikes} spikes, {:.1} MB of CSV",
+        file_bytes as f64 / 1e6
+    );
+    let exe = std::env::current_exe().expect("own path");
+    let status = std::process::Command::new(exe)
+        .env(CHILD_ENV, &dir)
+        .status()
+        .expect("run child");
+    assert!(status.success(), "child failed");
+}
+
+/// In the child: one load for memory, then timed loads.
+fn measure(dir: &Path) {
+    let rss_before = status_kib("VmRSS");
+    let first = trialdesk::data::load(dir).unwrap_or_else(|f| panic!("{f}"));
+    let hwm = status_kib("VmHWM");
+    let session = &first.subject.sessions[0];
+    let spikes = session.spikes.as_ref().expect("spikes");
+    let n_spikes: usize = spikes.times.iter().map(Vec::len).sum();
+    let licks = session.licks.as_ref().map_or(0, Vec::len);
+    let data_bytes =
+        8 * (n_spikes + licks) + session.trials.len() * std::mem::size_of_val(&session.trials[0]);
+    assert_eq!(session.trials.len(), TRIALS);
+    assert_eq!(spikes.units.len(), UNITS);
+    assert!(first.warnings.is_empty(), "{:?}", first.warnings);
+    drop(first);
+
+    let mut wall = Vec::with_capacity(TIMED_RUNS);
+    let mut cpu = Vec::with_capacity(TIMED_RUNS);
+    for _ in 0..TIMED_RUNS {
+        let (t, c) = (Instant::now(), cpu_ns());
+        let loaded = trialdesk::data::load(dir).unwrap_or_else(|f| panic!("{f}"));
+        wall.push(t.elapsed().as_secs_f64());
+        cpu.push((cpu_ns() - c) as f64 * 1e-9);
+        std::hint::black_box(loaded);
+    }
+    wall.sort_by(f64::total_cmp);
+    cpu.sort_by(f64::total_cmp);
+    let mid = TIMED_RUNS / 2;
+    println!(
+        "load: median {:.1} ms wall (min {:.1}, max {:.1}), median {:.1} ms CPU, over {TIMED_RUNS} runs",
+        wall[mid] * 1e3,
+        wall[0] * 1e3,
+        wall[TIMED_RUNS - 1] * 1e3,
+        cpu[mid] * 1e3,
+    );
+    println!(
+        "throughput: {:.0} MB/s of CSV, {:.1} M spikes/s (median wall)",
+        csv_bytes(dir) as f64 / 1e6 / wall[mid],
+        n_spikes as f64 / 1e6 / wall[mid]
+    );
+    println!(
+        "memory: loaded data {:.1} MB; peak RSS {:.1} MB (before load {:.1} MB, growth {:.1} MB = {:.2}x the data)",
+        data_bytes as f64 / 1e6,
+        hwm as f64 * 1.024e-3,
+        rss_before as f64 * 1.024e-3,
+        (hwm - rss_before) as f64 * 1.024e-3,
+        (hwm - rss_before) as f64 * 1024.0 / data_bytes as f64
+    );
+    println!("spikes loaded: {n_spikes}");
+}
+
+/// CPU time of this process in ns (first field of /proc/self/schedstat): on a shared machine
+/// wall time includes waiting for a core.
+fn cpu_ns() -> u64 {
+    std::fs::read_to_string("/proc/self/schedstat")
+        .ok()
+        .and_then(|s| s.split_whitespace().next()?.parse().ok())
+        .unwrap_or(0)
+}
+
+fn csv_bytes(dir: &Path) -> u64 {
+    std::fs::read_dir(dir)
+        .map(|d| {
+            d.filter_map(Result::ok)
+                .filter_map(|e| e.metadata().ok())
+                .map(|m| m.len())
+                .sum()
+        })
+        .unwrap_or(0)
+}
+
+fn status_kib(key: &str) -> i64 {
+    let text = std::fs::read_to_string("/proc/self/status").unwrap_or_default();
+    text.lines()
+        .find_map(|l| l.strip_prefix(key)?.strip_prefix(':'))
+        .and_then(|v| v.trim().trim_end_matches("kB").trim().parse().ok())
+        .unwrap_or(0)
+}
+
+/// Write the session (spikes interleaved in time order, as a sorter exports them); returns
+/// the number of spikes.
+fn write_session(dir: &Path) -> std::io::Result<usize> {
+    std::fs::create_dir_all(dir)?;
+    let mut rng = ChaCha8Rng::seed_from_u64(7);
+    std::fs::write(
+        dir.join("session.toml"),
+        "subject = \"m-bench\"\ndate = \"2026-03-02\"\nrig = \"rig-north\"\n\
+         [[cue]]\nname = \"tone-hi\"\nreward_delay_s = 1.5\n[[cue]]\nname = \"tone-lo\"\n",
+    )?;
+    let mut trials = BufWriter::new(File::create(dir.join("trials.csv"))?);
+    let mut licks = BufWriter::new(File::create(dir.join("licks.csv"))?);
+    writeln!(trials, "trial,cue,cue_s,reward_s,reward_ul")?;
+    writeln!(licks, "time_s")?;
+    for i in 0..TRIALS {
+        let cue_s = 5.0 + i as f64 * TRIAL_SPACING_S;
+        if i % 2 == 0 {
+            writeln!(trials, "{},tone-hi,{cue_s:.4},{:.4},4", i + 1, cue_s + 1.5)?;
+            for k in 0..8 {
+                writeln!(licks, "{:.4}", cue_s + 1.55 + 0.14 * k as f64)?;
+            }
+        } else {
+            writeln!(trials, "{},tone-lo,{cue_s:.4},,", i + 1)?;
+        }
+    }
+    trials.flush()?;
+    licks.flush()?;
+
+    let end_s = TRIALS as f64 * TRIAL_SPACING_S + 5.0;
+    let mut all: Vec<(f64, u8)> = Vec::new();
+    for unit in 0..UNITS {
+        let mut t = 0.0;
+        loop {
+            let u: f64 = rng.random::<f64>().max(1e-12);
+            t += -u.ln() / RATE_HZ;
+            if t >= end_s {
+                break;
+            }
+            all.push((t, unit as u8));
+        }
+    }
+    all.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let mut spikes = BufWriter::new(File::create(dir.join("spikes.csv"))?);
+    writeln!(spikes, "unit,time_s")?;
+    for (t, u) in &all {
+        writeln!(spikes, "u{},{t:.5}", u + 1)?;
+    }
+    spikes.flush()?;
+    Ok(all.len())
+}
