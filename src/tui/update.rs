@@ -68,15 +68,13 @@ pub fn update(state: &mut State, action: Action) {
         }
         Action::NextUnit | Action::PrevUnit => step_unit(state, action == Action::NextUnit),
         Action::CycleSignal => cycle_signal(state),
-        Action::MarkExclude | Action::MarkSuspect => {
-            if state.current_trial().is_some() {
-                let kind = if action == Action::MarkExclude {
-                    MarkKind::Exclude
-                } else {
-                    MarkKind::Suspect
-                };
-                state.overlay = Overlay::Picker { kind, selected: 0 };
-            }
+        Action::MarkExclude | Action::MarkSuspect if state.current_trial().is_some() => {
+            let kind = if action == Action::MarkExclude {
+                MarkKind::Exclude
+            } else {
+                MarkKind::Suspect
+            };
+            state.overlay = Overlay::Picker { kind, selected: 0 };
         }
         Action::MarkClear => {
             if let Some(t) = state.current_trial().map(|t| t.number) {

@@ -12,7 +12,7 @@ use ratatui::layout::Rect;
 
 pub const CAUTION: &str = "Caution: marking trials after seeing a fit can bias it.";
 pub const CAUTION_2: &str =
-    "Decide marks on the data alone; `trialdesk fit --help` shows how to compare.";
+    "Decide marks on the data alone, and compare fits made with and without them.";
 
 pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
     let m = &state.model;
@@ -73,16 +73,15 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         CAUTION_2,
         Role::Tone(crate::tui::state::Tone::Warn),
     );
-    let (pred_head, predicted): (&str, Box<dyn Fn(Option<f64>, bool) -> Option<f64>>) =
-        match m.readout {
-            Some(r) => (
-                "predicted",
-                Box::new(move |d: Option<f64>, cue: bool| {
-                    d.map(|d| if cue { r.cue_baseline } else { r.reward_baseline } + r.gain * d)
-                }),
-            ),
-            None => ("sum d", Box::new(|d: Option<f64>, _| d)),
-        };
+    let readout = m.readout;
+    let pred_head = if readout.is_some() { "pred" } else { "sum d" };
+    // With a saved fit: baseline + gain·Σδ; without one the raw Σδ (no readout to apply).
+    let predicted = |d: Option<f64>, cue: bool| -> Option<f64> {
+        match readout {
+            Some(r) => d.map(|d| if cue { r.cue_baseline } else { r.reward_baseline } + r.gain * d),
+            None => d,
+        }
+    };
     y += 1;
     if m.readout.is_none() {
         line(
