@@ -175,6 +175,9 @@ fn bad_options_are_usage_errors() {
         vec!["--start-date", "2026-02-30"],
         vec!["--photometry", "maybe"],
         vec!["--days", "0"],
+        vec!["--motion", "1:0.2:1"],
+        vec!["--photometry", "on", "--bleaching", "2:5"],
+        vec!["--photometry", "on", "--motion", "1:0.2"],
     ] {
         let o = simulate(&tmp.path().join("x"), &bad);
         assert_eq!(o.status.code(), Some(2), "{bad:?}");
@@ -218,6 +221,31 @@ fn simulated_subject_loads_back_identically() {
     assert_eq!(spans, s.spans);
     let td = run(&spans, loaded.cue_names().len(), &config.td);
     assert_eq!(td.delta, s.td.delta);
+}
+
+#[test]
+fn photometry_subject_with_artifacts_checks_clean() {
+    let tmp = tempfile::tempdir().unwrap();
+    let out = tmp.path().join("m-042");
+    let mut args = SMALL.to_vec();
+    args.extend([
+        "--bleaching",
+        "0.3:900",
+        "--motion",
+        "1:0.2:1",
+        "--subject",
+        "m-042",
+    ]);
+    assert!(simulate(&out, &args).status.success());
+    let o = bin().arg("check").arg(&out).output().unwrap();
+    assert_eq!(
+        o.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&o.stdout)
+    );
+    let truth = std::fs::read_to_string(out.join("truth.toml")).unwrap();
+    assert!(truth.contains("bleaching_tau_s = 900.0") && truth.contains("motion_per_minute = 1.0"));
 }
 
 #[test]

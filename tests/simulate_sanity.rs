@@ -79,7 +79,7 @@ fn anticipatory_lick_hz(session: &Session, name: &str) -> f64 {
 /// Seeds the checks run at: the demo's (41) and two others, so no finding rests on one draw.
 const SEEDS: [u64; 3] = [41, 7, 2026];
 
-fn day<'a>(sim: &'a Simulated, i: usize) -> &'a Session {
+fn day(sim: &Simulated, i: usize) -> &Session {
     &sim.subject.sessions[i]
 }
 

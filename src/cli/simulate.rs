@@ -2,6 +2,7 @@
 
 use super::{CliError, CmdResult};
 use crate::model::Representation;
+use crate::simulate::photometry::{Bleaching, Motion};
 use crate::simulate::{self, CueSpec, PhotometryParams, SimConfig};
 use std::path::PathBuf;
 
@@ -63,6 +64,14 @@ pub struct Args {
     /// Write photometry.csv (20 Hz sensor trace with isosbestic control): on or off
     #[arg(long, default_value = "off", value_parser = ["on", "off"])]
     pub photometry: String,
+    /// Photobleaching in both photometry channels: FRACTION:TAU_S, e.g. 0.3:900
+    /// (F falls as 1 - f + f*exp(-t/tau))
+    #[arg(long, value_name = "FRACTION:TAU_S")]
+    pub bleaching: Option<String>,
+    /// Motion artifacts shared by both photometry channels: PER_MIN:MAX_DEPTH:DURATION_S,
+    /// e.g. 1:0.2:1 (dips of up to 20 % lasting 1 s, once a minute on average)
+    #[arg(long, value_name = "PER_MIN:MAX_DEPTH:DURATION_S")]
+    pub motion: Option<String>,
     #[arg(long, default_value = "m-041")]
     pub subject: String,
     #[arg(long, default_value = "box-2")]
@@ -111,8 +120,45 @@ pub fn config(args: &Args) -> Result<SimConfig, CliError> {
     })?;
     c.units.count = args.units;
     c.photometry = (args.photometry == "on").then(PhotometryParams::default);
+    if let Some(text) = &args.bleaching {
+        let v = numbers(text, 2, "--bleaching FRACTION:TAU_S")?;
+        photometry_on(&mut c, "--bleaching")?.bleaching = Some(Bleaching {
+            fraction: v[0],
+            tau_s: v[1],
+        });
+    }
+    if let Some(text) = &args.motion {
+        let v = numbers(text, 3, "--motion PER_MIN:MAX_DEPTH:DURATION_S")?;
+        photometry_on(&mut c, "--motion")?.motion = Some(Motion {
+            per_minute: v[0],
+            max_depth: v[1],
+            duration_s: v[2],
+        });
+    }
     c.validate().map_err(CliError::usage)?;
     Ok(c)
+}
+
+/// `n` colon-separated numbers.
+fn numbers(text: &str, n: usize, form: &str) -> Result<Vec<f64>, CliError> {
+    let v: Vec<f64> = text
+        .split(':')
+        .map(|p| p.trim().parse::<f64>())
+        .collect::<Result<_, _>>()
+        .map_err(|_| CliError::usage(format!("{text:?}: expected {form}")))?;
+    if v.len() != n {
+        return Err(CliError::usage(format!("{text:?}: expected {form}")));
+    }
+    Ok(v)
+}
+
+fn photometry_on<'a>(
+    c: &'a mut SimConfig,
+    opt: &str,
+) -> Result<&'a mut PhotometryParams, CliError> {
+    c.photometry
+        .as_mut()
+        .ok_or_else(|| CliError::usage(format!("{opt} needs --photometry on")))
 }
 
 pub fn run(args: Args) -> CmdResult {

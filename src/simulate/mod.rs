@@ -79,6 +79,8 @@ pub struct Simulated {
     pub units: Vec<spikes::Unit>,
     pub spans: Vec<TrialSpan>,
     pub td: TdRun,
+    /// Per session: the true ΔF/F, bleaching and motion behind `photometry.csv` (when on).
+    pub photometry_truth: Vec<Option<photometry::Injected>>,
 }
 
 /// Stream numbers of the per-component generators (see the module overview).
@@ -115,6 +117,7 @@ pub fn simulate(config: &SimConfig) -> Result<Simulated, String> {
     let n_cues = subject.cue_names().len();
     let td = run(&spans, n_cues, &config.td);
     let units = spikes::draw_units(&config.units, config.seed);
+    let mut photometry_truth = Vec::with_capacity(subject.sessions.len());
 
     for (si, session) in subject.sessions.iter_mut().enumerate() {
         let session_spans: Vec<(usize, &TrialSpan)> = spans
@@ -154,16 +157,13 @@ pub fn simulate(config: &SimConfig) -> Result<Simulated, String> {
             end_s,
             &mut rng,
         ));
-        if let Some(p) = &config.photometry {
+        photometry_truth.push(config.photometry.as_ref().map(|p| {
             let mut rng = rng_for(config.seed, stream::PHOTOMETRY + si as u64);
-            session.photometry = Some(photometry::session_trace(
-                p,
-                &traces,
-                config.td.dt,
-                end_s,
-                &mut rng,
-            ));
-        }
+            let (recording, injected) =
+                photometry::session_trace(p, &traces, config.td.dt, end_s, &mut rng);
+            session.photometry = Some(recording);
+            injected
+        }));
     }
     Ok(Simulated {
         config: config.clone(),
@@ -171,6 +171,7 @@ pub fn simulate(config: &SimConfig) -> Result<Simulated, String> {
         units,
         spans,
         td,
+        photometry_truth,
     })
 }
 
@@ -187,6 +188,10 @@ impl SimConfig {
             "--trials-per-day must be at most 100000",
         )?;
         check(s.days <= 3650, "--days must be at most 3650")?;
+        check(
+            s.days * s.trials_per_day <= 1_000_000,
+            "--days × --trials-per-day must be at most 1000000",
+        )?;
         check(
             (0.0..=1.0).contains(&s.uncued_fraction),
             "--uncued-fraction must be in [0, 1]",
@@ -223,6 +228,7 @@ impl SimConfig {
             s.iti_min_s >= 0.0 && s.iti_mean_s >= s.iti_min_s && s.iti_mean_s.is_finite(),
             "ITI mean must be at least the ITI minimum",
         )?;
+        check(s.iti_mean_s <= 3600.0, "ITI mean must be at most 3600 s")?;
         check(
             t.alpha.is_finite() && t.alpha > 0.0 && t.alpha <= 1.0,
             "--alpha must be in (0, 1]",
@@ -240,12 +246,19 @@ impl SimConfig {
             "--dt must be in [0.001, 1] seconds",
         )?;
         check(self.units.count <= 1000, "--units must be at most 1000")?;
-        schedule::parse_date(&s.start_date).ok_or_else(|| {
+        let first = schedule::parse_date(&s.start_date).ok_or_else(|| {
             format!(
                 "--start-date {:?} is not an ISO date (YYYY-MM-DD)",
                 s.start_date
             )
         })?;
+        check(
+            first >= 0 && first + s.days as i64 <= schedule::parse_date("9999-12-31").unwrap_or(0),
+            "sessions must fall between 1970-01-01 and 9999-12-31",
+        )?;
+        if let Some(p) = &self.photometry {
+            p.validate()?;
+        }
         check(
             !s.subject.is_empty() && !s.subject.contains(['"', '\\', '\n', '\r', '/']),
             "--subject must be non-empty and free of quotes, slashes and line breaks",

@@ -49,6 +49,40 @@ impl Default for PhotometryParams {
     }
 }
 
+impl PhotometryParams {
+    pub fn validate(&self) -> Result<(), String> {
+        let ok = |x: f64| x.is_finite() && x > 0.0;
+        if !(ok(self.rate_hz) && self.rate_hz <= 10_000.0) {
+            return Err("photometry rate must be in (0, 10000] Hz".into());
+        }
+        if !(ok(self.tau_rise_s) && ok(self.tau_decay_s) && self.tau_rise_s < self.tau_decay_s) {
+            return Err("sensor kernel needs 0 < rise < decay time constant".into());
+        }
+        if !(ok(self.f0_signal) && ok(self.f0_control)) || !self.noise_frac.is_finite() {
+            return Err("photometry baselines must be positive and noise finite".into());
+        }
+        if let Some(b) = &self.bleaching {
+            if !((0.0..1.0).contains(&b.fraction) && ok(b.tau_s)) {
+                return Err("--bleaching: FRACTION in [0, 1), TAU_S > 0".into());
+            }
+        }
+        if let Some(m) = &self.motion {
+            if !(m.per_minute.is_finite()
+                && (0.0..=60.0).contains(&m.per_minute)
+                && (0.0..1.0).contains(&m.max_depth)
+                && ok(m.duration_s)
+                && m.duration_s <= 60.0)
+            {
+                return Err(
+                    "--motion: PER_MIN in [0, 60], MAX_DEPTH in [0, 1), DURATION_S in (0, 60]"
+                        .into(),
+                );
+            }
+        }
+        Ok(())
+    }
+}
+
 /// Photobleaching: both channels decay as 1 − f + f·exp(−t/τ).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Bleaching {
@@ -74,14 +108,26 @@ pub fn kernel(tau_rise: f64, tau_decay: f64, rate_hz: f64) -> Vec<f64> {
     (0..n).map(|i| h(i as f64 / rate_hz) / peak).collect()
 }
 
-/// One session's trace from t = 0 to `end_s`.
+/// What went into one session's trace, sample by sample: the ground truth an artifact-removal
+/// check compares against.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Injected {
+    /// The true ΔF/F (sensor response to δ).
+    pub dff: Vec<f64>,
+    /// Bleaching factor B(t) (1 when off).
+    pub bleaching: Vec<f64>,
+    /// Motion factor M(t) (1 when off).
+    pub motion: Vec<f64>,
+}
+
+/// One session's trace from t = 0 to `end_s`, and what was injected into it.
 pub fn session_trace(
     p: &PhotometryParams,
     spans: &[SpanTrace<'_>],
     dt: f64,
     end_s: f64,
     rng: &mut impl Rng,
-) -> Photometry {
+) -> (Photometry, Injected) {
     let n = (end_s * p.rate_hz).floor() as usize + 1;
     let time_s: Vec<f64> = (0..n).map(|i| round_time(i as f64 / p.rate_hz)).collect();
 
@@ -104,12 +150,13 @@ pub fn session_trace(
         }
     }
 
-    let mut shared = vec![1.0; n];
+    let mut bleaching = vec![1.0; n];
     if let Some(b) = &p.bleaching {
-        for (s, t) in shared.iter_mut().zip(&time_s) {
+        for (s, t) in bleaching.iter_mut().zip(&time_s) {
             *s *= 1.0 - b.fraction + b.fraction * (-t / b.tau_s).exp();
         }
     }
+    let mut motion = vec![1.0; n];
     if let Some(m) = &p.motion {
         let mut onsets = Vec::new();
         poisson(m.per_minute / 60.0, 0.0, end_s, rng, &mut onsets);
@@ -117,7 +164,7 @@ pub fn session_trace(
             let depth = m.max_depth * rng.random::<f64>();
             let first = (t_on * p.rate_hz).ceil() as usize;
             let last = (((t_on + m.duration_s) * p.rate_hz).floor() as usize).min(n - 1);
-            for (j, s) in shared.iter_mut().enumerate().take(last + 1).skip(first) {
+            for (j, s) in motion.iter_mut().enumerate().take(last + 1).skip(first) {
                 let phase = (j as f64 / p.rate_hz - t_on) / m.duration_s;
                 *s *= 1.0 - depth * 0.5 * (1.0 - (2.0 * std::f64::consts::PI * phase).cos());
             }
@@ -129,16 +176,25 @@ pub fn session_trace(
     let mut signal = Vec::with_capacity(n);
     let mut control = Vec::with_capacity(n);
     for j in 0..n {
-        let s = p.f0_signal * (shared[j] * (1.0 + dff[j]) + noise.sample(rng));
-        let c = p.f0_control * (shared[j] + noise.sample(rng));
+        let shared = bleaching[j] * motion[j];
+        let s = p.f0_signal * (shared * (1.0 + dff[j]) + noise.sample(rng));
+        let c = p.f0_control * (shared + noise.sample(rng));
         signal.push(round5(s));
         control.push(round5(c));
     }
-    Photometry {
+    let recording = Photometry {
         time_s,
         signal,
         control: Some(control),
-    }
+    };
+    (
+        recording,
+        Injected {
+            dff,
+            bleaching,
+            motion,
+        },
+    )
 }
 
 #[cfg(test)]
@@ -173,7 +229,8 @@ mod tests {
             reward_s: None,
         }];
         let mut rng = ChaCha8Rng::seed_from_u64(1);
-        let tr = session_trace(&p, &spans, 0.05, 20.0, &mut rng);
+        let (tr, injected) = session_trace(&p, &spans, 0.05, 20.0, &mut rng);
+        assert!(injected.motion.iter().all(|&m| m == 1.0));
         let peak = tr.signal.iter().cloned().fold(0.0, f64::max) / p.f0_signal - 1.0;
         // Sampled at 20 Hz, the 0.215 s peak is hit to within 1 % of its height.
         assert!((peak - 0.06).abs() < 0.001, "peak {peak}");
