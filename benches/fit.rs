@@ -1,3 +1,106 @@
-//! Benchmark of `trialdesk fit` on a large in-memory subject (filled in below).
+//! Fit benchmark: a 20-day × 300-trial subject built in memory (csc, dt = 0.05 s, λ = 0),
+//! full fit of α and γ (grid + multi-start Nelder–Mead). Targets (issue 3): < 2 s on 2 cores,
+//! peak memory < 200 MB. Also times one model pass, a 50-replicate bootstrap and the
+//! four-model comparison, which `trialdesk fit` runs by default.
+//!
+//! Run: `cargo bench --bench fit` (prints figures; no statistics harness).
 
-fn main() {}
+use std::time::Instant;
+use trialdesk::fit::synthetic::{fit_data, SyntheticSpec};
+use trialdesk::fit::{bootstrap, compare, optimise, FitOptions, ModelSpec, NoProgress, Problem};
+use trialdesk::model::Representation;
+
+fn vm_hwm_mb() -> Option<f64> {
+    let s = std::fs::read_to_string("/proc/self/status").ok()?;
+    let line = s.lines().find(|l| l.starts_with("VmHWM:"))?;
+    let kb: f64 = line.split_whitespace().nth(1)?.parse().ok()?;
+    Some(kb / 1024.0)
+}
+
+fn main() {
+    let spec = SyntheticSpec {
+        sessions: 20,
+        trials_per_session: 300,
+        alpha: 0.05,
+        gamma: 0.98,
+        ..Default::default()
+    };
+    let t = Instant::now();
+    let (_, data) = fit_data(&spec);
+    let bins: usize = data.spans.iter().map(|s| s.n_bins).sum();
+    println!(
+        "subject: {} trials, {} bins, {} observations (built in {:.0} ms); threads: {}",
+        data.spans.len(),
+        bins,
+        data.points.len(),
+        t.elapsed().as_secs_f64() * 1e3,
+        rayon::current_num_threads()
+    );
+    let opts = FitOptions::default();
+    let idx = data.included();
+    let problem = Problem::new(&data, ModelSpec::Td(Representation::Csc), false, 0.0);
+
+    let params = trialdesk::fit::LearnParams {
+        alpha: 0.05,
+        gamma: 0.98,
+        lambda: 0.0,
+    };
+    let reps = 20;
+    let t = Instant::now();
+    for _ in 0..reps {
+        std::hint::black_box(problem.cost(&problem.to_z(&params), &idx));
+    }
+    println!(
+        "one objective evaluation (model pass + window sums + least squares): {:.2} ms",
+        t.elapsed().as_secs_f64() * 1e3 / reps as f64
+    );
+
+    let t = Instant::now();
+    let best = optimise::fit_multistart(&problem, &idx, &opts.search, &NoProgress).unwrap();
+    let fit_s = t.elapsed().as_secs_f64();
+    println!(
+        "full fit of alpha and gamma: {:.3} s ({} evaluations) -> alpha {:.4} gamma {:.5} (true {} {}) [target < 2 s]",
+        fit_s, best.evaluations, best.params.alpha, best.params.gamma, spec.alpha, spec.gamma
+    );
+    println!(
+        "peak memory after fit (VmHWM): {:.1} MB [target < 200 MB]",
+        vm_hwm_mb().unwrap_or(f64::NAN)
+    );
+
+    let t = Instant::now();
+    let prof = bootstrap::gamma_profile(&problem, &idx, &best, &opts.search, &NoProgress);
+    println!(
+        "gamma profile (4 points): {:.3} s, flat = {}",
+        t.elapsed().as_secs_f64(),
+        prof.flat
+    );
+
+    let t = Instant::now();
+    let iv = bootstrap::bootstrap(
+        &problem,
+        &idx,
+        &best,
+        opts.bootstrap,
+        opts.resample,
+        opts.seed,
+        &opts.search,
+        &NoProgress,
+    );
+    println!(
+        "bootstrap, {} replicates: {:.3} s",
+        iv.n_ok,
+        t.elapsed().as_secs_f64()
+    );
+
+    let t = Instant::now();
+    let rows = compare::compare(&data, &idx, &opts, (problem.model, &best), &NoProgress);
+    println!(
+        "model comparison ({} models, held-out refits): {:.3} s",
+        rows.len(),
+        t.elapsed().as_secs_f64()
+    );
+    println!(
+        "peak memory overall (VmHWM): {:.1} MB",
+        vm_hwm_mb().unwrap_or(f64::NAN)
+    );
+}

@@ -1,14 +1,418 @@
-//! `trialdesk fit`.
+//! `trialdesk fit`: fit the TD model to a subject's whole training history, honouring marks.
+//!
+//! Thin shell: load → observations (`obs`) → marks → `fit::dataset::build` → `fit::run_fit`
+//! → report on stdout, tables in `--out`, parameters saved in the subject folder. The progress
+//! bar goes to stderr, only on a terminal, and only once the fit has taken more than a second.
 
 use super::{CliError, CmdResult};
-use std::path::PathBuf;
+use crate::data;
+use crate::fit::{self, dataset, report, saved, FitOptions, Progress, ResampleUnit};
+use crate::marks::{self, MarkState};
+use crate::model::{self, Representation};
+use crate::obs::{self, ObsOptions, Signal};
+use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
+use std::io::{IsTerminal, Write};
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::time::{Duration, Instant};
 
 #[derive(clap::Args, Debug)]
 pub struct Args {
-    /// A subject folder or one session folder
+    /// A subject folder (all its sessions, in date order) or one session folder
     pub path: PathBuf,
+    /// Representation whose parameters are reported and saved: csc, presence or microstimulus
+    /// (the comparison table fits all of them and Rescorla–Wagner)
+    #[arg(long, default_value = "csc")]
+    pub representation: String,
+    /// Model bin width, seconds
+    #[arg(long, default_value_t = model::DEFAULT_DT)]
+    pub dt: f64,
+    /// Eligibility-trace decay λ per bin, held fixed unless --fit-lambda
+    #[arg(long, default_value_t = 0.0)]
+    pub lambda: f64,
+    /// Fit λ as well (bounded to (0, 1))
+    #[arg(long)]
+    pub fit_lambda: bool,
+    /// Activity to fit: spikes or photometry [default: spikes when the first session has
+    /// spikes.csv, otherwise photometry]
+    #[arg(long)]
+    pub signal: Option<String>,
+    /// Fit one sorted unit's rate instead of the population mean rate
+    #[arg(long)]
+    pub unit: Option<String>,
+    /// Cue response window after cue onset, "start,end" seconds
+    /// [default: 0.05,0.35 for spikes; 0,1 for photometry]
+    #[arg(long, value_name = "START,END", allow_hyphen_values = true)]
+    pub cue_window: Option<String>,
+    /// Reward response window after the reward (or the expected reward time on omissions),
+    /// "start,end" seconds [default: 0.05,0.35 for spikes; 0,1 for photometry]
+    #[arg(long, value_name = "START,END", allow_hyphen_values = true)]
+    pub reward_window: Option<String>,
+    /// Pre-cue baseline window relative to cue onset, "start,end" seconds [default: -1,0]
+    #[arg(long, value_name = "START,END", allow_hyphen_values = true)]
+    pub baseline_window: Option<String>,
+    /// Response latency: windows are mapped onto model bins shifted back by it, seconds
+    /// [default: 0.05 for spikes; 0 for photometry]
+    #[arg(long)]
+    pub latency: Option<f64>,
+    /// Bootstrap replicates for the confidence intervals (0: none)
+    #[arg(long, default_value_t = 50)]
+    pub bootstrap: usize,
+    /// What the bootstrap resamples: trials or sessions
+    #[arg(long, default_value = "trials")]
+    pub bootstrap_by: String,
+    /// Random seed of the bootstrap
+    #[arg(long, default_value_t = 7)]
+    pub seed: u64,
+    /// Trailing sessions held out for the comparison's held-out error [default: the last
+    /// fifth, at least one]
+    #[arg(long)]
+    pub holdout_sessions: Option<usize>,
+    /// Skip the model comparison table (faster)
+    #[arg(long)]
+    pub no_compare: bool,
+    /// Fit every trial's responses, excluded ones too (to compare with the marked fit)
+    #[arg(long)]
+    pub ignore_marks: bool,
+    /// Write params.csv and trials.csv into this folder (created if needed)
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+    /// Do not write the fitted parameters to <subject folder>/trialdesk-fit.toml
+    #[arg(long)]
+    pub no_save: bool,
 }
 
-pub fn run(_args: Args) -> CmdResult {
-    Err(CliError::failed("not built yet"))
+fn parse_window(name: &str, text: &str) -> Result<(f64, f64), CliError> {
+    let bad = || {
+        CliError::usage(format!(
+            "--{name} '{text}' is not a window (expected START,END in seconds, start < end, e.g. 0.05,0.35)"
+        ))
+    };
+    let (a, b) = text.split_once(',').ok_or_else(bad)?;
+    let a: f64 = a.trim().parse().map_err(|_| bad())?;
+    let b: f64 = b.trim().parse().map_err(|_| bad())?;
+    if !(a.is_finite() && b.is_finite() && a < b) {
+        return Err(bad());
+    }
+    Ok((a, b))
+}
+
+fn fit_options(args: &Args) -> Result<FitOptions, CliError> {
+    let representation = Representation::parse(&args.representation).ok_or_else(|| {
+        CliError::usage(format!(
+            "--representation '{}' is not known (expected csc, presence or microstimulus)",
+            args.representation
+        ))
+    })?;
+    if !(args.dt > 0.0 && args.dt.is_finite()) {
+        return Err(CliError::usage(format!(
+            "--dt {} is out of range (expected a bin width in seconds > 0)",
+            args.dt
+        )));
+    }
+    if !(0.0..=1.0).contains(&args.lambda) {
+        return Err(CliError::usage(format!(
+            "--lambda {} is out of range (expected 0 <= lambda <= 1)",
+            args.lambda
+        )));
+    }
+    let resample = ResampleUnit::parse(&args.bootstrap_by).ok_or_else(|| {
+        CliError::usage(format!(
+            "--bootstrap-by '{}' is not known (expected trials or sessions)",
+            args.bootstrap_by
+        ))
+    })?;
+    Ok(FitOptions {
+        representation,
+        fit_lambda: args.fit_lambda,
+        lambda: args.lambda,
+        bootstrap: args.bootstrap,
+        resample,
+        seed: args.seed,
+        holdout_sessions: args.holdout_sessions,
+        compare: !args.no_compare,
+        ..FitOptions::default()
+    })
+}
+
+fn obs_options(args: &Args, subject: &data::Subject) -> Result<ObsOptions, CliError> {
+    let photometry = match args.signal.as_deref() {
+        Some("spikes") => false,
+        Some("photometry") => true,
+        Some(other) => {
+            return Err(CliError::usage(format!(
+                "--signal '{other}' is not known (expected spikes or photometry)"
+            )))
+        }
+        None => subject
+            .sessions
+            .first()
+            .is_some_and(|s| s.spikes.is_none() && s.photometry.is_some()),
+    };
+    if photometry && args.unit.is_some() {
+        return Err(CliError::usage(
+            "--unit applies to spikes, not to photometry",
+        ));
+    }
+    let mut o = if photometry {
+        ObsOptions::photometry()
+    } else {
+        ObsOptions {
+            signal: Signal::Spikes {
+                unit: args.unit.clone(),
+            },
+            ..ObsOptions::default()
+        }
+    };
+    if let Some(w) = &args.cue_window {
+        o.cue_window = parse_window("cue-window", w)?;
+    }
+    if let Some(w) = &args.reward_window {
+        o.reward_window = parse_window("reward-window", w)?;
+    }
+    if let Some(w) = &args.baseline_window {
+        o.baseline = parse_window("baseline-window", w)?;
+    }
+    if let Some(l) = args.latency {
+        if !l.is_finite() {
+            return Err(CliError::usage(format!(
+                "--latency {l} is not a number of seconds"
+            )));
+        }
+        o.latency = l;
+    }
+    Ok(o)
+}
+
+/// indicatif bar that stays hidden until the job has run for a second, and only on a terminal.
+struct Bar {
+    bar: ProgressBar,
+    start: Instant,
+    terminal: bool,
+    shown: AtomicBool,
+}
+
+impl Bar {
+    fn new() -> Self {
+        let bar = ProgressBar::with_draw_target(None, ProgressDrawTarget::hidden());
+        if let Ok(style) =
+            ProgressStyle::with_template("{msg:>18} [{bar:30}] {pos}/{len} {elapsed}")
+        {
+            bar.set_style(style.progress_chars("=> "));
+        }
+        Bar {
+            bar,
+            start: Instant::now(),
+            terminal: std::io::stderr().is_terminal(),
+            shown: AtomicBool::new(false),
+        }
+    }
+    fn finish(&self) {
+        self.bar.finish_and_clear();
+    }
+}
+
+impl Progress for Bar {
+    fn phase(&self, name: &str, total: u64) {
+        self.bar.set_message(name.to_string());
+        if total > 0 {
+            self.bar.set_length(total);
+        } else {
+            self.bar.unset_length();
+        }
+        self.bar.set_position(0);
+    }
+    fn tick(&self) {
+        self.bar.inc(1);
+        if self.terminal
+            && self.start.elapsed() > Duration::from_secs(1)
+            && !self.shown.swap(true, Ordering::Relaxed)
+        {
+            self.bar.set_draw_target(ProgressDrawTarget::stderr());
+        }
+    }
+}
+
+/// Standing marks of every session; unreadable journals stop the fit unless marks are ignored.
+fn read_marks(subject: &data::Subject, ignore_marks: bool) -> Result<Vec<MarkState>, CliError> {
+    let mut out = Vec::with_capacity(subject.sessions.len());
+    for s in &subject.sessions {
+        match marks::read_journal(&s.dir) {
+            Ok(j) => {
+                if let Some((line, _)) = &j.torn_tail {
+                    eprintln!(
+                        "{}:{line}: warning: incomplete last line ignored",
+                        j.path.display()
+                    );
+                }
+                out.push(j.state());
+            }
+            Err(e) if ignore_marks => {
+                eprintln!("warning: {e} (marks are ignored for this fit)");
+                out.push(MarkState::default());
+            }
+            Err(e) => {
+                return Err(CliError::failed(format!(
+                    "{e}\nthe marks could not be read, so exclusions cannot be honoured; fix the \
+                     file or rerun with --ignore-marks"
+                )))
+            }
+        }
+    }
+    Ok(out)
+}
+
+fn describe_obs(o: &ObsOptions) -> String {
+    format!(
+        "{}; cue window [{}, {}] s, reward window [{}, {}] s after the event (the expected \
+         time on omissions), baseline [{}, {}] s from cue onset; windows mapped onto model bins \
+         {} s earlier (latency)",
+        o.signal.label(),
+        o.cue_window.0,
+        o.cue_window.1,
+        o.reward_window.0,
+        o.reward_window.1,
+        o.baseline.0,
+        o.baseline.1,
+        o.latency
+    )
+}
+
+fn write_out(
+    dir: &Path,
+    out: &fit::FitOutcome,
+    data: &fit::FitData,
+    lambda_fitted: bool,
+) -> Result<(), CliError> {
+    std::fs::create_dir_all(dir)
+        .map_err(|e| CliError::failed(format!("{}: cannot create folder: {e}", dir.display())))?;
+    let params_path = dir.join("params.csv");
+    let mut buf = Vec::new();
+    report::write_params_csv(&mut buf, &report::param_rows(out, data, lambda_fitted))?;
+    std::fs::write(&params_path, buf)
+        .map_err(|e| CliError::failed(format!("{}: cannot write: {e}", params_path.display())))?;
+    let trials_path = dir.join("trials.csv");
+    let mut buf = Vec::new();
+    report::write_trials_csv(&mut buf, data, &out.predicted)
+        .map_err(|e| CliError::failed(format!("{}: cannot write: {e}", trials_path.display())))?;
+    std::fs::write(&trials_path, buf)
+        .map_err(|e| CliError::failed(format!("{}: cannot write: {e}", trials_path.display())))?;
+    Ok(())
+}
+
+/// This invocation as the user would retype it (program name without its folder).
+fn command_line() -> String {
+    let mut words: Vec<String> = std::env::args().skip(1).collect();
+    words.insert(0, "trialdesk".into());
+    words.join(" ")
+}
+
+pub fn run(args: Args) -> CmdResult {
+    let opts = fit_options(&args)?;
+    let loaded = match data::load(&args.path) {
+        Ok(l) => l,
+        Err(failure) => {
+            for d in &failure.diagnostics {
+                eprintln!("{d}");
+            }
+            return Err(CliError::failed(format!(
+                "{}: data did not load ({} problem(s) above); nothing fitted",
+                args.path.display(),
+                failure.diagnostics.iter().filter(|d| d.is_error()).count()
+            )));
+        }
+    };
+    for w in &loaded.warnings {
+        eprintln!("{w}");
+    }
+    let subject = &loaded.subject;
+    let obs_opts = obs_options(&args, subject)?;
+    let observations =
+        obs::observe(subject, &obs_opts).map_err(|e| CliError::failed(e.to_string()))?;
+    let marks = read_marks(subject, args.ignore_marks)?;
+    let data = dataset::build(
+        subject,
+        &observations,
+        &obs_opts,
+        args.dt,
+        &marks,
+        args.ignore_marks,
+    );
+
+    let bar = Bar::new();
+    if bar.terminal {
+        eprintln!(
+            "fitting {} response windows over {} trials; on a rig computer that is acquiring, \
+             stop and rerun at low priority: nice -n 19 {}",
+            data.points.len(),
+            data.spans.len(),
+            command_line()
+        );
+    }
+    let result = fit::run_fit(&data, &opts, &bar);
+    bar.finish();
+    let outcome = result.map_err(|e| CliError::failed(format!("{}: {e}", args.path.display())))?;
+
+    let ctx = report::ReportContext {
+        subject: subject
+            .sessions
+            .first()
+            .map(|s| s.meta.subject.clone())
+            .unwrap_or_else(|| subject.root.display().to_string()),
+        observations: describe_obs(&obs_opts),
+        command: command_line(),
+    };
+    let mut text = report::text_report(&outcome, &data, &ctx, opts.fit_lambda);
+
+    if let Some(dir) = &args.out {
+        write_out(dir, &outcome, &data, opts.fit_lambda)?;
+        text.push_str(&format!(
+            "Tables written: {} and {}\n",
+            dir.join("params.csv").display(),
+            dir.join("trials.csv").display()
+        ));
+    }
+    if !args.no_save {
+        let lin = &outcome.best.linear;
+        let p = outcome.best.params;
+        let savedfit = saved::SavedFit {
+            alpha: p.alpha,
+            gamma: p.gamma,
+            lambda: p.lambda,
+            dt: data.dt,
+            representation: outcome.model.name().to_string(),
+            gain: lin.gain,
+            baselines: saved::Baselines {
+                cue: lin.baselines[0],
+                reward: lin.baselines[1],
+            },
+            fitted_at: saved::now_rfc3339(),
+            n_excluded: if args.ignore_marks {
+                0
+            } else {
+                data.exclusions.n_trials
+            },
+            ignore_marks: args.ignore_marks,
+            lambda_fitted: opts.fit_lambda,
+            log_likelihood: Some(outcome.best.log_likelihood),
+            n_observations: Some(outcome.n_included),
+            unit: args.unit.clone(),
+            latency_s: Some(obs_opts.latency),
+            cue_window_s: Some([obs_opts.cue_window.0, obs_opts.cue_window.1]),
+            reward_window_s: Some([obs_opts.reward_window.0, obs_opts.reward_window.1]),
+            baseline_window_s: Some([obs_opts.baseline.0, obs_opts.baseline.1]),
+        };
+        let path = saved::save(&subject.root, &savedfit)
+            .map_err(|e| CliError::failed(format!("fit done, but not saved: {e}")))?;
+        text.push_str(&format!("Fitted parameters saved to {}\n", path.display()));
+    }
+
+    let mut stdout = std::io::stdout().lock();
+    match stdout
+        .write_all(text.as_bytes())
+        .and_then(|_| stdout.flush())
+    {
+        Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => Err(e.into()),
+        _ => Ok(0),
+    }
 }

@@ -119,6 +119,9 @@ pub struct FitOutcome {
     pub intervals: Option<Intervals>,
     pub gamma_profile: Option<GammaProfile>,
     pub comparison: Vec<ModelRow>,
+    /// The same model fitted to every window, excluded ones too (only when some windows were
+    /// excluded): the with/without comparison methods.md §8 asks for.
+    pub without_exclusions: Option<FitResult>,
     /// Trailing sessions held out for the comparison's held-out error.
     pub holdout_sessions: usize,
     /// Plain-language warnings for the report (poorly constrained γ, negative gain, ...).
@@ -239,6 +242,15 @@ pub fn run_fit(
         None
     };
 
+    let without_exclusions = if included.len() < data.points.len() {
+        progress.phase("fit without exclusions", opts.search.max_iters);
+        let all: Vec<usize> = (0..data.points.len()).collect();
+        // Warm start from the marked fit; the estimate is the all-windows optimum.
+        optimise::refine(&problem, &all, &best.z, &opts.search, opts.search.max_iters)
+    } else {
+        None
+    };
+
     let comparison = if opts.compare {
         compare::compare(data, &included, opts, (model, &best), progress)
     } else {
@@ -255,6 +267,7 @@ pub fn run_fit(
         intervals,
         gamma_profile,
         comparison,
+        without_exclusions,
         holdout_sessions: compare::holdout_count(data.n_sessions(), opts.holdout_sessions),
         warnings,
     })

@@ -21,6 +21,8 @@ pub struct SearchOptions {
     pub tolerance: f64,
     /// Initial simplex edge on the logit scale.
     pub step: f64,
+    /// Initial simplex edge of a warm start (its optimum is near the start).
+    pub refine_step: f64,
 }
 
 impl Default for SearchOptions {
@@ -29,8 +31,9 @@ impl Default for SearchOptions {
             n_starts: 3,
             max_iters: 120,
             max_iters_refine: 60,
-            tolerance: 1e-5,
+            tolerance: 1e-4,
             step: 0.6,
+            refine_step: 0.25,
         }
     }
 }
@@ -164,7 +167,7 @@ pub fn refine(
     max_iters: u64,
 ) -> Option<FitResult> {
     let f = |z: &[f64]| problem.cost(z, idx);
-    let (z, _, evals) = nelder_mead(&f, start, opts.step, max_iters, opts.tolerance)?;
+    let (z, _, evals) = nelder_mead(&f, start, opts.refine_step, max_iters, opts.tolerance)?;
     evaluate(problem, &z, idx, evals)
 }
 

@@ -240,7 +240,7 @@ pub fn text_report(
         let _ = writeln!(s);
     }
 
-    write_exclusions(&mut s, data);
+    write_exclusions(&mut s, out, data);
     let _ = writeln!(s);
 
     for w in &out.warnings {
@@ -317,7 +317,7 @@ fn write_comparison(s: &mut String, out: &FitOutcome, data: &FitData) {
     );
 }
 
-fn write_exclusions(s: &mut String, data: &FitData) {
+fn write_exclusions(s: &mut String, out: &FitOutcome, data: &FitData) {
     let ex = &data.exclusions;
     if ex.ignore_marks {
         let _ = writeln!(
@@ -336,6 +336,20 @@ fn write_exclusions(s: &mut String, data: &FitData) {
     }
     for (reason, n) in &ex.by_reason {
         let _ = writeln!(s, "  {reason:<32} {n:>5}");
+    }
+    if let Some(f) = &out.without_exclusions {
+        let _ = writeln!(
+            s,
+            "Same model fitted to all {} windows, excluded ones too: alpha = {}, gamma = {}, gain = {} \
+             (marked fit: alpha = {}, gamma = {}, gain = {}).",
+            data.points.len(),
+            num(f.params.alpha),
+            num(f.params.gamma),
+            num(f.linear.gain),
+            num(out.best.params.alpha),
+            num(out.best.params.gamma),
+            num(out.best.linear.gain)
+        );
     }
     if ex.n_trials > 0 {
         let _ = writeln!(
