@@ -25,6 +25,7 @@ pub struct Args {
     /// Number of daily sessions
     #[arg(long, default_value_t = 8)]
     pub days: usize,
+    /// Trials per session, uncued rewards included
     #[arg(long, default_value_t = 120)]
     pub trials_per_day: usize,
     /// A cue type NAME:P:DELAY (reward probability, cue->reward seconds); repeatable.
@@ -72,8 +73,10 @@ pub struct Args {
     /// e.g. 1:0.2:1 (dips of up to 20 % lasting 1 s, once a minute on average)
     #[arg(long, value_name = "PER_MIN:MAX_DEPTH:DURATION_S")]
     pub motion: Option<String>,
+    /// Subject id written to every session.toml
     #[arg(long, default_value = "m-041")]
     pub subject: String,
+    /// Rig name written to every session.toml
     #[arg(long, default_value = "box-2")]
     pub rig: String,
     /// Date of the first session (YYYY-MM-DD); one session a day after it

@@ -253,7 +253,8 @@ impl SimConfig {
             )
         })?;
         check(
-            first >= 0 && first + s.days as i64 <= schedule::parse_date("9999-12-31").unwrap_or(0),
+            first >= 0
+                && first + s.days as i64 - 1 <= schedule::parse_date("9999-12-31").unwrap_or(0),
             "sessions must fall between 1970-01-01 and 9999-12-31",
         )?;
         if let Some(p) = &self.photometry {

@@ -243,3 +243,35 @@ impl Truth {
         )
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::simulate::photometry::{Bleaching, Motion};
+    use crate::simulate::{simulate, PhotometryParams};
+
+    #[test]
+    fn truth_reads_back_to_the_same_parameters() {
+        let mut c = SimConfig::default();
+        c.schedule.days = 1;
+        c.schedule.trials_per_day = 5;
+        c.td.representation = Representation::parse("microstimulus").unwrap();
+        c.photometry = Some(PhotometryParams {
+            bleaching: Some(Bleaching {
+                fraction: 0.3,
+                tau_s: 900.0,
+            }),
+            motion: Some(Motion {
+                per_minute: 1.0,
+                max_depth: 0.2,
+                duration_s: 1.0,
+            }),
+            ..Default::default()
+        });
+        let truth = Truth::of(&simulate(&c).unwrap());
+        let back: Truth = toml::from_str(&truth.to_toml()).unwrap();
+        assert_eq!(back, truth);
+        assert_eq!(back.model.microstimulus_m, Some(20));
+        assert_eq!(back.units.unit.len(), 6);
+    }
+}
