@@ -184,7 +184,10 @@ fn walk(
     subdirs.sort();
     for sub in subdirs {
         if sub.join(SESSION_FILE).exists() {
-            found.push(sub);
+            // A session reached twice through a symlink is one session.
+            if sub.canonicalize().is_ok_and(|c| seen.insert(c)) {
+                found.push(sub);
+            }
         } else if sub.join(TRIALS_FILE).exists() {
             out.push(missing_meta(&sub));
         } else {
@@ -427,5 +430,28 @@ mod tests {
             )),
             "{lines:?}"
         );
+    }
+
+    #[test]
+    fn nested_folders_are_searched_and_symlink_loops_end() {
+        let tmp = tempfile::tempdir().unwrap();
+        let trials = "trial,cue,cue_s,reward_s,reward_ul\n1,tone-hi,1,2.5,3\n2,tone-lo,9,,\n";
+        write_session(
+            &tmp.path().join("week1/d1"),
+            &[("session.toml", META), ("trials.csv", trials)],
+        );
+        write_session(
+            &tmp.path().join(".trash/d0"),
+            &[("session.toml", META), ("trials.csv", "junk")],
+        );
+        std::os::unix::fs::symlink(tmp.path(), tmp.path().join("week1/loop")).unwrap();
+        std::os::unix::fs::symlink(
+            tmp.path().join("week1/d1"),
+            tmp.path().join("week1/d1-again"),
+        )
+        .unwrap();
+        let loaded = load(tmp.path()).unwrap_or_else(|f| panic!("{f}"));
+        assert_eq!(loaded.subject.sessions.len(), 1);
+        assert_eq!(loaded.subject.sessions[0].name, "d1");
     }
 }
