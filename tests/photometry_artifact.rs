@@ -53,7 +53,7 @@ fn simulate() -> Simulated {
         let amp = rng.random_range(0.05..0.15);
         for (d, &t) in dff.iter_mut().zip(&time) {
             let s = t - onset;
-            if s >= 0.0 && s < 6.0 {
+            if (0.0..6.0).contains(&s) {
                 *d += amp * 1.6 * ((-s / 0.6).exp() - (-s / 0.1).exp());
             }
         }

@@ -128,7 +128,9 @@ fn linear_part(p: &Points, taus: &[f64]) -> Option<(Vec<f64>, f64)> {
                 .for_each(|(v, q)| *v -= rij * q);
         }
         let rjj = dot(&cols[j], &cols[j]).sqrt();
-        if !(rjj > 1e-9 * norm0) {
+        // NaN counts as dependent too.
+        let independent = rjj > 1e-9 * norm0;
+        if !independent {
             return None;
         }
         r[j][j] = rjj;
@@ -284,7 +286,7 @@ pub fn fit_bleaching(
 ) -> Result<BleachFit, PhotometryError> {
     let n = signal.len();
     let span = time[n - 1] - time[0];
-    if !(span > 0.0) || n < 4 {
+    if span <= 0.0 || n < 4 {
         return Err(PhotometryError::BleachFitFailed(format!(
             "need at least 4 samples over a positive time span, got {n} samples over {span} s"
         )));

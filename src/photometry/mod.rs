@@ -291,7 +291,8 @@ fn dff_pass(
         Fhat::Line { a, b, control } => {
             for (i, ((o, &y), &x)) in out.iter_mut().zip(signal).zip(control).enumerate() {
                 let f = a + b * x;
-                if !(f > floor) {
+                let usable = f > floor; // false for NaN too
+                if !usable {
                     bad = Some((i, f));
                     break;
                 }
@@ -303,7 +304,8 @@ fn dff_pass(
         Fhat::InOutput => {
             for (i, (o, &y)) in out.iter_mut().zip(signal).enumerate() {
                 let f = *o;
-                if !(f > floor) {
+                let usable = f > floor; // false for NaN too
+                if !usable {
                     bad = Some((i, f));
                     break;
                 }

@@ -161,7 +161,9 @@ impl Moments {
     #[inline]
     pub fn line(&self, x_scale: f64) -> Option<(f64, f64)> {
         let var = self.sxx / self.w;
-        if !(self.w > 0.0) || !(var > (1e-12 * x_scale) * (1e-12 * x_scale)) {
+        // Written so that NaN sums also count as "no spread".
+        let spread = self.w > 0.0 && var > (1e-12 * x_scale) * (1e-12 * x_scale);
+        if !spread {
             return None;
         }
         let b = self.sxy / self.sxx;
@@ -444,7 +446,7 @@ pub fn irls(
     // Bracket half-width for the first exact median: the rough scale is within a few %.
     let mut width = 0.1;
     while iterations < limits.max_iter {
-        if !(scale > 0.0) {
+        if scale <= 0.0 {
             // Over half the samples sit exactly on the line: nothing left to reweight.
             converged = true;
             break;
@@ -604,7 +606,7 @@ pub fn sliding(
             let abs_residual = |i: usize| (signal[i] - fitted[i]).abs();
             let scale = median_abs(n, abs_residual, weights, hint) / MAD_TO_SIGMA;
             robust_scale = Some(scale);
-            if !(scale > 0.0) {
+            if scale <= 0.0 {
                 converged = true;
                 break;
             }

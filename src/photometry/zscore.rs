@@ -97,7 +97,8 @@ pub fn zscore_to_baseline(
     baseline: (f64, f64),
 ) -> Result<ZScale, PhotometryError> {
     let (from, to) = baseline;
-    if !(from < to) {
+    let forwards = from < to; // false for NaN too
+    if !forwards {
         return Err(PhotometryError::InvalidOption(format!(
             "baseline window must run forwards, got ({from}, {to}) s"
         )));
