@@ -5,3 +5,84 @@
 pub fn fmt_f64(x: f64) -> String {
     format!("{x}")
 }
+
+/// Neutralise a text cell for CSV exports that people open in a spreadsheet: a cell starting
+/// with `=`, `+`, `-`, `@`, a tab or a carriage return could run as a formula, so it gets a
+/// leading apostrophe and keeps its text (the OWASP "CSV injection" advice, common practice).
+/// A cell that is just a number (`-3`, `+0.5`, `-1e-3`) is left alone: a spreadsheet reads it
+/// as that number, which is harmless and what the user wants.
+pub fn csv_safe_cell(cell: &str) -> std::borrow::Cow<'_, str> {
+    let risky = matches!(
+        cell.as_bytes().first(),
+        Some(b'=' | b'+' | b'-' | b'@' | b'\t' | b'\r')
+    );
+    if risky && !is_plain_number(cell) {
+        std::borrow::Cow::Owned(format!("'{cell}"))
+    } else {
+        std::borrow::Cow::Borrowed(cell)
+    }
+}
+
+/// `[+-]digits[.digits][e[+-]digits]`, nothing else (no spaces, no `inf`/`nan`).
+fn is_plain_number(s: &str) -> bool {
+    let b = s.as_bytes();
+    let mut i = usize::from(matches!(b.first(), Some(b'+' | b'-')));
+    let digits = |i: &mut usize| {
+        let start = *i;
+        while b.get(*i).is_some_and(u8::is_ascii_digit) {
+            *i += 1;
+        }
+        *i - start
+    };
+    let mut mantissa = digits(&mut i);
+    if b.get(i) == Some(&b'.') {
+        i += 1;
+        mantissa += digits(&mut i);
+    }
+    if mantissa == 0 {
+        return false;
+    }
+    if matches!(b.get(i), Some(b'e' | b'E')) {
+        i += 1;
+        if matches!(b.get(i), Some(b'+' | b'-')) {
+            i += 1;
+        }
+        if digits(&mut i) == 0 {
+            return false;
+        }
+    }
+    i == b.len()
+}
+
+#[cfg(test)]
+mod csv_safe_tests {
+    use super::csv_safe_cell;
+
+    #[test]
+    fn formula_starts_get_an_apostrophe_and_keep_their_text() {
+        for cell in [
+            "=1+1",
+            "+cmd|' /C calc'!A0",
+            "-2+3",
+            "@SUM(A1)",
+            "\t=1",
+            "\r=1",
+            "-",
+            "+",
+            "- lick bout",
+            "-1e",
+            "--1",
+        ] {
+            assert_eq!(csv_safe_cell(cell), format!("'{cell}"), "{cell:?}");
+        }
+    }
+
+    #[test]
+    fn plain_text_and_plain_numbers_pass_unchanged() {
+        for cell in [
+            "", "artifact", "a=b", "-3", "+0.5", "-1e-3", "-.5", "12", "'=x",
+        ] {
+            assert_eq!(csv_safe_cell(cell), cell, "{cell:?}");
+        }
+    }
+}

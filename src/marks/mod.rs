@@ -2,7 +2,37 @@
 //!
 //! Header `trial,mark,reason,note,reviewer,at`. For each trial the last exclude/suspect/clear
 //! row in file order wins; note rows accumulate; an empty `trial` is a session-level note.
-//! Start at [`read_journal`] and [`append`].
+//! Start at [`read_journal`] and [`append`]; [`Journal::refresh`] picks up rows other reviewers
+//! appended since.
+//!
+//! # Torn lines (an interrupted write)
+//!
+//! Every row goes to disk in one write under an exclusive lock and is synced before `append`
+//! returns, so a killed process leaves whole rows. A power cut or a full disk can still leave an
+//! incomplete last record. The rules:
+//!
+//! * The reader keeps an incomplete or invalid *last* record that is not followed by a newline
+//!   (or ends inside quotes) out of the rows and reports it in [`Journal::torn_tail`]. A complete
+//!   valid last row that only lacks its newline is an ordinary row.
+//! * The next [`append`] seals the torn record instead of writing after it blindly (which could
+//!   glue the new row onto it, or, after an open quote, swallow it into a note): it closes an
+//!   open quote, ends the line, and writes a session note with reason [`TORN_LINE_REASON`]
+//!   before the new row. The torn text stays in the file, untouched (the journal is never
+//!   rewritten in place); the note tells anyone reading the CSV elsewhere why a junk line is there.
+//! * The reader skips invalid records directly followed by such a note and lists them in
+//!   [`Journal::sealed_torn`]. Any other invalid record is a [`MarksError::Parse`].
+//!
+//! Known limit: if the sealing write is itself cut by a second power loss just after its first
+//! newline, the journal ends with a terminated junk line that no note follows; the reader then
+//! names that line as a parse error for a person to delete.
+
+mod append;
+mod csvline;
+mod read;
+
+pub use append::{append, encode_row, now_rfc3339, reviewer_name};
+pub use csvline::MAX_RECORD_BYTES;
+pub use read::{read_journal, MAX_JOURNAL_BYTES};
 
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -82,7 +112,57 @@ pub struct Journal {
     pub path: PathBuf,
     pub rows: Vec<MarkRow>,
     /// 1-based line number and text of a torn (incomplete) last line, ignored with a warning.
+    /// The text is raw file content: neutralise control characters before showing it.
     pub torn_tail: Option<(u64, String)>,
+    /// Earlier torn lines that a later append sealed off (see the module notes): line and text.
+    pub sealed_torn: Vec<(u64, String)>,
+    /// Where [`Journal::refresh`] resumes.
+    cursor: read::Cursor,
+}
+
+impl Journal {
+    /// Fold the rows into the standing marks and notes.
+    pub fn state(&self) -> MarkState {
+        fold(&self.rows)
+    }
+}
+
+/// Fold rows in file order: the last exclude/suspect/clear of a trial wins, notes accumulate.
+pub fn fold(rows: &[MarkRow]) -> MarkState {
+    let mut state = MarkState::default();
+    for row in rows {
+        match (row.mark, row.trial) {
+            (MarkKind::Note, _) => state.notes.push(row.clone()),
+            (MarkKind::Clear, Some(trial)) => {
+                state.marks.remove(&trial);
+            }
+            (kind, Some(trial)) => {
+                state.marks.insert(
+                    trial,
+                    TrialMark {
+                        kind,
+                        reason: row.reason.clone(),
+                        note: row.note.clone(),
+                        reviewer: row.reviewer.clone(),
+                        at: row.at.clone(),
+                    },
+                );
+            }
+            // A trial mark without a trial cannot come from the reader; ignore a hand-made one.
+            (_, None) => {}
+        }
+    }
+    state
+}
+
+/// `reason` of the session note that seals a torn line (see the module notes).
+pub const TORN_LINE_REASON: &str = "torn-line";
+
+impl MarkRow {
+    /// True for the note an append writes after sealing a torn line.
+    pub fn is_torn_line_seal(&self) -> bool {
+        self.trial.is_none() && self.mark == MarkKind::Note && self.reason == TORN_LINE_REASON
+    }
 }
 
 #[derive(Debug, thiserror::Error)]
@@ -99,22 +179,23 @@ pub enum MarksError {
         column: String,
         message: String,
     },
+    /// A request the journal refuses (a row that is not valid, a file that is too large or not
+    /// in the layout the appender writes).
+    #[error("{path}: {message}")]
+    Invalid { path: PathBuf, message: String },
 }
 
-/// Read `marks.csv` of a session folder (an absent file is an empty journal).
-pub fn read_journal(_session_dir: &Path) -> Result<Journal, MarksError> {
-    todo!("marks journal reader")
-}
-
-impl Journal {
-    /// Fold the rows into the standing marks and notes.
-    pub fn state(&self) -> MarkState {
-        todo!("fold journal")
+impl MarksError {
+    pub(crate) fn io(path: &Path, source: std::io::Error) -> Self {
+        MarksError::Io {
+            path: path.to_path_buf(),
+            source,
+        }
     }
-}
-
-/// Append one row to the session's journal, durably (written and synced to disk before
-/// returning), under an exclusive file lock so concurrent reviewers lose nothing.
-pub fn append(_session_dir: &Path, _row: &MarkRow) -> Result<(), MarksError> {
-    todo!("durable append")
+    pub(crate) fn invalid(path: &Path, message: impl Into<String>) -> Self {
+        MarksError::Invalid {
+            path: path.to_path_buf(),
+            message: message.into(),
+        }
+    }
 }
