@@ -139,8 +139,18 @@ impl Learner {
             }
             return Step { value, delta };
         }
-        for entry in &mut self.trace {
-            entry.1 *= self.decay;
+        // e ← γλ·e + x_prev and w ← w + αδ·e in one pass over the old entries, then x_prev's
+        // share: w + αδ·(γλ·e) + αδ·x_prev equals the contract's update up to rounding, and
+        // the trace is streamed once instead of twice (the O(K²) part of csc with λ > 0).
+        if step != 0.0 {
+            for entry in &mut self.trace {
+                entry.1 *= self.decay;
+                self.w[entry.0 as usize] += step * entry.1;
+            }
+        } else {
+            for entry in &mut self.trace {
+                entry.1 *= self.decay;
+            }
         }
         for &(i, v) in x_prev {
             let s = &mut self.slot[i as usize];
@@ -150,11 +160,7 @@ impl Learner {
             } else {
                 self.trace[*s as usize].1 += v;
             }
-        }
-        if step != 0.0 {
-            for &(i, e) in &self.trace {
-                self.w[i as usize] += step * e;
-            }
+            self.w[i as usize] += step * v;
         }
         Step { value, delta }
     }
