@@ -14,13 +14,7 @@ fn read_all(bytes: &[u8]) -> Vec<Diagnostic> {
     let p = Path::new("x.csv");
     let cues = ["tone-hi", "tone-lo"];
     let _ = read_trials(p, bytes, Some(&cues[..]), &mut out);
-    let _ = read_spikes(
-        p,
-        bytes,
-        bytes.len() as u64,
-        Some(Span { end_s: 50.0 }),
-        &mut out,
-    );
+    let _ = read_spikes(p, bytes, Some(Span { end_s: 50.0 }), &mut out);
     let _ = read_licks(p, bytes, None, &mut out);
     let _ = read_photometry(p, bytes, &mut out);
     let _ = parse_meta(Path::new("session.toml"), bytes, &mut out);

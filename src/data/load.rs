@@ -204,10 +204,9 @@ fn missing_meta(dir: &Path) -> Diagnostic {
     .expected("session.toml with subject and date in every session folder")
 }
 
-fn open(path: &Path) -> Option<(BufReader<File>, u64)> {
+fn open(path: &Path) -> Option<BufReader<File>> {
     let f = File::open(path).ok()?;
-    let len = f.metadata().ok()?.len();
-    Some((BufReader::with_capacity(1 << 16, f), len))
+    Some(BufReader::with_capacity(1 << 16, f))
 }
 
 /// Read one session folder; `None` if it has errors (all reported in `out`).
@@ -226,7 +225,7 @@ pub fn read_session(dir: &Path, out: &mut Vec<Diagnostic>) -> Option<Session> {
     let trials_path = dir.join(TRIALS_FILE);
     let raw_trials = if trials_path.exists() {
         match open(&trials_path) {
-            Some((r, _)) => tables::read_trials(&trials_path, r, declared.as_deref(), out),
+            Some(r) => tables::read_trials(&trials_path, r, declared.as_deref(), out),
             None => {
                 out.push(Diagnostic::error(&trials_path, "cannot open"));
                 None
@@ -241,13 +240,13 @@ pub fn read_session(dir: &Path, out: &mut Vec<Diagnostic>) -> Option<Session> {
     };
     let span = raw_trials.as_ref().and_then(|t| span_end(&t.value));
 
-    let spikes = optional_file(dir, SPIKES_FILE, out, |p, r, len, out| {
-        tables::read_spikes(p, r, len, span, out)
+    let spikes = optional_file(dir, SPIKES_FILE, out, |p, r, out| {
+        tables::read_spikes(p, r, span, out)
     });
-    let licks = optional_file(dir, LICKS_FILE, out, |p, r, _, out| {
+    let licks = optional_file(dir, LICKS_FILE, out, |p, r, out| {
         tables::read_licks(p, r, span, out)
     });
-    let photometry = optional_file(dir, PHOTOMETRY_FILE, out, |p, r, _, out| {
+    let photometry = optional_file(dir, PHOTOMETRY_FILE, out, |p, r, out| {
         tables::read_photometry(p, r, out)
     });
 
@@ -282,7 +281,7 @@ fn optional_file<T>(
     dir: &Path,
     file: &str,
     out: &mut Vec<Diagnostic>,
-    read: impl FnOnce(&Path, Reader, u64, &mut Vec<Diagnostic>) -> Option<tables::Read<T>>,
+    read: impl FnOnce(&Path, Reader, &mut Vec<Diagnostic>) -> Option<tables::Read<T>>,
 ) -> Option<T> {
     let path = dir.join(file);
     if !path.exists() {
@@ -292,11 +291,11 @@ fn optional_file<T>(
         out.push(Diagnostic::error(&path, "is a folder").expected("a CSV file"));
         return None;
     }
-    let Some((r, len)) = open(&path) else {
+    let Some(r) = open(&path) else {
         out.push(Diagnostic::error(&path, "cannot open"));
         return None;
     };
-    read(&path, r, len, out).map(|r| r.value)
+    read(&path, r, out).map(|r| r.value)
 }
 
 /// Turn cue names into indices into `meta.cues` (the reader has already reported, and left
