@@ -16,7 +16,9 @@ use std::path::{Path, PathBuf};
 pub struct Args {
     /// A subject folder or one session folder
     pub path: PathBuf,
-    /// Also write the rows as tidy CSV (session,trial,mark,reason,note,reviewer,at) to FILE
+    /// Also write the rows as tidy CSV (session,trial,mark,reason,note,reviewer,at) to FILE.
+    /// Text a spreadsheet would run as a formula (starting with = + - @) gets a leading
+    /// apostrophe, text kept; plain numbers such as -3 are left as they are
     #[arg(long, value_name = "FILE")]
     pub csv: Option<PathBuf>,
     /// What to print: a table for reading, or CSV (same columns as --csv)
