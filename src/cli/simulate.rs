@@ -3,7 +3,7 @@
 use super::{CliError, CmdResult};
 use crate::model::Representation;
 use crate::simulate::photometry::{Bleaching, Motion};
-use crate::simulate::{self, CueSpec, PhotometryParams, SimConfig};
+use crate::simulate::{self, CueSpec, FaultParams, PhotometryParams, SimConfig};
 use std::path::PathBuf;
 
 /// Defaults reproduce the demo scenario (demo_data/README.md): 8 days x 120 trials, tones
@@ -73,6 +73,12 @@ pub struct Args {
     /// e.g. 1:0.2:1 (dips of up to 20 % lasting 1 s, once a minute on average)
     #[arg(long, value_name = "PER_MIN:MAX_DEPTH:DURATION_S")]
     pub motion: Option<String>,
+    /// Inject a fault KIND at RATE (per trial; per session for unit-lost and
+    /// control-decoupled); repeatable. Kinds: baseline-licks, valve-failure, late-first-lick,
+    /// reward-too-soon, unit-lost, trial-motion, control-decoupled, saturation, dropout (the
+    /// last four need --photometry on). Every injected fault is listed in OUT/faults.csv.
+    #[arg(long = "fault", value_name = "KIND:RATE")]
+    pub faults: Vec<String>,
     /// Subject id written to every session.toml
     #[arg(long, default_value = "m-041")]
     pub subject: String,
@@ -138,6 +144,10 @@ pub fn config(args: &Args) -> Result<SimConfig, CliError> {
             duration_s: v[2],
         });
     }
+    for text in &args.faults {
+        let (kind, rate) = FaultParams::parse_one(text).map_err(CliError::usage)?;
+        c.faults.rates.push((kind, rate));
+    }
     c.validate().map_err(CliError::usage)?;
     Ok(c)
 }
@@ -177,5 +187,12 @@ pub fn run(args: Args) -> CmdResult {
         sim.units.len(),
         args.out.display()
     );
+    if config.faults.any() {
+        eprintln!(
+            "injected {} faults (listed in {})",
+            sim.faults.len(),
+            args.out.join(simulate::writer::FAULTS_FILE).display()
+        );
+    }
     Ok(0)
 }

@@ -11,6 +11,7 @@
 //! and told apart by stream number, so the same seed gives the same bytes and turning one
 //! output (say photometry) on or off leaves the others unchanged.
 
+pub mod faults;
 pub mod licks;
 pub mod photometry;
 pub mod schedule;
@@ -23,6 +24,7 @@ use crate::model::{layout_subject, run, Representation, TdParams, TdRun, TrialSp
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 
+pub use faults::{FaultKind, FaultParams};
 pub use licks::LickParams;
 pub use photometry::PhotometryParams;
 pub use schedule::{CueSpec, ScheduleParams};
@@ -39,6 +41,8 @@ pub struct SimConfig {
     pub licks: LickParams,
     /// `None`: no `photometry.csv`.
     pub photometry: Option<PhotometryParams>,
+    /// Injected faults (all off by default; see [`faults`]).
+    pub faults: FaultParams,
 }
 
 impl Default for SimConfig {
@@ -50,6 +54,7 @@ impl Default for SimConfig {
             units: UnitParams::default(),
             licks: LickParams::default(),
             photometry: None,
+            faults: FaultParams::default(),
         }
     }
 }
@@ -81,6 +86,8 @@ pub struct Simulated {
     pub td: TdRun,
     /// Per session: the true ΔF/F, bleaching and motion behind `photometry.csv` (when on).
     pub photometry_truth: Vec<Option<photometry::Injected>>,
+    /// Every injected fault, in session and trial order per kind (empty without `--fault`).
+    pub faults: Vec<faults::Injected>,
 }
 
 /// Stream numbers of the per-component generators (see the module overview).
@@ -93,6 +100,8 @@ pub(crate) mod stream {
     pub const LICKS: u64 = 2_000_000;
     /// Plus session.
     pub const PHOTOMETRY: u64 = 3_000_000;
+    /// Plus 10000 × (fault kind + 1) + session.
+    pub const FAULTS: u64 = 4_000_000;
 }
 
 /// A generator for one component; different streams never overlap.
@@ -111,7 +120,16 @@ pub fn round_time(t: f64) -> f64 {
 /// Run the whole simulation in memory.
 pub fn simulate(config: &SimConfig) -> Result<Simulated, String> {
     config.validate()?;
-    let plan = schedule::draw(&config.schedule, config.seed)?;
+    let mut plan = schedule::draw(&config.schedule, config.seed)?;
+    let mut injected = Vec::new();
+    let delays: Vec<f64> = config.schedule.cues.iter().map(|c| c.delay_s).collect();
+    faults::shift_rewards(
+        &mut plan,
+        &delays,
+        &config.faults,
+        config.seed,
+        &mut injected,
+    );
     let mut subject = schedule::to_subject(&config.schedule, &plan);
     let spans = layout_subject(&subject, config.td.dt);
     let n_cues = subject.cue_names().len();
@@ -143,28 +161,39 @@ pub fn simulate(config: &SimConfig) -> Result<Simulated, String> {
                 spikes::unit_spikes(u, &config.units, &traces, config.td.dt, end_s, &mut rng)
             })
             .collect();
-        if !units.is_empty() {
-            session.spikes = Some(Spikes {
-                units: units.iter().map(|u| u.id.clone()).collect(),
-                times,
-            });
-        }
+        let mut spikes = (!units.is_empty()).then(|| Spikes {
+            units: units.iter().map(|u| u.id.clone()).collect(),
+            times,
+        });
         let mut rng = rng_for(config.seed, stream::LICKS + si as u64);
-        session.licks = Some(licks::session_licks(
-            &config.licks,
-            &traces,
-            config.td.dt,
-            end_s,
-            &mut rng,
-        ));
-        photometry_truth.push(config.photometry.as_ref().map(|p| {
+        let mut licks = licks::session_licks(&config.licks, &traces, config.td.dt, end_s, &mut rng);
+        let mut recording = config.photometry.as_ref().map(|p| {
             let mut rng = rng_for(config.seed, stream::PHOTOMETRY + si as u64);
-            let (recording, injected) =
-                photometry::session_trace(p, &traces, config.td.dt, end_s, &mut rng);
-            session.photometry = Some(recording);
-            injected
+            photometry::session_trace(p, &traces, config.td.dt, end_s, &mut rng)
+        });
+        if config.faults.any() {
+            let at = faults::At {
+                session: &*session,
+                index: si,
+                faults: &config.faults,
+                seed: config.seed,
+            };
+            if let Some(s) = spikes.as_mut() {
+                faults::lose_unit(at, s, &mut injected);
+            }
+            faults::lick_faults(at, &mut licks, &config.licks, &mut injected);
+            if let (Some((rec, truth)), Some(p)) = (recording.as_mut(), &config.photometry) {
+                faults::photometry_faults(at, rec, truth, p, &mut injected);
+            }
+        }
+        session.spikes = spikes;
+        session.licks = Some(licks);
+        photometry_truth.push(recording.map(|(rec, truth)| {
+            session.photometry = Some(rec);
+            truth
         }));
     }
+    injected.sort_by_key(|f| (f.session, f.kind, f.trial));
     Ok(Simulated {
         config: config.clone(),
         subject,
@@ -172,6 +201,7 @@ pub fn simulate(config: &SimConfig) -> Result<Simulated, String> {
         spans,
         td,
         photometry_truth,
+        faults: injected,
     })
 }
 
@@ -260,6 +290,7 @@ impl SimConfig {
         if let Some(p) = &self.photometry {
             p.validate()?;
         }
+        self.faults.validate(self.photometry.is_some())?;
         check(
             !s.subject.is_empty() && !s.subject.contains(['"', '\\', '\n', '\r', '/']),
             "--subject must be non-empty and free of quotes, slashes and line breaks",

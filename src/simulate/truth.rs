@@ -14,6 +14,18 @@ pub struct Truth {
     pub units: UnitsTruth,
     pub licks: LicksTruth,
     pub photometry: PhotometryTruth,
+    /// Present only when faults were injected (`--fault`); the faults themselves are listed
+    /// per trial in `faults.csv`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub faults: Option<FaultsTruth>,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct FaultsTruth {
+    pub file: String,
+    /// Injection rate by fault kind: per trial, or per session for unit_lost and
+    /// control_decoupled.
+    pub rates: std::collections::BTreeMap<String, f64>,
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -232,6 +244,14 @@ impl Truth {
                 motion_max_depth: ph.and_then(|p| p.motion.as_ref().map(|m| m.max_depth)),
                 motion_duration_s: ph.and_then(|p| p.motion.as_ref().map(|m| m.duration_s)),
             },
+            faults: c.faults.any().then(|| FaultsTruth {
+                file: super::writer::FAULTS_FILE.into(),
+                rates: super::FaultKind::ALL
+                    .iter()
+                    .map(|&k| (k.name().to_string(), c.faults.rate(k)))
+                    .filter(|(_, r)| *r > 0.0)
+                    .collect(),
+            }),
         }
     }
 

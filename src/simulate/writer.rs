@@ -66,9 +66,26 @@ pub fn write_subject(sim: &Simulated, out: &Path, force: bool) -> Result<(), Wri
         fs::create_dir_all(&dir).map_err(io_at(&dir))?;
         write_session(session, &dir)?;
     }
+    if sim.config.faults.any() {
+        let path = out.join(FAULTS_FILE);
+        write_csv(&path, |w| {
+            writeln!(w, "session,trial,fault,detail")?;
+            for f in &sim.faults {
+                let trial = f.trial.map(|t| t.to_string()).unwrap_or_default();
+                let name = &sim.subject.sessions[f.session].name;
+                // Details never hold quotes; commas would, so quote them.
+                writeln!(w, "{name},{trial},{},\"{}\"", f.kind.name(), f.detail)?;
+            }
+            Ok(())
+        })?;
+    }
     let path = out.join("truth.toml");
     fs::write(&path, Truth::of(sim).to_toml()).map_err(io_at(&path))
 }
+
+/// Injected faults, one row per trial (`trial` empty for a whole-session fault), written
+/// beside truth.toml only when faults were asked for.
+pub const FAULTS_FILE: &str = "faults.csv";
 
 fn clear_simulated(out: &Path) -> Result<(), WriteError> {
     for entry in fs::read_dir(out).map_err(io_at(out))? {
@@ -84,9 +101,11 @@ fn clear_simulated(out: &Path) -> Result<(), WriteError> {
             let _ = fs::remove_dir(&dir);
         }
     }
-    let truth = out.join("truth.toml");
-    if truth.exists() {
-        fs::remove_file(&truth).map_err(io_at(&truth))?;
+    for name in ["truth.toml", FAULTS_FILE] {
+        let f = out.join(name);
+        if f.exists() {
+            fs::remove_file(&f).map_err(io_at(&f))?;
+        }
     }
     Ok(())
 }
