@@ -10,6 +10,9 @@ use std::path::Path;
 /// after the expected reward is 1 s; a later reward lengthens the trial).
 pub const LATE_REWARD_S: f64 = 1.0;
 
+/// Warnings of one kind shown per file before the rest are counted.
+const SHOWN_PER_KIND: usize = 5;
+
 /// Trials against the cues of `session.toml`: warnings only (the errors are the readers').
 /// Works on the rows as read, so it runs even when other files of the session have errors.
 pub fn check_trials(
@@ -25,7 +28,9 @@ pub fn check_trials(
             .and_then(|n| meta.cues.iter().position(|c| &c.name == n))
     };
     let mut used = vec![false; meta.cues.len()];
-    let mut late_shown = 0;
+    // One list per kind of warning, so a column that is wrong on every row says so a few
+    // times and then counts, instead of printing 1,000 lines.
+    let mut found: [Vec<Diagnostic>; 4] = Default::default();
     let mut prev_align: Option<(f64, i64)> = None;
     for row in raw {
         let line = row.line;
@@ -36,14 +41,13 @@ pub fn check_trials(
         if let (Some(c), Some(cue_s), Some(reward_s)) = (cue, row.cue_s, row.reward_s) {
             let declared = meta.cues[c].reward_delay_s;
             let after = reward_s - cue_s;
-            if after > declared.unwrap_or(0.0) + LATE_REWARD_S && late_shown < 20 {
-                late_shown += 1;
+            if after > declared.unwrap_or(0.0) + LATE_REWARD_S {
                 let name = &meta.cues[c].name;
                 let why = match declared {
                     Some(d) => format!("cue `{name}` declares reward_delay_s = {d}"),
                     None => format!("cue `{name}` declares no reward_delay_s"),
                 };
-                out.push(
+                found[0].push(
                     Diagnostic::warning(
                         path,
                         format!(
@@ -57,7 +61,7 @@ pub fn check_trials(
             }
         }
         if row.reward_s.is_some() && row.reward_ul.unwrap_or(0.0) == 0.0 {
-            out.push(
+            found[1].push(
                 Diagnostic::warning(
                     path,
                     "reward delivered but reward_ul is empty or 0: the model sees no reward",
@@ -67,7 +71,7 @@ pub fn check_trials(
             );
         }
         if row.reward_s.is_none() && row.reward_ul.is_some_and(|u| u > 0.0) {
-            out.push(
+            found[2].push(
                 Diagnostic::warning(path, "reward_ul given but no reward_s: read as no reward")
                     .at_line(line)
                     .column("reward_ul"),
@@ -76,7 +80,7 @@ pub fn check_trials(
         let align = row.cue_s.or(row.reward_s);
         if let (Some(a), Some((pa, pn))) = (align, prev_align) {
             if a < pa {
-                out.push(
+                found[3].push(
                     Diagnostic::warning(
                         path,
                         format!(
@@ -95,6 +99,18 @@ pub fn check_trials(
         }
         if let Some(a) = align {
             prev_align = Some((a, row.number));
+        }
+    }
+    for kind in found {
+        let more = kind.len().saturating_sub(SHOWN_PER_KIND);
+        let first_hidden = kind.get(SHOWN_PER_KIND).cloned();
+        out.extend(kind.into_iter().take(SHOWN_PER_KIND));
+        if let Some(first) = first_hidden {
+            out.push(Diagnostic {
+                message: format!("{more} more trial(s) from this line on with the same warning"),
+                expected: None,
+                ..first
+            });
         }
     }
     for (cue, used) in meta.cues.iter().zip(used) {
@@ -157,5 +173,50 @@ pub fn check_subject(subject: &Subject, out: &mut Vec<Diagnostic>) {
                 ),
             ).column("start_time"));
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::data::CueDef;
+
+    #[test]
+    fn a_warning_on_every_row_is_shown_five_times_then_counted() {
+        let meta = SessionMeta {
+            subject: "m".into(),
+            date: "2026-01-01".into(),
+            start_time: None,
+            rig: None,
+            cues: vec![CueDef {
+                name: "x".into(),
+                reward_delay_s: Some(1.0),
+            }],
+        };
+        let raw: Vec<RawTrial> = (1..=20)
+            .map(|i| RawTrial {
+                line: i as u64 + 1,
+                number: i,
+                cue: Some("x".into()),
+                cue_s: Some(i as f64 * 10.0),
+                reward_s: Some(i as f64 * 10.0 + 1.0),
+                reward_ul: None,
+            })
+            .collect();
+        let mut out = Vec::new();
+        check_trials(
+            &meta,
+            Path::new("s.toml"),
+            Path::new("t.csv"),
+            &raw,
+            &mut out,
+        );
+        let lines: Vec<Option<u64>> = out.iter().map(|d| d.line).collect();
+        assert_eq!(
+            lines,
+            vec![Some(2), Some(3), Some(4), Some(5), Some(6), Some(7)]
+        );
+        assert!(out[5].message.starts_with("15 more trial(s)"));
+        assert!(out.iter().all(|d| !d.is_error()));
     }
 }
