@@ -228,19 +228,25 @@ pub fn observe(subject: &Subject, opts: &ObsOptions) -> Result<Vec<TrialObs>, Ob
     opts.validate()?;
     let spans = layout_subject(subject, DEFAULT_DT);
     let mut out = Vec::with_capacity(spans.len());
-    let mut current: Option<(usize, SessionActivity)> = None;
-    for span in &spans {
-        let session = &subject.sessions[span.session];
-        if current.as_ref().map(|c| c.0) != Some(span.session) {
-            current = Some((span.session, SessionActivity::new(session, &opts.signal)?));
-        }
-        let act = &current.as_ref().expect("set above").1;
-        let trial = &session.trials[span.trial];
-        if let Some(o) = observe_trial(session, trial, act, opts) {
+    // Spans come session by session: plan every window of a session, then measure them all
+    // in one sweep per spike train (SessionActivity::means).
+    for chunk in spans.chunk_by(|a, b| a.session == b.session) {
+        let session = &subject.sessions[chunk[0].session];
+        let act = SessionActivity::new(session, &opts.signal)?;
+        let plans: Vec<(usize, Plan)> = chunk
+            .iter()
+            .filter_map(|span| {
+                let p = plan(session, &session.trials[span.trial], opts)?;
+                Some((span.trial, p))
+            })
+            .collect();
+        let windows: Vec<(f64, f64)> = plans.iter().flat_map(|(_, p)| p.windows()).collect();
+        let means = act.means(&windows);
+        for ((ti, p), m) in plans.iter().zip(means.chunks_exact(3)) {
             out.push(TrialObs {
-                session: span.session,
-                trial: span.trial,
-                ..o
+                session: chunk[0].session,
+                trial: *ti,
+                ..p.finish(session, &session.trials[*ti], m[0], m[1], m[2])
             });
         }
     }
@@ -254,28 +260,71 @@ pub fn observe_trial(
     act: &SessionActivity,
     opts: &ObsOptions,
 ) -> Option<TrialObs> {
+    let p = plan(session, trial, opts)?;
+    let [b, c, r] = p.windows().map(|(lo, hi)| act.mean(lo, hi));
+    Some(p.finish(session, trial, b, c, r))
+}
+
+/// The windows one trial is measured in.
+struct Plan {
+    kind: TrialKind,
+    baseline: (f64, f64),
+    cue: Option<(f64, f64)>,
+    reward: Option<(f64, f64)>,
+}
+
+/// Stands in for an absent event's window; measures nothing.
+const NO_WINDOW: (f64, f64) = (0.0, 0.0);
+
+impl Plan {
+    /// Baseline, cue, reward: always three, in time order, so a session's windows sweep forward.
+    fn windows(&self) -> [(f64, f64); 3] {
+        [
+            self.baseline,
+            self.cue.unwrap_or(NO_WINDOW),
+            self.reward.unwrap_or(NO_WINDOW),
+        ]
+    }
+
+    fn finish(
+        &self,
+        session: &Session,
+        trial: &Trial,
+        base: Option<f64>,
+        cue: Option<f64>,
+        reward: Option<f64>,
+    ) -> TrialObs {
+        let minus_base = |m: Option<f64>| Some(m? - base?);
+        TrialObs {
+            session: 0,
+            trial: 0,
+            cue: self.cue.and(minus_base(cue)),
+            reward: self.reward.and(minus_base(reward)),
+            omission: self.kind == TrialKind::Omission,
+            anticipatory_lick_rate: anticipatory_lick_rate(session, trial),
+            kind: self.kind,
+        }
+    }
+}
+
+fn plan(session: &Session, trial: &Trial, opts: &ObsOptions) -> Option<Plan> {
     let kind = TrialKind::of(session, trial)?;
     let t0 = alignment_time(trial)?;
-    let base = act.mean(t0 + opts.baseline.0, t0 + opts.baseline.1);
-    let response = |event: f64, w: (f64, f64)| -> Option<f64> {
-        Some(act.mean(event + w.0, event + w.1)? - base?)
-    };
+    let after = |event: f64, w: (f64, f64)| (event + w.0, event + w.1);
     let cue = match (trial.cue, trial.cue_s) {
-        (Some(_), Some(cs)) => response(cs, opts.cue_window),
+        (Some(_), Some(cs)) => Some(after(cs, opts.cue_window)),
         _ => None,
     };
-    let reward_time = trial
+    // After the delivered reward, or after the expected time on omission trials.
+    let reward = trial
         .reward_s
-        .or_else(|| expected_reward_time(session, trial));
-    let reward = reward_time.and_then(|t| response(t, opts.reward_window));
-    Some(TrialObs {
-        session: 0,
-        trial: 0,
+        .or_else(|| expected_reward_time(session, trial))
+        .map(|t| after(t, opts.reward_window));
+    Some(Plan {
+        kind,
+        baseline: after(t0, opts.baseline),
         cue,
         reward,
-        omission: kind == TrialKind::Omission,
-        anticipatory_lick_rate: anticipatory_lick_rate(session, trial),
-        kind,
     })
 }
 
