@@ -281,7 +281,7 @@ fn optional_file<T>(
     dir: &Path,
     file: &str,
     out: &mut Vec<Diagnostic>,
-    read: impl FnOnce(&Path, Reader, &mut Vec<Diagnostic>) -> Option<tables::Read<T>>,
+    read: impl FnOnce(&Path, Reader, &mut Vec<Diagnostic>) -> Option<tables::Parsed<T>>,
 ) -> Option<T> {
     let path = dir.join(file);
     if !path.exists() {

@@ -3,6 +3,7 @@
 use super::diag::Diagnostic;
 use super::{CueDef, SessionMeta};
 use serde::Deserialize;
+use std::io::Read;
 use std::path::Path;
 use toml::{Spanned, Value};
 
@@ -61,17 +62,18 @@ fn read_limited(path: &Path) -> Result<Vec<u8>, Diagnostic> {
     if meta.is_dir() {
         return Err(Diagnostic::error(path, "is a folder").expected("a session.toml file"));
     }
-    if meta.len() > MAX_META_BYTES {
-        return Err(Diagnostic::error(
-            path,
-            format!(
-                "file is {} bytes, too large for a session description",
-                meta.len()
-            ),
-        )
-        .expected(format!("under {MAX_META_BYTES} bytes")));
+    // Read through `take`: a device or pipe reports length 0 and may never end.
+    let mut bytes = Vec::new();
+    std::fs::File::open(path)
+        .and_then(|f| f.take(MAX_META_BYTES + 1).read_to_end(&mut bytes))
+        .map_err(|e| Diagnostic::error(path, format!("cannot read: {e}")))?;
+    if bytes.len() as u64 > MAX_META_BYTES {
+        return Err(
+            Diagnostic::error(path, "file too large for a session description")
+                .expected(format!("under {MAX_META_BYTES} bytes")),
+        );
     }
-    std::fs::read(path).map_err(|e| Diagnostic::error(path, format!("cannot read: {e}")))
+    Ok(bytes)
 }
 
 /// Parse the bytes of a `session.toml` (separate from the file for tests); `None` on any error.

@@ -32,7 +32,7 @@ pub struct RawTrial {
 
 /// A table that read, and how many errors it had (its good rows are kept either way).
 #[derive(Debug)]
-pub struct Read<T> {
+pub struct Parsed<T> {
     pub value: T,
     pub errors: usize,
 }
@@ -53,7 +53,7 @@ pub fn read_trials<R: BufRead>(
     reader: R,
     declared: Option<&[&str]>,
     out: &mut Vec<Diagnostic>,
-) -> Option<Read<Vec<RawTrial>>> {
+) -> Option<Parsed<Vec<RawTrial>>> {
     let specs = TRIAL_COLS.map(required);
     let mut t = Table::new(path, reader, &specs, out)?;
     let mut trials: Vec<RawTrial> = Vec::new();
@@ -128,7 +128,7 @@ pub fn read_trials<R: BufRead>(
         t.diags.push(d);
     }
     let errors = t.finish(out);
-    Some(Read {
+    Some(Parsed {
         value: trials,
         errors,
     })
@@ -177,7 +177,7 @@ pub fn read_spikes<R: BufRead>(
     reader: R,
     span: Option<Span>,
     out: &mut Vec<Diagnostic>,
-) -> Option<Read<Spikes>> {
+) -> Option<Parsed<Spikes>> {
     let mut t = Table::new(path, reader, &[required("unit"), required("time_s")], out)?;
     let mut index: HashMap<Box<[u8]>, usize, BuildHasherDefault<Fnv1a>> = HashMap::default();
     // Ids as bytes while reading (rows were checked to be UTF-8), text at the end.
@@ -252,7 +252,7 @@ pub fn read_spikes<R: BufRead>(
         units: order.iter().map(|&i| names[i].clone()).collect(),
         times: order.iter().filter_map(|&i| slots[i].take()).collect(),
     };
-    Some(Read {
+    Some(Parsed {
         value: spikes,
         errors,
     })
@@ -264,7 +264,7 @@ pub fn read_licks<R: BufRead>(
     reader: R,
     span: Option<Span>,
     out: &mut Vec<Diagnostic>,
-) -> Option<Read<Vec<f64>>> {
+) -> Option<Parsed<Vec<f64>>> {
     let mut t = Table::new(path, reader, &[required("time_s")], out)?;
     let mut times = Vec::new();
     let mut first_unsorted = None;
@@ -291,7 +291,7 @@ pub fn read_licks<R: BufRead>(
     }
     late.report(&mut t, "lick");
     let errors = t.finish(out);
-    Some(Read {
+    Some(Parsed {
         value: times,
         errors,
     })
@@ -302,7 +302,7 @@ pub fn read_photometry<R: BufRead>(
     path: &Path,
     reader: R,
     out: &mut Vec<Diagnostic>,
-) -> Option<Read<Photometry>> {
+) -> Option<Parsed<Photometry>> {
     let specs = [required("time_s"), required("signal"), optional("control")];
     let mut t = Table::new(path, reader, &specs, out)?;
     let has_control = t.has_column(2);
@@ -359,7 +359,7 @@ pub fn read_photometry<R: BufRead>(
         t.diags.push(d);
     }
     let errors = t.finish(out);
-    Some(Read { value: p, errors })
+    Some(Parsed { value: p, errors })
 }
 
 fn sort_photometry(p: &mut Photometry) {
