@@ -297,3 +297,25 @@ fn quit_from_anywhere() {
     press(&mut st, "nhalf a note<ctrl-c>");
     assert!(st.quit);
 }
+
+#[test]
+fn days_table_follows_marks() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    let before = st.days[0].reward_response;
+    assert_eq!((st.days[0].excluded, before.n), (0, 6));
+    press(&mut st, "x1s1");
+    assert_eq!((st.days[0].excluded, st.days[0].suspect), (0, 1));
+    press(&mut st, "jx1");
+    // The excluded rewarded trial leaves the mean; the suspect one stays.
+    assert_eq!(st.days[0].excluded, 1);
+    assert_eq!(st.days[0].reward_response.n, 5);
+    press(&mut st, "3");
+    let text = frame_text(80, 24, &st);
+    let row = text
+        .lines()
+        .find(|l| l.starts_with(" 2026-03-02"))
+        .unwrap()
+        .to_string();
+    assert!(row.contains("    12    1    1"), "{row}");
+}

@@ -30,7 +30,6 @@ pub fn build_state(
     let obs_opts = settings.obs_options(&subject);
     let model = ModelView::build(&subject, settings, &obs_opts);
     let obs = derived::observe_spans(&subject, &model, &obs_opts);
-    let days = derived::day_lines(&subject, &model, &obs);
     let first = &subject.sessions[0];
     let signal = if first.spikes.as_ref().is_some_and(|s| !s.units.is_empty()) {
         SignalKind::Spikes
@@ -60,12 +59,13 @@ pub fn build_state(
         model,
         view,
         obs,
-        days,
+        days: Vec::new(),
         quit: false,
     };
     for si in 0..n {
         update::reread_journal(&mut state, si);
     }
+    update::rebuild_days(&mut state);
     state
 }
 

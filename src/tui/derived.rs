@@ -7,9 +7,11 @@
 use super::state::SignalKind;
 use crate::data::{Session, Subject};
 use crate::fit::{self, saved::SavedFit, saved::SAVED_FIT_FILE};
+use crate::marks::MarkState;
 use crate::model::Representation;
 use crate::model::{self, layout_subject, TdParams, TdRun, TrialSpan, POST_S};
 use crate::obs::{self, ObsOptions, SessionActivity, Signal, TrialKind, TrialObs, WindowDeltas};
+use crate::summary::{self, DayRow, ModelTraces};
 use std::path::Path;
 
 /// Where the model's parameters came from; the trial and fit screens say it beside the traces.
@@ -161,6 +163,8 @@ pub struct ModelView {
     pub span_of: Vec<Vec<Option<usize>>>,
     /// Per span, δ summed over the cue and reward observation windows.
     pub window_deltas: Vec<WindowDeltas>,
+    /// The observation windows those sums use.
+    pub obs_opts: ObsOptions,
 }
 
 impl ModelView {
@@ -190,6 +194,7 @@ impl ModelView {
             run,
             span_of,
             window_deltas,
+            obs_opts: obs.clone(),
         }
     }
 }
@@ -370,52 +375,24 @@ pub fn robust_range(values: impl Iterator<Item = f64>) -> (f64, f64) {
     }
 }
 
-/// One row of the days screen (the parts that do not depend on marks).
-#[derive(Debug, Clone, PartialEq)]
-pub struct DayLine {
-    pub session: usize,
-    pub n_trials: usize,
-    pub cue_response: Option<f64>,
-    pub reward_response: Option<f64>,
-    /// Mean reward-window response on omission trials (negative = a dip).
-    pub omission_dip: Option<f64>,
-    pub lick_rate: Option<f64>,
-    pub delta_cue: Option<f64>,
-    pub delta_reward: Option<f64>,
-}
-
-fn mean(it: impl Iterator<Item = f64>) -> Option<f64> {
-    let (s, n) = it.fold((0.0, 0usize), |(s, n), x| (s + x, n + 1));
-    (n > 0).then(|| s / n as f64)
-}
-
-/// Per-session means of the per-trial observations and model window δ.
-pub fn day_lines(subject: &Subject, model: &ModelView, obs: &[Option<TrialObs>]) -> Vec<DayLine> {
-    subject
-        .sessions
-        .iter()
-        .enumerate()
-        .map(|(si, s)| {
-            let spans: Vec<usize> = model.span_of[si].iter().flatten().copied().collect();
-            let os = || spans.iter().filter_map(|&i| obs[i].as_ref());
-            DayLine {
-                session: si,
-                n_trials: s.trials.len(),
-                cue_response: mean(os().filter_map(|o| o.cue)),
-                reward_response: mean(
-                    os().filter(|o| o.kind == TrialKind::Rewarded)
-                        .filter_map(|o| o.reward),
-                ),
-                omission_dip: mean(os().filter(|o| o.omission).filter_map(|o| o.reward)),
-                lick_rate: mean(os().filter_map(|o| o.anticipatory_lick_rate)),
-                delta_cue: mean(spans.iter().filter_map(|&i| model.window_deltas[i].cue)),
-                delta_reward: mean(
-                    spans
-                        .iter()
-                        .filter(|&&i| model.spans[i].reward_bin.is_some())
-                        .filter_map(|&i| model.window_deltas[i].reward),
-                ),
-            }
-        })
-        .collect()
+/// The days table from the core's `summary::day_rows`: means leave out excluded trials, so it
+/// is rebuilt whenever marks change (cheap: window sums over the precomputed model run).
+pub fn day_table(
+    subject: &Subject,
+    model: &ModelView,
+    obs: &[Option<TrialObs>],
+    marks: &[MarkState],
+) -> Vec<DayRow> {
+    let flat: Vec<TrialObs> = obs.iter().flatten().cloned().collect();
+    summary::day_rows(
+        subject,
+        &flat,
+        marks,
+        Some(ModelTraces {
+            spans: &model.spans,
+            run: &model.run,
+            dt: model.params.dt,
+            opts: &model.obs_opts,
+        }),
+    )
 }

@@ -5,11 +5,12 @@
 //! start ([`ModelView`]), the session's per-trial activity traces when the session, unit or
 //! signal changes ([`SessionView`]), the days table once at start.
 
-use super::derived::{DayLine, ModelView, SessionView};
+use super::derived::{ModelView, SessionView};
 use super::keymap::Keymap;
 use crate::data::{Session, Subject, Trial};
 use crate::marks::{Journal, MarkKind, MarkRow, MarkState, TrialMark};
 use crate::obs::TrialObs;
+use crate::summary::DayRow;
 
 /// Which screen fills the window.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -161,7 +162,8 @@ pub struct State {
     pub view: SessionView,
     /// Per model span (same order as `model.spans`), the observations.
     pub obs: Vec<Option<TrialObs>>,
-    pub days: Vec<DayLine>,
+    /// The days table (`summary::day_rows`), rebuilt when marks change.
+    pub days: Vec<DayRow>,
     pub quit: bool,
 }
 

@@ -5,7 +5,7 @@
 //! (shown, flagged, retried on every refresh) instead of pretending.
 
 use super::action::Action;
-use super::derived::SessionView;
+use super::derived::{self, SessionView};
 use super::state::{NoteTarget, Overlay, Screen, SignalKind, State, Status, Tone, UndoEntry};
 use crate::marks::{self, MarkKind, MarkRow};
 
@@ -403,12 +403,25 @@ fn save_row(state: &mut State, session: usize, row: MarkRow, what: &str) {
 
 fn refold(state: &mut State, session: usize) {
     let sm = &mut state.marks[session];
-    if sm.unsaved.is_empty() {
-        sm.state = sm.journal.state();
+    let folded = if sm.unsaved.is_empty() {
+        sm.journal.state()
     } else {
         let rows: Vec<MarkRow> = sm.journal.rows.iter().chain(&sm.unsaved).cloned().collect();
-        sm.state = marks::fold(&rows);
+        marks::fold(&rows)
+    };
+    if folded != sm.state {
+        sm.state = folded;
+        // The days table is empty until start-up has read every journal.
+        if !state.days.is_empty() {
+            rebuild_days(state);
+        }
     }
+}
+
+/// Recompute the days table (its means leave out excluded trials).
+pub fn rebuild_days(state: &mut State) {
+    let marks: Vec<_> = state.marks.iter().map(|m| m.state.clone()).collect();
+    state.days = derived::day_table(&state.subject, &state.model, &state.obs, &marks);
 }
 
 /// Read what was appended to one session's journal since the last read (all of it the first

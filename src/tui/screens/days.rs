@@ -2,8 +2,7 @@
 //! omission dip, anticipatory licking, model δ at cue and reward), then learning curves
 //! across days and across all trials.
 
-use crate::marks::MarkKind;
-use crate::tui::derived::DayLine;
+use crate::summary::{CueDay, DayRow};
 use crate::tui::state::State;
 use crate::tui::theme::{Role, Theme};
 use crate::tui::widgets::{fill_row, num, put};
@@ -12,23 +11,38 @@ use ratatui::layout::Rect;
 
 const HEADER: &str = "session         trials excl susp   cue  reward  omit  licks  dcue  drew";
 
-fn row_text(state: &State, theme: &Theme, d: &DayLine) -> String {
-    let s = &state.subject.sessions[d.session];
-    let marks = &state.marks[d.session].state.marks;
-    let count = |k: MarkKind| marks.values().filter(|m| m.kind == k).count();
-    let name: String = theme.clean(&s.name).chars().take(15).collect();
+/// The cue the cue columns follow: the first cue with a reward delay (the predictive one).
+pub fn main_cue(state: &State) -> Option<String> {
+    let cues = state
+        .subject
+        .sessions
+        .iter()
+        .flat_map(|s| s.meta.cues.iter());
+    cues.clone()
+        .find(|c| c.reward_delay_s.is_some())
+        .or_else(|| cues.clone().next())
+        .map(|c| c.name.clone())
+}
+
+fn cue_day<'a>(d: &'a DayRow, cue: Option<&str>) -> Option<&'a CueDay> {
+    d.cues.iter().find(|c| Some(c.cue.as_str()) == cue)
+}
+
+fn row_text(theme: &Theme, d: &DayRow, cue: Option<&str>) -> String {
+    let name: String = theme.clean(&d.session).chars().take(15).collect();
+    let c = cue_day(d, cue);
     format!(
         "{:<15} {:>6} {:>4} {:>4} {:>5} {:>7} {:>5} {:>6} {:>5} {:>5}",
         name,
-        d.n_trials,
-        count(MarkKind::Exclude),
-        count(MarkKind::Suspect),
-        num(d.cue_response, 1),
-        num(d.reward_response, 1),
-        num(d.omission_dip, 1),
-        num(d.lick_rate, 1),
-        num(d.delta_cue, 2),
-        num(d.delta_reward, 2),
+        d.trials,
+        d.excluded,
+        d.suspect,
+        num(c.and_then(|c| c.response.value), 1),
+        num(d.reward_response.value, 1),
+        num(d.omission_dip.value, 1),
+        num(d.lick_rate.value, 1),
+        num(c.and_then(|c| c.model_delta).and_then(|m| m.value), 2),
+        num(d.model.and_then(|m| m.reward.value), 2),
     )
 }
 
@@ -92,9 +106,17 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         .saturating_sub(rows / 2)
         .min(n.saturating_sub(rows));
     let table = Rect::new(area.x, area.y + 1, area.width, table_h);
-    for (dy, d) in state.days.iter().skip(first).take(rows).enumerate() {
+    let cue = main_cue(state);
+    for (dy, (si, d)) in state
+        .days
+        .iter()
+        .enumerate()
+        .skip(first)
+        .take(rows)
+        .enumerate()
+    {
         let dy = dy as u16;
-        let current = d.session == state.session;
+        let current = si == state.session;
         if current {
             fill_row(buf, table, dy, theme.style(Role::Current));
         }
@@ -103,7 +125,14 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         } else {
             theme.style(Role::Plain)
         };
-        put(buf, table, 1, dy, &row_text(state, theme, d), style);
+        put(
+            buf,
+            table,
+            1,
+            dy,
+            &row_text(theme, d, cue.as_deref()),
+            style,
+        );
     }
     if curves == 0 {
         return;
@@ -111,27 +140,38 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
     let cy = area.y + 1 + table_h;
     let box_area = Rect::new(area.x, cy, area.width, curves);
     let w = area.width.saturating_sub(24) as usize;
-    let by_day = |f: fn(&DayLine) -> Option<f64>| -> Vec<f64> {
+    let by_day = |f: &dyn Fn(&DayRow) -> Option<f64>| -> Vec<f64> {
         state
             .days
             .iter()
             .map(|d| f(d).unwrap_or(f64::NAN))
             .collect()
     };
-    let per_trial_cue: Vec<f64> = state
-        .obs
-        .iter()
-        .map(|o| o.as_ref().and_then(|o| o.cue).unwrap_or(f64::NAN))
-        .collect();
-    let per_trial_rew: Vec<f64> = state
-        .obs
-        .iter()
-        .map(|o| o.as_ref().and_then(|o| o.reward).unwrap_or(f64::NAN))
-        .collect();
+    // Excluded trials are gaps, as in the day means.
+    let per_trial = |f: &dyn Fn(&crate::obs::TrialObs) -> Option<f64>| -> Vec<f64> {
+        state
+            .obs
+            .iter()
+            .map(|o| {
+                o.as_ref()
+                    .filter(|o| {
+                        let number = state.subject.sessions[o.session].trials[o.trial].number;
+                        !state.marks[o.session].state.is_excluded(number)
+                    })
+                    .and_then(f)
+                    .unwrap_or(f64::NAN)
+            })
+            .collect()
+    };
+    let per_trial_cue = per_trial(&|o| o.cue);
+    let per_trial_rew = per_trial(&|o| o.reward);
     let lines: [(&str, Vec<f64>); 5] = [
-        ("cue by day", by_day(|d| d.cue_response)),
-        ("reward by day", by_day(|d| d.reward_response)),
-        ("licks by day", by_day(|d| d.lick_rate)),
+        (
+            "cue by day",
+            by_day(&|d| cue_day(d, cue.as_deref()).and_then(|c| c.response.value)),
+        ),
+        ("reward by day", by_day(&|d| d.reward_response.value)),
+        ("licks by day", by_day(&|d| d.lick_rate.value)),
         ("cue, all trials", per_trial_cue),
         ("reward, all trials", per_trial_rew),
     ];
