@@ -406,3 +406,35 @@ fn helpers_give_a_name_and_a_valid_utc_time() {
     })
     .is_ok());
 }
+
+#[test]
+fn threads_of_one_process_appending_at_once_lose_nothing() {
+    // Each append opens its own file handle, so the file lock orders threads as it orders
+    // processes; the in-process cache of the file's end must not let them overlap either.
+    let dir = tempfile::tempdir().unwrap();
+    let threads: Vec<_> = (0..4)
+        .map(|t| {
+            let d = dir.path().to_path_buf();
+            std::thread::spawn(move || {
+                for n in 0..150 {
+                    let note = format!("thread {t}, row {n}\n\"second line\"");
+                    append(&d, &row(Some(n), MarkKind::Note, &format!("t{t}"), &note)).unwrap();
+                }
+            })
+        })
+        .collect();
+    for t in threads {
+        t.join().unwrap();
+    }
+    let j = read_journal(dir.path()).unwrap();
+    assert_eq!(j.rows.len(), 600);
+    for t in 0..4 {
+        let mine: Vec<i64> = j
+            .rows
+            .iter()
+            .filter(|r| r.reason == format!("t{t}"))
+            .map(|r| r.trial.unwrap())
+            .collect();
+        assert_eq!(mine, (0..150).collect::<Vec<_>>());
+    }
+}
