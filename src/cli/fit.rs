@@ -17,6 +17,12 @@ use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::{Duration, Instant};
 
 #[derive(clap::Args, Debug)]
+#[command(
+    after_help = "A fit runs the model hundreds of times and uses every core. Do not run it on a rig \
+computer while it is acquiring; run it at low priority instead: nice -n 19 trialdesk fit PATH\n\
+Observations of trials marked `exclude` leave the fit, but the model still learns from those \
+trials. Excluding trials after seeing a fit can bias it: compare with --ignore-marks."
+)]
 pub struct Args {
     /// A subject folder (all its sessions, in date order) or one session folder
     pub path: PathBuf,

@@ -164,7 +164,7 @@ impl GammaProfile {
             "γ is poorly constrained: halving or doubling its time constant (τ = {} s) lowers \
              the log-likelihood by less than {FLAT_DROP}; read γ as a rough value. With a fixed \
              cue–reward delay, γ is pinned mainly by the ratio of the learned cue response to \
-             the unpredicted-reward response (methods.md §4)",
+             the unpredicted-reward response",
             super::report::num(tau)
         )
     }

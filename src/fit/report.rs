@@ -175,8 +175,7 @@ pub fn text_report(
     };
     let _ = writeln!(
         s,
-        "model: TD({}), {} representation, {} s bins, {lambda_note}; gain and baselines by least squares",
-        "λ",
+        "model: TD(λ), {} representation, {} s bins, {lambda_note}; gain and baselines by least squares",
         out.model.name(),
         data.dt
     );
