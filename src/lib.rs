@@ -13,6 +13,7 @@ pub mod model;
 pub mod obs;
 pub mod photometry;
 pub mod simulate;
+pub mod suggest;
 pub mod summary;
 pub mod tui;
 pub mod util;
