@@ -256,6 +256,44 @@ fn out_file_and_exit_codes() {
 }
 
 #[test]
+fn a_session_without_the_signal_is_blank_with_a_warning() {
+    let dir = tempfile::tempdir().unwrap();
+    let subj = dir.path().join("m-007");
+    copy_dir(&fixture().join("m-007"), &subj);
+    std::fs::remove_file(subj.join("2026-04-02/spikes.csv")).unwrap();
+    let out = trialdesk(&[
+        subj.to_str().unwrap(),
+        "--signal",
+        "spikes",
+        "--format",
+        "csv",
+    ]);
+    assert_eq!(out.status.code(), Some(0), "{}", stderr(&out));
+    assert!(
+        stderr(&out).contains("session 2026-04-02 has no spike data"),
+        "{}",
+        stderr(&out)
+    );
+    let got = read_long(&stdout(&out));
+    let day2 = &got[&("2026-04-02".into(), "cue_response".into(), "tone-hi".into())];
+    assert_eq!(day2, &(String::new(), "0".to_string()));
+    // Licks are still measured that day, and day 1 is untouched.
+    assert_ne!(
+        got[&(
+            "2026-04-02".into(),
+            "anticipatory_lick_rate".into(),
+            "tone-hi".into()
+        )]
+            .0,
+        ""
+    );
+    assert_ne!(
+        got[&("2026-04-01".into(), "cue_response".into(), "tone-hi".into())].0,
+        ""
+    );
+}
+
+#[test]
 fn single_session_folder_has_no_model_columns() {
     let s = fixture().join("m-007/2026-04-02");
     let out = trialdesk(&[s.to_str().unwrap(), "--alpha", "0.1", "--gamma", "0.9"]);

@@ -6,7 +6,7 @@ use crate::data::{load, Subject};
 use crate::fit::saved::{load_saved, saved_path, SavedFit};
 use crate::marks::{read_journal, MarkKind, MarkState};
 use crate::model::{layout_subject, Representation, TdParams, DEFAULT_DT};
-use crate::obs::{observe, ObsOptions, Signal};
+use crate::obs::{observe_lenient, ObsOptions, Signal};
 use crate::summary::cohort::{cohort_rows, cohort_subject_dirs};
 use crate::summary::render::{self, Format, SubjectSummary};
 use crate::summary::{day_rows, DayRow, ModelTraces};
@@ -178,7 +178,15 @@ fn summarise(dir: &Path, args: &Args) -> Result<SubjectSummary, CliError> {
         }
     };
     let opts = obs_options(&subject, &args.obs, saved.as_ref())?;
-    let obs = observe(&subject, &opts).map_err(|e| CliError::failed(e.to_string()))?;
+    let (obs, problems) =
+        observe_lenient(&subject, &opts).map_err(|e| CliError::usage(e.to_string()))?;
+    if !problems.is_empty() && obs.iter().all(|o| o.cue.is_none() && o.reward.is_none()) {
+        // Nothing measured anywhere: that is a failed job, not a table of blanks.
+        return Err(CliError::failed(problems[0].to_string()));
+    }
+    for p in &problems {
+        warn(format!("{p}; its responses are left blank"));
+    }
     let marks = read_marks(&subject)?;
 
     let mut notes = vec![format!(

@@ -223,16 +223,31 @@ pub fn alignment_time(trial: &Trial) -> Option<f64> {
 }
 
 /// Observations of every trial the model lays out (see [`crate::model::layout_subject`];
-/// trials it skips are skipped here too), in training order.
+/// trials it skips are skipped here too), in training order. Fails if any session with
+/// trials lacks the signal (or the chosen unit).
 pub fn observe(subject: &Subject, opts: &ObsOptions) -> Result<Vec<TrialObs>, ObsError> {
+    let (obs, mut problems) = observe_lenient(subject, opts)?;
+    match problems.is_empty() {
+        true => Ok(obs),
+        false => Err(problems.swap_remove(0)),
+    }
+}
+
+/// As [`observe`], but a session without the signal (or unit) still gives its trials, with
+/// `cue` and `reward` at `None` (kinds and lick rates stay), and its error is returned beside
+/// them — for tables that should show what there is. Invalid windows still fail.
+pub fn observe_lenient(
+    subject: &Subject,
+    opts: &ObsOptions,
+) -> Result<(Vec<TrialObs>, Vec<ObsError>), ObsError> {
     opts.validate()?;
     let spans = layout_subject(subject, DEFAULT_DT);
     let mut out = Vec::with_capacity(spans.len());
+    let mut problems = Vec::new();
     // Spans come session by session: plan every window of a session, then measure them all
     // in one sweep per spike train (SessionActivity::means).
     for chunk in spans.chunk_by(|a, b| a.session == b.session) {
         let session = &subject.sessions[chunk[0].session];
-        let act = SessionActivity::new(session, &opts.signal)?;
         let plans: Vec<(usize, Plan)> = chunk
             .iter()
             .filter_map(|span| {
@@ -241,7 +256,13 @@ pub fn observe(subject: &Subject, opts: &ObsOptions) -> Result<Vec<TrialObs>, Ob
             })
             .collect();
         let windows: Vec<(f64, f64)> = plans.iter().flat_map(|(_, p)| p.windows()).collect();
-        let means = act.means(&windows);
+        let means = match SessionActivity::new(session, &opts.signal) {
+            Ok(act) => act.means(&windows),
+            Err(e) => {
+                problems.push(e);
+                vec![None; windows.len()]
+            }
+        };
         for ((ti, p), m) in plans.iter().zip(means.chunks_exact(3)) {
             out.push(TrialObs {
                 session: chunk[0].session,
@@ -250,7 +271,7 @@ pub fn observe(subject: &Subject, opts: &ObsOptions) -> Result<Vec<TrialObs>, Ob
             });
         }
     }
-    Ok(out)
+    Ok((out, problems))
 }
 
 /// Observations of one trial (`session`/`trial` left at 0 for the caller to fill).
