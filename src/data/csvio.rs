@@ -8,8 +8,7 @@
 use super::diag::{Diagnostic, Severity};
 use super::number::parse_plain_decimal;
 use std::fmt;
-use std::fs::File;
-use std::io::{self, BufRead, BufReader, Read};
+use std::io::{self, BufRead, Read};
 use std::path::{Path, PathBuf};
 
 /// Longest accepted physical line. Real rows are tens of bytes; a longer line is a wrong file.
@@ -178,6 +177,7 @@ pub struct Table<R: BufRead> {
     rdr: csv::Reader<LineGuard<R>>,
     record: csv::ByteRecord,
     header_len: usize,
+    header_line: u64,
     /// Field index of each requested column (`None`: optional column absent).
     columns: Vec<Option<usize>>,
     line: u64,
@@ -202,31 +202,6 @@ pub const fn optional(name: &str) -> ColumnSpec<'_> {
         name,
         required: false,
     }
-}
-
-/// Open `path` as a table; `None` (with diagnostics in `diags`) if it cannot be read at all.
-pub fn open_table(
-    path: &Path,
-    specs: &[ColumnSpec],
-    out: &mut Vec<Diagnostic>,
-) -> Option<Table<BufReader<File>>> {
-    let file = match File::open(path) {
-        Ok(f) => f,
-        Err(e) => {
-            out.push(Diagnostic::error(path, format!("cannot open: {e}")));
-            return None;
-        }
-    };
-    match file.metadata() {
-        Ok(m) if m.is_dir() => {
-            out.push(
-                Diagnostic::error(path, "is a folder").expected("a CSV file with a header row"),
-            );
-            return None;
-        }
-        _ => {}
-    }
-    Table::new(path, BufReader::with_capacity(1 << 16, file), specs, out)
 }
 
 impl<R: BufRead> Table<R> {
@@ -254,10 +229,12 @@ impl<R: BufRead> Table<R> {
                 return None;
             }
         };
+        // The parser skips blank lines before the header but still positions it at line 1.
+        let header_line = header.position().map_or(1, |p| p.line());
         if !got || header.iter().all(|f| f.iter().all(u8::is_ascii_whitespace)) {
             diags.push(
                 Diagnostic::error(path, "empty file: no header row")
-                    .at_line(1)
+                    .at_line(header_line)
                     .expected(format!("a header row naming the columns {expected_header}")),
             );
             diags.drain_into(out);
@@ -271,7 +248,7 @@ impl<R: BufRead> Table<R> {
             Err(_) => {
                 diags.push(
                     Diagnostic::error(path, "header is not valid UTF-8 text")
-                        .at_line(1)
+                        .at_line(header_line)
                         .expected("a UTF-8 text file"),
                 );
                 diags.drain_into(out);
@@ -286,7 +263,7 @@ impl<R: BufRead> Table<R> {
             if found.next().is_some() {
                 diags.push(
                     Diagnostic::error(path, "column appears more than once in the header")
-                        .at_line(1)
+                        .at_line(header_line)
                         .column(spec.name)
                         .expected("each column named once"),
                 );
@@ -299,7 +276,7 @@ impl<R: BufRead> Table<R> {
                 };
                 diags.push(
                     Diagnostic::error(path, format!("required column is missing{hint}"))
-                        .at_line(1)
+                        .at_line(header_line)
                         .column(spec.name)
                         .expected(format!("a header with the columns {expected_header}")),
                 );
@@ -315,6 +292,7 @@ impl<R: BufRead> Table<R> {
             rdr,
             record: csv::ByteRecord::new(),
             header_len: header.len(),
+            header_line,
             columns,
             line: 1,
             diags,
@@ -371,6 +349,11 @@ impl<R: BufRead> Table<R> {
             }
         }
         "row".to_string()
+    }
+
+    /// Line of the header as the parser positions it.
+    pub fn header_line(&self) -> u64 {
+        self.header_line
     }
 
     /// Line of the current row (the header is line 1).

@@ -123,7 +123,7 @@ pub fn read_trials<R: BufRead>(
     }
     if rows_seen == 0 && t.diags.errors == 0 {
         let d = Diagnostic::error(path, "no trials: the table has a header but no rows")
-            .at_line(1)
+            .at_line(t.header_line())
             .expected("one row per trial under the header");
         t.diags.push(d);
     }
@@ -189,10 +189,8 @@ pub fn read_spikes<R: BufRead>(
     let mut cached: Option<usize> = None;
     while t.next_row() {
         let line = t.line();
-        let Ok(time) = t.non_negative(1, "time_s", "a spike time in seconds") else {
-            continue;
-        };
-        let Some(time) = t.require(Ok(time), "time_s", "a spike time in seconds") else {
+        let v = t.non_negative(1, "time_s", "a spike time in seconds");
+        let Some(time) = t.require(v, "time_s", "a spike time in seconds") else {
             continue;
         };
         let unit = t.bytes(0);
