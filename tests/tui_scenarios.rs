@@ -319,3 +319,15 @@ fn days_table_follows_marks() {
         .to_string();
     assert!(row.contains("    12    1    1"), "{row}");
 }
+
+#[test]
+fn session_notes_show_on_the_session_screen() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    press(&mut st, "Npatch cord replaced<enter>2");
+    let text = frame_text(80, 24, &st);
+    assert!(
+        text.contains("session notes: tester: patch cord replaced"),
+        "{text}"
+    );
+}

@@ -25,12 +25,12 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         ),
     };
     put(buf, area, 1, 0, &title, theme.style(Role::Title));
-    if area.height < 5 {
+    if area.height < 6 {
         return;
     }
-    let rows = Rect::new(area.x, area.y + 1, area.width, area.height - 4);
+    let rows = Rect::new(area.x, area.y + 1, area.width, area.height - 5);
     heat::render(buf, rows, state, theme, &axis, GUTTER);
-    let foot = Rect::new(area.x, area.y + area.height - 3, area.width, 2);
+    let foot = Rect::new(area.x, area.y + area.height - 4, area.width, 2);
     raster::render_events(buf, foot, state, theme, &axis, GUTTER);
     let shades: String = theme.shades().concat();
     let legend = format!(
@@ -44,8 +44,25 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         buf,
         area,
         1,
-        area.height - 1,
+        area.height - 2,
         &legend,
         theme.style(Role::Dim),
+    );
+    let notes: Vec<String> = state
+        .notes_of(None)
+        .map(|r| format!("{}: {}", theme.clean(&r.reviewer), theme.clean(&r.note)))
+        .collect();
+    let notes = if notes.is_empty() {
+        "session notes: none".to_string()
+    } else {
+        format!("session notes: {}", notes.join(" | "))
+    };
+    put(
+        buf,
+        area,
+        1,
+        area.height - 1,
+        &notes,
+        theme.style(Role::Plain),
     );
 }

@@ -100,6 +100,9 @@ pub fn render(
                     &format!("{:>w$}", trial.number),
                     num_style,
                 );
+                if current {
+                    put(buf, area, 1, dy, theme.pointer(), num_style);
+                }
                 let trace = &state.view.traces[t];
                 let cols = axis.resample_mean(trace, state.view.from_s, state.view.bin_s);
                 for (c, v) in cols.iter().enumerate() {
