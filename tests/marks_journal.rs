@@ -438,3 +438,20 @@ fn threads_of_one_process_appending_at_once_lose_nothing() {
         assert_eq!(mine, (0..150).collect::<Vec<_>>());
     }
 }
+
+#[test]
+fn a_reader_does_not_hang_on_a_writer_stuck_holding_the_lock() {
+    let dir = tempfile::tempdir().unwrap();
+    append(dir.path(), &row(Some(1), MarkKind::Exclude, "", "")).unwrap();
+    let stuck = fs::OpenOptions::new()
+        .append(true)
+        .open(dir.path().join(MARKS_FILE))
+        .unwrap();
+    stuck.lock().unwrap();
+    let started = std::time::Instant::now();
+    let j = read_journal(dir.path()).unwrap();
+    assert_eq!(j.rows.len(), 1);
+    let waited = started.elapsed().as_secs_f64();
+    assert!((1.5..10.0).contains(&waited), "waited {waited} s");
+    stuck.unlock().unwrap();
+}

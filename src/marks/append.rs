@@ -3,8 +3,8 @@
 
 use super::csvline::{is_blank, parse_fields, push_field, BoundaryScan, MAX_RECORD_BYTES};
 use super::read::{
-    fingerprint, identity, is_header_prefix, parse_row, valid_at, Columns, COLUMNS, HEADER_LINE,
-    MAX_JOURNAL_BYTES,
+    fingerprint, identity, is_header_prefix, lock_within, parse_row, valid_at, Columns, COLUMNS,
+    HEADER_LINE, MAX_JOURNAL_BYTES,
 };
 use super::{MarkKind, MarkRow, MarksError, MARKS_FILE, TORN_LINE_REASON};
 use std::collections::BTreeMap;
@@ -21,6 +21,11 @@ static CLEAN_ENDS: Mutex<BTreeMap<FileId, (u64, Vec<u8>)>> = Mutex::new(BTreeMap
 
 /// (device, inode).
 type FileId = (u64, u64);
+
+/// How long an append waits for other writers. Each holds the lock for one write and one
+/// sync (milliseconds); a longer wait means a stuck process, and an error says so instead of
+/// freezing the reviewer.
+const WRITE_LOCK_WAIT: std::time::Duration = std::time::Duration::from_secs(10);
 
 /// Append one row to the session's journal, durably (written and synced to disk before
 /// returning), under an exclusive file lock so concurrent reviewers lose nothing.
@@ -42,7 +47,13 @@ pub fn append(session_dir: &Path, row: &MarkRow) -> Result<(), MarksError> {
         .create(true)
         .open(&path)
         .map_err(|e| MarksError::io(&path, e))?;
-    file.lock().map_err(|e| MarksError::io(&path, e))?;
+    lock_within(&file, &path, WRITE_LOCK_WAIT, false).map_err(|e| match e {
+        MarksError::Invalid { path, message } => MarksError::Invalid {
+            path,
+            message: format!("{message}; the mark was not saved"),
+        },
+        other => other,
+    })?;
     let written = write_locked(&mut file, &path, &line, &row.reviewer);
     let _ = file.unlock();
     if written? {

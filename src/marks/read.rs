@@ -3,9 +3,10 @@
 
 use super::csvline::{is_blank, parse_fields, RawRecord, Records, MAX_RECORD_BYTES};
 use super::{Journal, MarkKind, MarkRow, MarksError, MARKS_FILE};
-use std::fs::File;
+use std::fs::{File, TryLockError};
 use std::io::{Read, Seek, SeekFrom};
 use std::path::Path;
+use std::time::Duration;
 
 /// Largest journal read. A reviewer writes a few hundred bytes per action; a file this size is
 /// the wrong file, and refusing it keeps memory bounded.
@@ -89,9 +90,10 @@ impl Journal {
             Ok(_) => {}
         }
         let mut file = File::open(&path).map_err(|e| MarksError::io(&path, e))?;
-        // Best effort: a file system without locks still reads, it just may see a write in
-        // progress (reported as a torn tail, then picked up by the next refresh).
-        let _ = file.lock_shared();
+        // Best effort: without the lock (a file system without locks, or a writer stuck
+        // holding it) the read may see a write in progress, reported as a torn tail and
+        // picked up whole by the next refresh. Waiting forever would freeze the reviewer.
+        let _ = lock_within(&file, &path, READ_LOCK_WAIT, true);
         let meta = file.metadata().map_err(|e| MarksError::io(&path, e))?;
         let len = meta.len();
         if len > MAX_JOURNAL_BYTES {
@@ -149,6 +151,54 @@ impl Journal {
             fingerprint,
         };
         Ok(added)
+    }
+}
+
+/// How long a read waits for appenders to finish before reading anyway.
+const READ_LOCK_WAIT: Duration = Duration::from_secs(2);
+
+/// Take the file lock (shared or exclusive), waiting at most `wait`.
+///
+/// Uncontended, this is one non-blocking call. Otherwise a helper thread waits in the kernel's
+/// queue on a second handle to the same open file (the lock belongs to the open file, so it
+/// serves this handle too), which keeps writers in arrival order. If the wait runs out the
+/// helper is left to take and at once drop the lock when the stuck holder lets go.
+pub(crate) fn lock_within(
+    file: &File,
+    path: &Path,
+    wait: Duration,
+    shared: bool,
+) -> Result<(), MarksError> {
+    let attempt = if shared {
+        file.try_lock_shared()
+    } else {
+        file.try_lock()
+    };
+    match attempt {
+        Ok(()) => return Ok(()),
+        Err(TryLockError::Error(e)) => return Err(MarksError::io(path, e)),
+        Err(TryLockError::WouldBlock) => {}
+    }
+    let handle = file.try_clone().map_err(|e| MarksError::io(path, e))?;
+    let (tx, rx) = std::sync::mpsc::channel();
+    std::thread::spawn(move || {
+        let got = if shared {
+            handle.lock_shared()
+        } else {
+            handle.lock()
+        };
+        let _ = tx.send(got);
+    });
+    match rx.recv_timeout(wait) {
+        Ok(Ok(())) => Ok(()),
+        Ok(Err(e)) => Err(MarksError::io(path, e)),
+        Err(_) => Err(MarksError::invalid(
+            path,
+            format!(
+                "locked by another process for over {} s (a reviewer stuck mid-save?)",
+                wait.as_secs()
+            ),
+        )),
     }
 }
 
