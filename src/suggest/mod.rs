@@ -216,6 +216,17 @@ fn last_event(session: &Session, trial: &Trial) -> Option<f64> {
     Some(t0.max(expected).max(trial.reward_s.unwrap_or(t0)))
 }
 
+/// Median of a non-empty buffer, reordering it (mean of the middle two for an even count).
+fn median_of(v: &mut [f64]) -> f64 {
+    let mid = v.len() / 2;
+    let upper = *v.select_nth_unstable_by(mid, f64::total_cmp).1;
+    if v.len() % 2 == 1 {
+        upper
+    } else {
+        0.5 * (v[..mid].iter().copied().fold(f64::NEG_INFINITY, f64::max) + upper)
+    }
+}
+
 /// A number for a reason text: at most `digits` decimals, trailing zeros dropped.
 fn num(x: f64, digits: usize) -> String {
     let s = format!("{x:.digits$}");

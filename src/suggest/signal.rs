@@ -8,9 +8,8 @@
 //! preprocessing once per session.
 
 use super::config::{ControlFitPoor, ControlMotion, SignalClipped};
-use super::{align, last_event, num, RuleSet, Suggestion};
+use super::{align, last_event, median_of, num, RuleSet, Suggestion};
 use crate::data::{Photometry, Session, Trial};
-use crate::photometry::regress::median_of;
 use crate::photometry::{preprocess, PreprocessOptions};
 
 pub(super) fn suggest(

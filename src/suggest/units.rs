@@ -10,10 +10,9 @@
 //! itself; the flags then land on the part where it was still there, which still shows the drift.
 
 use super::config::UnitDrift;
-use super::{align, num, Suggestion};
+use super::{align, median_of, num, Suggestion};
 use crate::data::{Session, Spikes};
 use crate::obs::activity::count_in;
-use crate::photometry::regress::median_of;
 
 /// One unit's finding on one trial.
 struct Drift<'a> {
