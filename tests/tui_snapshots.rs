@@ -99,3 +99,36 @@ fn every_size_draws_without_panic() {
     let small = frame_text(30, 8, &st);
     assert!(small.contains("terminal too"), "{small}");
 }
+
+#[test]
+fn no_color_draws_without_colours() {
+    use ratatui::style::Color;
+    let (_tmp, dir) = fixture_copy();
+    for color in [false, true] {
+        let mut opts = options();
+        opts.color = color;
+        let mut st = state_with(
+            &dir,
+            opts,
+            trialdesk::tui::keymap::Keymap::build(&[]).unwrap(),
+        );
+        press(&mut st, "x1j");
+        let mut coloured = 0;
+        for keys in ["1", "2", "3", "4"] {
+            press(&mut st, keys);
+            let t = terminal(80, 24, &st);
+            coloured += t
+                .backend()
+                .buffer()
+                .content()
+                .iter()
+                .filter(|c| c.fg != Color::Reset || c.bg != Color::Reset)
+                .count();
+        }
+        assert_eq!(
+            coloured > 0,
+            color,
+            "colour {color}: {coloured} coloured cells"
+        );
+    }
+}

@@ -72,7 +72,7 @@ pub fn run(args: Args) -> CmdResult {
         .unwrap_or_else(crate::marks::reviewer_name);
     let opts = Options {
         ascii: args.ascii,
-        color: std::env::var_os("NO_COLOR").is_none_or(|v| v.is_empty()),
+        color: color_allowed(std::env::var_os("NO_COLOR").as_deref()),
         reviewer,
         reasons: cfg
             .reasons
@@ -119,4 +119,22 @@ pub fn run(args: Args) -> CmdResult {
         )));
     }
     Ok(0)
+}
+
+/// Colour unless NO_COLOR is set to a non-empty value (no-color.org).
+pub fn color_allowed(no_color: Option<&std::ffi::OsStr>) -> bool {
+    no_color.is_none_or(|v| v.is_empty())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::ffi::OsStr;
+
+    #[test]
+    fn no_color_rule() {
+        assert!(color_allowed(None));
+        assert!(color_allowed(Some(OsStr::new(""))));
+        assert!(!color_allowed(Some(OsStr::new("1"))));
+    }
 }
