@@ -10,7 +10,7 @@ use std::path::PathBuf;
 use trialdesk::data::Photometry;
 use trialdesk::photometry::{
     bleach::{fit_bleaching, BleachModel, BleachOptions},
-    preprocess, regress, zscore_session, zscore_to_baseline, BaselineFit, ControlFit, FitScope,
+    median, preprocess, zscore_session, zscore_to_baseline, BaselineFit, ControlFit, FitScope,
     PreprocessOptions, Processed, RobustWeight, ZScoreMode,
 };
 
@@ -329,6 +329,6 @@ fn median_helper_matches_numpy_convention() {
     // Closed form: numpy.median averages the two middle values of an even count.
     let mut odd = [5.0, 1.0, 3.0];
     let mut even = [4.0, 1.0, 3.0, 2.0];
-    assert_eq!(regress::median_of(&mut odd), 3.0);
-    assert_eq!(regress::median_of(&mut even), 2.5);
+    assert_eq!(median::median_of(&mut odd), 3.0);
+    assert_eq!(median::median_of(&mut even), 2.5);
 }

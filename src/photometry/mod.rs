@@ -1,30 +1,46 @@
 //! Fiber-photometry preprocessing: raw sensor trace (+ optional isosbestic control) → ΔF/F.
 //!
-//! Start at [`preprocess`]. With a control channel, the control is fitted to the signal,
-//! F̂ = a + b·control, and ΔF/F = (signal − F̂)/F̂, as in Lerner et al. 2015 (Cell 162:635),
-//! whose fit was ordinary least squares over the session. Our default fit is IRLS with Tukey's
-//! bisquare weight (c = 4.685) instead, because Keevers et al. 2025 (Neurophotonics 12:025003)
-//! found IRLS beat OLS: the dopamine transients are in the signal only, and OLS lets them pull
-//! the line. OLS stays an option. A running-window fit ([`FitScope::Sliding`]) follows a
-//! coupling that drifts over a long session.
+//! Start at [`preprocess`]; [`PreprocessOptions::default`] holds the defaults named below.
 //!
-//! Without a control (or with `use_control = false`, e.g. for a sensor that is not isosbestic
-//! near 405 nm), the baseline is a photobleaching curve, a constant plus two decaying exponentials
-//! (Keevers' bleaching model; [`bleach`]), and ΔF/F is taken against it.
+//! **With a control channel** the control is fitted to the signal, F̂ = a + b·control, and
+//! ΔF/F = (signal − F̂)/F̂: the isosbestic correction of Lerner et al. 2015 (Cell 162:635), who
+//! fitted the control by least squares over the session (that detail is from the team's methods
+//! notes, marked there as from memory). Deviation: our **default fit is IRLS** with Tukey's
+//! bisquare weight (c = 4.685, MAD scale; [`regress::irls`]) rather than OLS, because Keevers et
+//! al. 2025 (Neurophotonics 12:025003) found IRLS beat OLS — dopamine transients live in the
+//! signal only and pull a least-squares line up. OLS ([`ControlFit::Ols`]) and Huber weights
+//! are options. The default fits **one line for the whole session**; [`FitScope::Sliding`] fits
+//! a running regression over a window (e.g. 60 s) for long sessions whose coupling drifts.
+//! `r_squared` (unweighted, signal vs F̂) is reported as a QC figure.
 //!
-//! Deviations from the published recipes: no demodulation or low-pass filtering here (the
-//! `photometry.csv` trace is taken as already demodulated and downsampled); no airPLS.
-//! z-scoring ([`zscore`]) is separate: by default each trial against its own pre-cue baseline,
-//! −1 s to 0 s.
+//! **Without a control** (or `use_control = false`, for sensors that are not isosbestic near
+//! 405 nm), the baseline is a photobleaching curve: a constant plus two decaying exponentials
+//! (Keevers' bleaching model), fitted by variable projection ([`bleach`]); ΔF/F against it.
+//! This cannot remove motion artifacts — only a control channel can.
 //!
-//! Everything here is pure computation on [`Photometry`]; errors name the sample and time.
+//! **z-score** ([`zscore`]): by default each trial against its own pre-cue baseline, −1 s to
+//! 0 s before the cue, with the sample SD; session-wide or none are options. `preprocess` does
+//! not apply it (it has no trial times); [`Processed::normaliser`] does, per trial.
+//!
+//! Not done here, deliberately: demodulation and low-pass filtering (`photometry.csv` is taken
+//! as already demodulated and downsampled); the Martianova et al. 2019 (JoVE) recipe — airPLS
+//! baseline, z-scoring each channel before a Lasso fit, z_signal − fitted z_reference — is not
+//! implemented; its robust-fit idea is covered by IRLS.
+//!
+//! F̂ must stay above `min_baseline_fraction` (default 1e-3) of the mean signal, else ΔF/F is
+//! refused with an error naming the sample, never returned as ±inf. Bad input (length
+//! mismatch, NaN, time going backwards, a constant channel) is an error naming channel, sample
+//! index and time. Pure computation on [`Photometry`]; no terminal code.
 
 pub mod bleach;
+pub mod median;
 pub mod regress;
+pub mod sliding;
 pub mod zscore;
 
 pub use bleach::{BleachFit, BleachModel, BleachOptions, ExpTerm};
-pub use regress::{IrlsLimits, LineFit, RobustWeight, SlidingFit};
+pub use regress::{IrlsLimits, LineFit, RobustWeight};
+pub use sliding::SlidingFit;
 pub use zscore::{zscore_session, zscore_to_baseline, Normaliser, ZScale, ZScoreMode};
 
 use crate::data::Photometry;
@@ -425,7 +441,7 @@ fn control_baseline(
         FitScope::Sliding { window_s } => {
             let mut weights = Vec::new();
             let robust = robust.map(|w| (w, opts.irls, &mut weights));
-            let fit = regress::sliding(&p.time_s, control, &p.signal, window_s, robust, out)?;
+            let fit = sliding::sliding(&p.time_s, control, &p.signal, window_s, robust, out)?;
             let method = format!(
                 "ΔF/F against the isosbestic control fitted to the signal by {fit_name} in a \
                  running {window_s} s window (Lerner et al. 2015, fitted locally)"

@@ -229,7 +229,7 @@ fn bracketed_median_equals_full_select() {
             Some(10.0),
         ] {
             let mut scratch = vec![0.0; n];
-            let got = regress::median_abs(n, |i| values[i], &mut scratch, hint);
+            let got = median::median_abs(n, |i| values[i], &mut scratch, hint);
             assert_eq!(got, want, "n = {n}, hint = {hint:?}");
         }
     }
