@@ -331,3 +331,69 @@ fn session_notes_show_on_the_session_screen() {
         "{text}"
     );
 }
+
+#[test]
+fn saved_fit_parameters_are_used_and_labelled() {
+    use trialdesk::fit::saved::{save, Baselines, SavedFit};
+    use trialdesk::tui::derived::{ModelSettings, ParamSource};
+    let (_tmp, dir) = fixture_copy();
+    let fit = SavedFit {
+        alpha: 0.2,
+        gamma: 0.95,
+        lambda: 0.5,
+        dt: 0.05,
+        representation: "csc".into(),
+        gain: 2.0,
+        baselines: Baselines {
+            cue: Some(1.0),
+            reward: Some(0.5),
+        },
+        fitted_at: "2026-03-04T10:00:00Z".into(),
+        n_excluded: 1,
+        ignore_marks: false,
+        lambda_fitted: true,
+        log_likelihood: Some(-12.5),
+        n_observations: Some(40),
+        unit: None,
+        latency_s: None,
+        cue_window_s: None,
+        reward_window_s: None,
+        baseline_window_s: None,
+    };
+    save(&dir, &fit).unwrap();
+    let (settings, problem) = ModelSettings::from_subject(&dir);
+    assert_eq!(problem, None);
+    assert_eq!(settings.params.alpha, 0.2);
+    assert!(matches!(settings.source, ParamSource::SavedFit { .. }));
+    let loaded = trialdesk::data::load(&dir).unwrap();
+    let mut st = trialdesk::tui::app::build_state(
+        loaded.subject,
+        options(),
+        Keymap::build(&[]).unwrap(),
+        &settings,
+    );
+    let trial = frame_text(100, 30, &st);
+    assert!(
+        trial.contains("model value, saved fit (trialdesk-fit.toml"),
+        "{trial}"
+    );
+    press(&mut st, "4");
+    let fit_screen = frame_text(100, 30, &st);
+    assert!(fit_screen.contains("alpha 0.2  gamma 0.95"), "{fit_screen}");
+    assert!(fit_screen.contains("cue pred"), "{fit_screen}");
+    assert!(
+        fit_screen.contains("log-likelihood -12.5 over 40 observations"),
+        "{fit_screen}"
+    );
+    // Trial 1: reward prediction = 0.5 + 2·Σδ; Σδ on the first trial is the whole reward (4).
+    let row = fit_screen
+        .lines()
+        .find(|l| l.trim_start().starts_with("▸   1") || l.contains("    1 rew"))
+        .unwrap();
+    assert!(row.contains("8.50"), "{row}");
+
+    std::fs::write(dir.join("trialdesk-fit.toml"), "alpha = \"fast\"\n").unwrap();
+    let (settings, problem) = ModelSettings::from_subject(&dir);
+    assert_eq!(settings.source, ParamSource::Defaults);
+    assert!(problem.unwrap().starts_with("saved fit not used:"));
+}
