@@ -213,6 +213,7 @@ fn signal_clipped(session: &Session, p: &Photometry, c: &SignalClipped, out: &mu
                     )
                 })
             });
+            let end = last_event(session, trial).unwrap_or(t0) + c.to_s;
             flat.or_else(|| {
                 // Include the step into the window's first sample.
                 (a.max(1)..b)
@@ -225,6 +226,25 @@ fn signal_clipped(session: &Session, p: &Photometry, c: &SignalClipped, out: &mu
                             num(step, 4)
                         )
                     })
+            })
+            .or_else(|| {
+                let (first, last) = (time[a], time[b - 1]);
+                if first - (t0 + c.from_s) > max_gap {
+                    Some(format!(
+                        "recording starts {} s after onset",
+                        num(first - t0, 2)
+                    ))
+                } else if end - last > max_gap {
+                    let when = match last - t0 {
+                        d if d < 0.0 => format!("{} s before onset", num(-d, 2)),
+                        d => format!("{} s after onset", num(d, 2)),
+                    };
+                    Some(format!(
+                        "recording stops {when}, before the trial window ends"
+                    ))
+                } else {
+                    None
+                }
             })
         };
         if let Some(reason) = reason {
