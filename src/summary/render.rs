@@ -41,16 +41,86 @@ pub fn render(
 struct Table {
     title: String,
     headers: Vec<String>,
-    rows: Vec<Vec<String>>,
+    rows: Vec<Vec<Cell>>,
     left: std::ops::Range<usize>,
+    /// Numeric columns in the same unit share one number of decimals: the last `licks` columns
+    /// are licks/s, the other numbers the response unit.
+    licks: usize,
+}
+
+/// A table cell: text as is, or a number whose decimals are chosen per column.
+enum Cell {
+    Text(String),
+    Num(Option<f64>),
+}
+
+impl From<String> for Cell {
+    fn from(s: String) -> Self {
+        Cell::Text(s)
+    }
+}
+
+/// Decimals that show about three significant digits of a column's largest value (at least
+/// 2, at most 6): photometry responses of 0.03 and firing rates of 12.5 both stay readable.
+fn decimals_for(values: impl Iterator<Item = f64>) -> usize {
+    let max = values.map(f64::abs).fold(0.0, f64::max);
+    if max <= 0.0 || !max.is_finite() {
+        return 2;
+    }
+    (2.0 - max.log10().floor()).clamp(2.0, 6.0) as usize
+}
+
+fn fmt_num(v: Option<f64>, decimals: usize) -> String {
+    match v {
+        None => "-".to_string(),
+        Some(v) => {
+            let s = format!("{v:.decimals$}");
+            // No "-0.00": a value that rounds to zero is shown as zero.
+            if s.starts_with('-') && s[1..].chars().all(|c| c == '0' || c == '.') {
+                s[1..].to_string()
+            } else {
+                s
+            }
+        }
+    }
 }
 
 impl Table {
+    /// The cells as strings, numbers formatted per column.
+    fn formatted(&self) -> Vec<Vec<String>> {
+        let n = self.headers.len();
+        let unit_of = |c: usize| usize::from(c + self.licks >= n);
+        let decimals: Vec<usize> = (0..2)
+            .map(|unit| {
+                decimals_for(self.rows.iter().flat_map(|r| {
+                    r.iter()
+                        .enumerate()
+                        .filter_map(move |(c, cell)| match cell {
+                            Cell::Num(v) if unit_of(c) == unit => *v,
+                            _ => None,
+                        })
+                }))
+            })
+            .collect();
+        self.rows
+            .iter()
+            .map(|r| {
+                r.iter()
+                    .enumerate()
+                    .map(|(c, cell)| match cell {
+                        Cell::Text(t) => t.clone(),
+                        Cell::Num(v) => fmt_num(*v, decimals[unit_of(c)]),
+                    })
+                    .collect()
+            })
+            .collect()
+    }
+
     fn text(&self, out: &mut String) {
+        let rows = self.formatted();
         let widths: Vec<usize> = (0..self.headers.len())
             .map(|c| {
-                self.rows
-                    .iter()
+                rows.iter()
                     .map(|r| r[c].chars().count())
                     .chain([self.headers[c].chars().count()])
                     .max()
@@ -59,7 +129,7 @@ impl Table {
             .collect();
         out.push_str(&self.title);
         out.push('\n');
-        for row in std::iter::once(&self.headers).chain(&self.rows) {
+        for row in std::iter::once(&self.headers).chain(&rows) {
             let cells: Vec<String> = row
                 .iter()
                 .enumerate()
@@ -95,7 +165,7 @@ impl Table {
             })
             .collect();
         out.push_str(&format!("|{}|\n", align.join("|")));
-        for row in &self.rows {
+        for row in &self.formatted() {
             out.push_str(&line(row));
         }
         out.push('\n');
@@ -106,11 +176,8 @@ fn md_escape(s: &str) -> String {
     s.replace('\\', "\\\\").replace('|', "\\|")
 }
 
-fn num(m: &Mean, decimals: usize) -> String {
-    match m.value {
-        Some(v) => format!("{v:.decimals$}"),
-        None => "-".to_string(),
-    }
+fn num(m: &Mean) -> Cell {
+    Cell::Num(m.value)
 }
 
 /// Column headers per cue: the cue names of the subject in the order they first occur.
@@ -126,27 +193,23 @@ fn cue_names(rows: &[DayRow]) -> Vec<String> {
     names
 }
 
-fn cue_cell(
-    r: &DayRow,
-    cue: &str,
-    pick: impl Fn(&super::CueDay) -> Option<Mean>,
-    d: usize,
-) -> String {
-    r.cues
-        .iter()
-        .find(|c| c.cue == cue)
-        .and_then(pick)
-        .map(|m| num(&m, d))
-        .unwrap_or_else(|| "-".to_string())
+fn cue_cell(r: &DayRow, cue: &str, pick: impl Fn(&super::CueDay) -> Option<Mean>) -> Cell {
+    Cell::Num(
+        r.cues
+            .iter()
+            .find(|c| c.cue == cue)
+            .and_then(pick)
+            .and_then(|m| m.value),
+    )
 }
 
 fn subject_tables(s: &SubjectSummary) -> Vec<Table> {
     // Sessions are usually named by their date: then one column says both.
     let show_date = s.rows.iter().any(|r| r.session != r.date);
     let lead = |r: &DayRow| {
-        let mut v = vec![r.day.to_string(), r.session.clone()];
+        let mut v: Vec<Cell> = vec![r.day.to_string().into(), r.session.clone().into()];
         if show_date {
-            v.push(r.date.clone());
+            v.push(r.date.clone().into());
         }
         v
     };
@@ -170,6 +233,7 @@ fn subject_tables(s: &SubjectSummary) -> Vec<Table> {
     );
     tables.push(Table {
         title: "Trials (all trials; excl/susp = standing marks)".into(),
+        licks: 0,
         headers: h,
         rows: s
             .rows
@@ -186,7 +250,7 @@ fn subject_tables(s: &SubjectSummary) -> Vec<Table> {
                         r.excluded,
                         r.suspect,
                     ]
-                    .map(|n| n.to_string()),
+                    .map(|n| Cell::Text(n.to_string())),
                 );
                 v
             })
@@ -199,13 +263,14 @@ fn subject_tables(s: &SubjectSummary) -> Vec<Table> {
     h.extend(["reward", "uncued", "omission", "licks/s"].map(String::from));
     tables.push(Table {
         title: "Responses (window mean - baseline; excluded trials left out)".into(),
+        licks: 1,
         headers: h,
         rows: s
             .rows
             .iter()
             .map(|r| {
                 let mut v = lead(r);
-                v.extend(cues.iter().map(|c| cue_cell(r, c, |d| Some(d.response), 2)));
+                v.extend(cues.iter().map(|c| cue_cell(r, c, |d| Some(d.response))));
                 v.extend(
                     [
                         &r.reward_response,
@@ -213,7 +278,7 @@ fn subject_tables(s: &SubjectSummary) -> Vec<Table> {
                         &r.omission_dip,
                         &r.lick_rate,
                     ]
-                    .map(|m| num(m, 2)),
+                    .map(num),
                 );
                 v
             })
@@ -227,22 +292,18 @@ fn subject_tables(s: &SubjectSummary) -> Vec<Table> {
         h.extend(["d:reward", "d:uncued", "d:omission"].map(String::from));
         tables.push(Table {
             title: "Model delta summed over the same windows (same trials)".into(),
+            licks: 0,
             headers: h,
             rows: s
                 .rows
                 .iter()
                 .map(|r| {
                     let mut v = lead(r);
-                    v.extend(cues.iter().map(|c| cue_cell(r, c, |d| d.model_delta, 3)));
+                    v.extend(cues.iter().map(|c| cue_cell(r, c, |d| d.model_delta)));
+                    let blank = Mean::default();
                     let m = r.model.unwrap_or_default();
-                    let blank = r.model.is_none();
-                    v.extend([m.reward, m.uncued_reward, m.omission].map(|x| {
-                        if blank {
-                            "-".to_string()
-                        } else {
-                            num(&x, 3)
-                        }
-                    }));
+                    let pick = |x: Mean| num(if r.model.is_some() { &x } else { &blank });
+                    v.extend([m.reward, m.uncued_reward, m.omission].map(pick));
                     v
                 })
                 .collect(),
@@ -266,21 +327,22 @@ fn cohort_table(rows: &[CohortRow]) -> Table {
     h.extend(["reward", "uncued", "omission", "licks/s"].map(String::from));
     Table {
         title: "Cohort: mean over subjects of each subject's day mean, by training day".into(),
+        licks: 1,
         headers: h,
         rows: rows
             .iter()
             .map(|r| {
-                let mut v = vec![r.day.to_string(), r.subjects.to_string()];
+                let mut v: Vec<Cell> =
+                    vec![r.day.to_string().into(), r.subjects.to_string().into()];
                 v.extend(cues.iter().map(|c| {
-                    r.cues
-                        .iter()
-                        .find(|(n, _)| n == c)
-                        .map(|(_, m)| num(m, 2))
-                        .unwrap_or_else(|| "-".into())
+                    Cell::Num(
+                        r.cues
+                            .iter()
+                            .find(|(n, _)| n == c)
+                            .and_then(|(_, m)| m.value),
+                    )
                 }));
-                v.extend(
-                    [&r.reward, &r.uncued_reward, &r.omission, &r.lick_rate].map(|m| num(m, 2)),
-                );
+                v.extend([&r.reward, &r.uncued_reward, &r.omission, &r.lick_rate].map(num));
                 v
             })
             .collect(),
@@ -422,4 +484,21 @@ pub fn csv(subjects: &[SubjectSummary]) -> Result<String, csv::Error> {
         .into_inner()
         .map_err(|e| csv::Error::from(e.into_error()))?;
     Ok(String::from_utf8(bytes).expect("csv of UTF-8 strings is UTF-8"))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn decimals_follow_the_magnitude() {
+        assert_eq!(decimals_for([8.28, -1.2].into_iter()), 2);
+        assert_eq!(decimals_for([0.5].into_iter()), 3);
+        assert_eq!(decimals_for([0.0586, -0.003].into_iter()), 4);
+        assert_eq!(decimals_for([1e-9].into_iter()), 6);
+        assert_eq!(decimals_for(std::iter::empty()), 2);
+        assert_eq!(fmt_num(Some(-0.0001), 2), "0.00");
+        assert_eq!(fmt_num(Some(-0.25), 2), "-0.25");
+        assert_eq!(fmt_num(None, 2), "-");
+    }
 }
