@@ -218,6 +218,14 @@ pub fn run_fit(
         None
     };
 
+    if opts.bootstrap > 0 && opts.resample == ResampleUnit::Sessions && data.n_sessions() < 8 {
+        warnings.push(format!(
+            "the bootstrap resamples whole sessions but there are only {}: the intervals are \
+             coarse (resampling trials gives finer ones, ignoring day-to-day drift)",
+            data.n_sessions()
+        ));
+    }
+
     let intervals = if opts.bootstrap > 0 {
         progress.phase("bootstrap", opts.bootstrap as u64);
         let iv = bootstrap::bootstrap(
