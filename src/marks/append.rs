@@ -54,12 +54,17 @@ pub fn append(session_dir: &Path, row: &MarkRow) -> Result<(), MarksError> {
         },
         other => other,
     })?;
-    let written = write_locked(&mut file, &path, &line, &row.reviewer);
+    // The folder is synced before unlocking: a second writer's row, acknowledged right after,
+    // must not depend on a directory entry that is not yet on disk.
+    let result = write_locked(&mut file, &path, &line, &row.reviewer).and_then(|created| {
+        if created {
+            sync_dir(session_dir)
+        } else {
+            Ok(())
+        }
+    });
     let _ = file.unlock();
-    if written? {
-        sync_dir(session_dir)?;
-    }
-    Ok(())
+    result
 }
 
 /// The row as one CSV line (with its newline), after checking it is one the reader accepts.
