@@ -20,11 +20,23 @@
 //!   before the new row. The torn text stays in the file, untouched (the journal is never
 //!   rewritten in place); the note tells anyone reading the CSV elsewhere why a junk line is there.
 //! * The reader skips invalid records directly followed by such a note and lists them in
-//!   [`Journal::sealed_torn`]. Any other invalid record is a [`MarksError::Parse`].
+//!   [`Journal::sealed_torn`]. Invalid records directly before a torn tail belong to that tail
+//!   (a sealing write that was itself cut). Any other invalid record is a [`MarksError::Parse`].
 //!
-//! Known limit: if the sealing write is itself cut by a second power loss just after its first
-//! newline, the journal ends with a terminated junk line that no note follows; the reader then
-//! names that line as a parse error for a person to delete.
+//! Known limit: if the sealing write is cut exactly after its first newline, the journal ends
+//! with a terminated junk line that no note follows; the reader then names that line as a
+//! parse error for a person to delete.
+//!
+//! # Other decisions
+//!
+//! * The reader takes columns by name (any order, extra columns ignored, BOM and CRLF fine);
+//!   the appender only appends to a file in its own column order, so no row lands in the wrong
+//!   column.
+//! * Lock waits are bounded: a reader reads anyway after 2 s (what it may see is a torn tail,
+//!   fixed by the next refresh), an append fails after 10 s with "not saved" rather than
+//!   freezing the reviewer behind a stuck process.
+//! * Memory is bounded: a journal over [`MAX_JOURNAL_BYTES`] is refused before it is read,
+//!   and a row over [`MAX_RECORD_BYTES`] is an error.
 
 mod append;
 mod csvline;
