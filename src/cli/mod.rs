@@ -38,7 +38,7 @@ pub enum Command {
     Simulate(simulate::Args),
     /// Print or export the current marks of a session or subject
     Marks(marks::Args),
-    /// Per-day learning table as plain text or CSV
+    /// Per-day learning table as text, tidy CSV or Markdown
     Summary(summary::Args),
 }
 

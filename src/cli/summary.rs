@@ -60,6 +60,16 @@ pub struct ObsArgs {
 }
 
 #[derive(clap::Args, Debug)]
+#[command(
+    after_long_help = "Per-day learning table: one row per session in training order with trial \
+counts by kind, standing exclude/suspect marks, mean cue response per cue, reward response \
+(cued rewards), uncued-reward response, omission dip (after the expected reward time) and \
+anticipatory licks/s; with a saved fit (trialdesk-fit.toml) or --alpha/--gamma, the model's \
+δ summed over the same windows.\n\nA response is the mean activity in a window after the \
+event minus the mean in the baseline before cue onset. Trials marked exclude are counted but \
+their observations are left out of every mean; CSV rows carry the n of each mean. A cohort \
+folder (sub-folders are different animals) adds a table averaged by training day."
+)]
 pub struct Args {
     /// A subject folder, one session folder, or a cohort folder of subject folders
     pub path: PathBuf,
