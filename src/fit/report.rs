@@ -41,7 +41,12 @@ pub struct ParamRow {
 
 /// The rows of `params.csv`, in order: alpha, gamma (per bin), tau_s (seconds, −dt/ln γ),
 /// lambda (only when fitted), gain, baseline_cue, baseline_reward (when fitted).
+///
+/// When γ's profile is flat the bootstrap interval of γ and τ is withheld (left empty): warm-
+/// started replicates barely move along a flat direction, so their spread would understate
+/// the uncertainty.
 pub fn param_rows(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -> Vec<ParamRow> {
+    let gamma_flat = gamma_interval_withheld(out);
     let p = out.best.params;
     let lin = &out.best.linear;
     let dt = data.dt;
@@ -59,13 +64,13 @@ pub fn param_rows(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -> Vec<
         rows.push(ParamRow {
             name: "gamma",
             estimate: p.gamma,
-            interval: iv(&|r| Some(r.params.gamma)),
+            interval: iv(&|r| Some(r.params.gamma)).filter(|_| !gamma_flat),
         });
         // τ is monotone in γ, so its percentile interval is γ's mapped through.
         rows.push(ParamRow {
             name: "tau_s",
             estimate: tau_s(p.gamma, dt),
-            interval: iv(&|r| Some(tau_s(r.params.gamma, dt))),
+            interval: iv(&|r| Some(tau_s(r.params.gamma, dt))).filter(|_| !gamma_flat),
         });
         if lambda_fitted {
             rows.push(ParamRow {
@@ -93,6 +98,11 @@ pub fn param_rows(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -> Vec<
         }
     }
     rows
+}
+
+/// γ's profile is flat and a bootstrap ran: its interval is not reported.
+pub fn gamma_interval_withheld(out: &FitOutcome) -> bool {
+    out.intervals.is_some() && out.gamma_profile.as_ref().is_some_and(|g| g.flat)
 }
 
 /// `params.csv`: `parameter,estimate,lower,upper` (bounds empty without a bootstrap).
@@ -209,11 +219,14 @@ pub fn text_report(
             .interval
             .map(|(l, h)| (num(l), num(h)))
             .unwrap_or_else(|| ("-".into(), "-".into()));
-        let unit = match r.name {
+        let mut unit = match r.name {
             "gamma" | "lambda" => format!("  per {} s bin", data.dt),
             "tau_s" => "  seconds".to_string(),
             _ => String::new(),
         };
+        if matches!(r.name, "gamma" | "tau_s") && gamma_interval_withheld(out) {
+            unit.push_str(" (interval withheld: flat profile, see the warning)");
+        }
         let _ = writeln!(
             s,
             "  {:<16} {:>12} {:>12} {:>12}{unit}",
