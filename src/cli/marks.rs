@@ -158,12 +158,8 @@ fn warn_torn(journal: &Journal) {
             printable(text)
         );
     }
-    for (line, text) in &journal.sealed_torn {
-        eprintln!(
-            "warning: {path}:{line}: incomplete line from an interrupted write, ignored: {}",
-            printable(text)
-        );
-    }
+    // Sealed torn lines are not repeated on every run: the sealing note already shows among
+    // the session notes.
 }
 
 fn write_csv(out: &mut dyn Write, lines: &[Line]) -> std::io::Result<()> {
