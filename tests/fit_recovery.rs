@@ -141,3 +141,30 @@ fn comparison_prefers_the_generating_model() {
     assert_eq!(out.holdout_sessions, 1);
     assert!(csc.heldout_n > 0);
 }
+
+/// Noise far above the signal: γ cannot be pinned down. The fit must say so (methods.md §4:
+/// warn when γ is poorly constrained) and not print a bootstrap interval for it.
+#[test]
+fn flat_gamma_is_flagged_and_its_interval_withheld() {
+    let spec = SyntheticSpec {
+        sessions: 2,
+        noise_sd: 30.0,
+        ..Default::default()
+    };
+    let (_, data) = fit_data(&spec);
+    let opts = FitOptions {
+        bootstrap: 4,
+        compare: false,
+        ..Default::default()
+    };
+    let out = run_fit(&data, &opts, &NoProgress).unwrap();
+    assert!(out.gamma_profile.as_ref().unwrap().flat);
+    assert!(out
+        .warnings
+        .iter()
+        .any(|w| w.contains("poorly constrained")));
+    let rows = trialdesk::fit::report::param_rows(&out, &data, false);
+    let row = |n: &str| rows.iter().find(|r| r.name == n).unwrap();
+    assert!(row("gamma").interval.is_none() && row("tau_s").interval.is_none());
+    assert!(row("gain").interval.is_some());
+}
