@@ -71,7 +71,7 @@ fn csvish() -> impl Strategy<Value = Vec<u8>> {
 }
 
 proptest! {
-    #![proptest_config(ProptestConfig::with_cases(400))]
+    #![proptest_config(ProptestConfig::with_cases(300))]
 
     #[test]
     fn random_bytes_never_panic(bytes in prop::collection::vec(any::<u8>(), 0..400)) {
@@ -105,5 +105,33 @@ proptest! {
         prop_assert!(g.read_to_end(&mut out).is_ok());
         prop_assert_eq!(out, text.as_bytes());
         prop_assert!(MAX_LINE_BYTES > 300);
+    }
+
+    /// Whole folders: one file of a valid session damaged (cut, overwritten, spliced), then
+    /// the full check (all readers, cross-file checks, marks) must still answer.
+    #[test]
+    fn damaged_session_folders_never_panic(
+        file in 0usize..6,
+        cut in any::<prop::sample::Index>(),
+        at in any::<prop::sample::Index>(),
+        junk in prop::collection::vec(any::<u8>(), 0..40),
+    ) {
+        let src = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/valid_session");
+        let tmp = tempfile::tempdir().unwrap();
+        let names = ["session.toml", "trials.csv", "spikes.csv", "licks.csv", "photometry.csv", "marks.csv"];
+        for name in names {
+            std::fs::copy(src.join(name), tmp.path().join(name)).unwrap();
+        }
+        let target = tmp.path().join(names[file]);
+        let mut bytes = std::fs::read(&target).unwrap();
+        bytes.truncate(cut.index(bytes.len() + 1));
+        let at = at.index(bytes.len() + 1);
+        bytes.splice(at..at, junk);
+        std::fs::write(&target, &bytes).unwrap();
+        for d in trialdesk::check::check(tmp.path()) {
+            if let (Some(line), Ok(text)) = (d.line, std::fs::read(&d.file)) {
+                prop_assert!(line >= 1 && line <= lines_in(&text), "{}", d);
+            }
+        }
     }
 }
