@@ -4,7 +4,7 @@
 use proptest::prelude::*;
 use std::path::Path;
 use trialdesk::data::csvio::{LineGuard, MAX_LINE_BYTES};
-use trialdesk::data::meta::parse_meta;
+use trialdesk::data::meta::{normalize_time, parse_meta, valid_iso_date};
 use trialdesk::data::number::parse_plain_decimal;
 use trialdesk::data::tables::{read_licks, read_photometry, read_spikes, read_trials, Span};
 use trialdesk::data::Diagnostic;
@@ -87,6 +87,12 @@ proptest! {
         for d in read_all(&bytes) {
             prop_assert!(d.line.is_none_or(|l| (1..=n).contains(&l)), "{d}");
         }
+    }
+
+    #[test]
+    fn date_and_time_checks_take_any_text(t in "[0-9:é-]{0,12}") {
+        let _ = valid_iso_date(&t);
+        let _ = normalize_time(&t);
     }
 
     /// Clinger's fast path must give exactly what the standard parser gives.
