@@ -204,9 +204,14 @@ fn missing_meta(dir: &Path) -> Diagnostic {
     .expected("session.toml with subject and date in every session folder")
 }
 
-fn open(path: &Path) -> Option<BufReader<File>> {
-    let f = File::open(path).ok()?;
-    Some(BufReader::with_capacity(1 << 16, f))
+/// Only regular files: opening a FIFO (or a device) would block or never end.
+fn open(path: &Path) -> Result<BufReader<File>, String> {
+    let meta = std::fs::metadata(path).map_err(|e| format!("cannot open: {e}"))?;
+    if !meta.is_file() {
+        return Err("cannot open: not a regular file".to_string());
+    }
+    let f = File::open(path).map_err(|e| format!("cannot open: {e}"))?;
+    Ok(BufReader::with_capacity(1 << 16, f))
 }
 
 /// Read one session folder; `None` if it has errors (all reported in `out`).
@@ -225,9 +230,9 @@ pub fn read_session(dir: &Path, out: &mut Vec<Diagnostic>) -> Option<Session> {
     let trials_path = dir.join(TRIALS_FILE);
     let raw_trials = if trials_path.exists() {
         match open(&trials_path) {
-            Some(r) => tables::read_trials(&trials_path, r, declared.as_deref(), out),
-            None => {
-                out.push(Diagnostic::error(&trials_path, "cannot open"));
+            Ok(r) => tables::read_trials(&trials_path, r, declared.as_deref(), out),
+            Err(e) => {
+                out.push(Diagnostic::error(&trials_path, e));
                 None
             }
         }
@@ -291,9 +296,12 @@ fn optional_file<T>(
         out.push(Diagnostic::error(&path, "is a folder").expected("a CSV file"));
         return None;
     }
-    let Some(r) = open(&path) else {
-        out.push(Diagnostic::error(&path, "cannot open"));
-        return None;
+    let r = match open(&path) {
+        Ok(r) => r,
+        Err(e) => {
+            out.push(Diagnostic::error(&path, e));
+            return None;
+        }
     };
     read(&path, r, out).map(|r| r.value)
 }

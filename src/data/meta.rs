@@ -62,6 +62,10 @@ fn read_limited(path: &Path) -> Result<Vec<u8>, Diagnostic> {
     if meta.is_dir() {
         return Err(Diagnostic::error(path, "is a folder").expected("a session.toml file"));
     }
+    // A FIFO would block in `open` until some writer appears.
+    if !meta.is_file() {
+        return Err(Diagnostic::error(path, "not a regular file").expected("a session.toml file"));
+    }
     // Read through `take`: a device or pipe reports length 0 and may never end.
     let mut bytes = Vec::new();
     std::fs::File::open(path)
