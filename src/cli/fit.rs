@@ -408,9 +408,17 @@ pub fn run(args: Args) -> CmdResult {
             reward_window_s: Some([obs_opts.reward_window.0, obs_opts.reward_window.1]),
             baseline_window_s: Some([obs_opts.baseline.0, obs_opts.baseline.1]),
         };
-        let path = saved::save(&subject.root, &savedfit)
-            .map_err(|e| CliError::failed(format!("fit done, but not saved: {e}")))?;
-        text.push_str(&format!("Fitted parameters saved to {}\n", path.display()));
+        match saved::save(&subject.root, &savedfit) {
+            Ok(path) => text.push_str(&format!("Fitted parameters saved to {}\n", path.display())),
+            Err(e) => {
+                // A read-only data folder must not cost the fit: print the report first.
+                let _ = std::io::stdout().lock().write_all(text.as_bytes());
+                return Err(CliError::failed(format!(
+                    "fit done, but not saved: {e} (the report above is complete; \
+                     --no-save skips saving beside the data)"
+                )));
+            }
+        }
     }
 
     let mut stdout = std::io::stdout().lock();
