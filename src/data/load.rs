@@ -289,7 +289,8 @@ fn optional_file<T>(
     read: impl FnOnce(&Path, Reader, &mut Vec<Diagnostic>) -> Option<tables::Parsed<T>>,
 ) -> Option<T> {
     let path = dir.join(file);
-    if !path.exists() {
+    // `symlink_metadata`: a dangling or looping link is reported, not taken for "no file".
+    if std::fs::symlink_metadata(&path).is_err() {
         return None;
     }
     if path.is_dir() {
