@@ -260,7 +260,6 @@ fn symlink_loops_in_a_subject_folder_end() {
 }
 
 #[test]
-#[ignore = "bug: an optional data file that is a looping or dangling symlink is silently skipped"]
 fn a_data_file_that_is_a_symlink_loop_is_an_error_naming_it() {
     let (_tmp, subject) = simulated_subject();
     let dir = session_dirs(&subject)[0].clone();
