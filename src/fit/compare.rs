@@ -124,3 +124,18 @@ pub fn heldout_error(
     let rmse = (sse / test.len() as f64).sqrt();
     rmse.is_finite().then_some((rmse, test.len()))
 }
+
+#[cfg(test)]
+mod tests {
+    use super::holdout_count;
+
+    #[test]
+    fn holdout_is_the_last_fifth_never_all() {
+        assert_eq!(holdout_count(1, None), 0);
+        assert_eq!(holdout_count(2, None), 1);
+        assert_eq!(holdout_count(8, None), 2);
+        assert_eq!(holdout_count(20, None), 4);
+        assert_eq!(holdout_count(3, Some(5)), 2);
+        assert_eq!(holdout_count(10, Some(0)), 0);
+    }
+}

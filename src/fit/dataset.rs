@@ -120,13 +120,6 @@ impl FitData {
     }
 }
 
-/// Clip a δ-sum window (in bins, may start before the span) to the span's bins.
-pub fn clip_bins(first: i64, end: i64, n_bins: usize) -> Option<(u32, u32)> {
-    let lo = first.max(0);
-    let hi = end.min(n_bins as i64);
-    (hi > lo).then_some((lo as u32, hi as u32))
-}
-
 /// Reason shown for an exclusion without one.
 pub const NO_REASON: &str = "(no reason given)";
 

@@ -302,3 +302,25 @@ impl<'a> Problem<'a> {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn logit_and_expit_are_inverse_inside_the_bounds() {
+        for p in [1e-4, 0.05, 0.5, 0.98, 0.9999] {
+            assert!((expit(logit(p)) - p).abs() < 1e-12, "{p}");
+        }
+        // Outside the search bounds both saturate instead of reaching 0, 1 or infinity.
+        assert!(expit(1e6) < 1.0 && expit(-1e6) > 0.0);
+        assert_eq!(logit(1.0), Z_BOUND);
+    }
+
+    /// lnL of n residuals at σ̂² = RSS/n (closed form): n = 2, RSS = 2 gives −(ln 2π + 1).
+    #[test]
+    fn gaussian_loglik_closed_form() {
+        let want = -((2.0 * std::f64::consts::PI).ln() + 1.0);
+        assert!((gaussian_loglik(2.0, 2) - want).abs() < 1e-14);
+    }
+}

@@ -370,3 +370,18 @@ fn write_exclusions(s: &mut String, out: &FitOutcome, data: &FitData) {
         );
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::num;
+
+    #[test]
+    fn numbers_for_people() {
+        assert_eq!(num(0.98765), "0.9877");
+        assert_eq!(num(1234.5), "1234");
+        assert_eq!(num(-3458.77), "-3459");
+        assert_eq!(num(0.0), "0");
+        assert_eq!(num(1.5e-5), "1.500e-5");
+        assert_eq!(num(f64::NAN), "n/a");
+    }
+}
