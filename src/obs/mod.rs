@@ -9,6 +9,11 @@
 //! uncued trials). [`activity`] counts spikes and averages photometry; [`photometry`] is the
 //! seam where ΔF/F preprocessing plugs in; [`window`] maps observation windows onto model bins
 //! (the fitter and the summary must use the very same mapping).
+//!
+//! [`observe_lenient`] keeps going past sessions that lack the signal (for tables that show
+//! what there is). Many windows are measured in one sweep per spike train
+//! ([`SessionActivity::means`], [`SessionActivity::traces`]): 64 cold binary searches per
+//! window were cache misses, a cursor sweep streams each train once.
 
 pub mod activity;
 pub mod photometry;
