@@ -6,6 +6,7 @@
 
 pub mod check;
 pub mod cli;
+pub mod cohort;
 pub mod data;
 pub mod fit;
 pub mod marks;

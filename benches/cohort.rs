@@ -1,0 +1,2 @@
+//! Cohort fitting benchmark (work in progress).
+fn main() {}
