@@ -356,28 +356,16 @@ pub fn preprocess(p: &Photometry, opts: &PreprocessOptions) -> Result<Processed,
     let floor = fraction * mean_signal.abs();
     let n = p.signal.len();
     let mut out = vec![0.0; n];
-    let (baseline, r_squared, method) =
-        match control {
-            Some(x) => control_baseline(p, x, opts, &mut out)?,
-            None => {
-                let fit = bleach::fit_bleaching(&p.time_s, &p.signal, &opts.bleach)?;
-                for (o, &t) in out.iter_mut().zip(&p.time_s) {
-                    *o = fit.at(t);
-                }
-                let why = if p.control.is_some() {
-                    "control channel ignored"
-                } else {
-                    "no control channel"
-                };
-                let method =
-                    format!(
-                "ΔF/F against a {}-exponential photobleaching baseline fitted to the signal \
-                 ({why}; Keevers et al. 2025 bleaching model)",
-                if fit.terms.len() == 2 { "double" } else { "single" }
-            );
-                (BaselineFit::Bleaching(fit), f64::NAN, method)
-            }
-        };
+    let (baseline, r_squared, method) = match control {
+        Some(x) => {
+            let (fit, r2, method) = control_baseline(p, x, opts, &mut out)?;
+            (fit, Some(r2), method)
+        }
+        None => {
+            let (fit, method) = bleach_baseline(p, opts, &mut out)?;
+            (fit, None, method)
+        }
+    };
     let fhat = match (&baseline, control) {
         (BaselineFit::Control(l), Some(x)) => Fhat::Line {
             a: l.intercept,
@@ -387,16 +375,14 @@ pub fn preprocess(p: &Photometry, opts: &PreprocessOptions) -> Result<Processed,
         _ => Fhat::InOutput,
     };
     let ss_res = dff_pass(&p.signal, &p.time_s, fhat, &mut out, floor, fraction)?;
-    let r_squared = if r_squared.is_nan() {
+    let r_squared = r_squared.unwrap_or_else(|| {
         let ss_tot: f64 = p
             .signal
             .iter()
             .map(|y| (y - mean_signal) * (y - mean_signal))
             .sum();
         1.0 - ss_res / ss_tot
-    } else {
-        r_squared
-    };
+    });
     let normaliser = Normaliser::new(opts.zscore, &out)?;
     let method = format!("{method}; {}", opts.zscore.name());
     Ok(Processed {
@@ -406,6 +392,33 @@ pub fn preprocess(p: &Photometry, opts: &PreprocessOptions) -> Result<Processed,
         r_squared,
         normaliser,
     })
+}
+
+/// Fit the photobleaching baseline, writing F̂ into `out`.
+fn bleach_baseline(
+    p: &Photometry,
+    opts: &PreprocessOptions,
+    out: &mut [f64],
+) -> Result<(BaselineFit, String), PhotometryError> {
+    let fit = bleach::fit_bleaching(&p.time_s, &p.signal, &opts.bleach)?;
+    for (o, &t) in out.iter_mut().zip(&p.time_s) {
+        *o = fit.at(t);
+    }
+    let why = if p.control.is_some() {
+        "control channel ignored"
+    } else {
+        "no control channel"
+    };
+    let shape = if fit.terms.len() == 2 {
+        "double"
+    } else {
+        "single"
+    };
+    let method = format!(
+        "ΔF/F against a {shape}-exponential photobleaching baseline fitted to the signal \
+         ({why}; Keevers et al. 2025 bleaching model)"
+    );
+    Ok((BaselineFit::Bleaching(fit), method))
 }
 
 /// Fit the control to the signal. A sliding fit writes F̂ into `out`; a whole-session fit only
