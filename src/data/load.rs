@@ -100,10 +100,12 @@ pub fn scan(path: &Path) -> Scan {
             };
         }
         Ok(m) if !m.is_dir() => {
-            out.push(
-                Diagnostic::error(path, "is a file, not a folder")
-                    .expected("a subject folder or a session folder"),
-            );
+            out.push(Diagnostic::error(path, "is a file, not a folder").expected(
+                match path.parent().filter(|p| !p.as_os_str().is_empty()) {
+                    Some(dir) => format!("a subject or session folder, such as {}", dir.display()),
+                    None => "a subject folder or a session folder".to_string(),
+                },
+            ));
             return Scan {
                 subject,
                 session_dirs: Vec::new(),
