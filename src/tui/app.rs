@@ -66,6 +66,11 @@ pub fn build_state(
         update::reread_journal(&mut state, si);
     }
     update::rebuild_days(&mut state);
+    let trials: usize = state.subject.sessions.iter().map(|s| s.trials.len()).sum();
+    state.status.text = format!(
+        "{n} session(s), {trials} trials; model: {}",
+        state.model.source.label()
+    );
     state
 }
 

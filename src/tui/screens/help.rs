@@ -19,6 +19,18 @@ pub fn lines(state: &State) -> Vec<String> {
     out.push(format!("{:<12} {}", "ctrl-c", "quit (always)"));
     out.push(format!("{:<12} {}", "in picker", "1-9, or up/down + enter"));
     out.push(format!("{:<12} {}", "in editor", "enter saves, esc drops"));
+    out.push(format!(
+        "{:<12} {}",
+        "events", "C cue, R reward, o omitted,"
+    ));
+    out.push(format!("{:<12} {}", "", "e expected, R off schedule"));
+    let excluded = Theme::from_options(&state.opts)
+        .mark_glyph(Some(crate::marks::MarkKind::Exclude))
+        .0;
+    out.push(format!(
+        "{:<12} {excluded} excl. ? suspect + note",
+        "margin"
+    ));
     out
 }
 

@@ -25,7 +25,17 @@ pub fn event_cols(state: &State, axis: &TimeAxis) -> Vec<(u16, &'static str, Rol
         out.extend(axis.col(cs - t0).map(|c| (c, "C", Role::Cue)));
     }
     match (trial.reward_s, expected_reward_time(session, trial)) {
-        (Some(r), _) => out.extend(axis.col(r - t0).map(|c| (c, "R", Role::Reward))),
+        (Some(r), e) => {
+            let rc = axis.col(r - t0);
+            out.extend(rc.map(|c| (c, "R", Role::Reward)));
+            // A reward off its schedule: show where it was expected too.
+            if let Some(ec) = e
+                .and_then(|e| axis.col(e - t0))
+                .filter(|ec| Some(*ec) != rc)
+            {
+                out.push((ec, "e", Role::Reward));
+            }
+        }
         // Omission: where the reward should have come.
         (None, Some(e)) => out.extend(axis.col(e - t0).map(|c| (c, "o", Role::Reward))),
         _ => {}
@@ -211,7 +221,8 @@ pub fn render_licks(
     }
 }
 
-/// The event row (C cue, R reward, o omitted reward) and the seconds row under it.
+/// The event row (C cue, R reward, o omitted reward, e expected reward when the delivery was
+/// off schedule) and the seconds row under it.
 pub fn render_events(
     buf: &mut Buffer,
     area: Rect,
