@@ -44,6 +44,10 @@ pub struct LineGuard<R> {
     line: u64,
     run: usize,
     cap: usize,
+    /// Inside a quoted field, where a newline does not end the record.
+    in_quote: bool,
+    /// Line where the current record began (the line an over-long record is reported at).
+    record_line: u64,
 }
 
 impl<R: BufRead> LineGuard<R> {
@@ -57,6 +61,8 @@ impl<R: BufRead> LineGuard<R> {
             line: 1,
             run: 0,
             cap,
+            in_quote: false,
+            record_line: 1,
         }
     }
 }
@@ -80,6 +86,13 @@ impl<R: BufRead> Read for LineGuard<R> {
             let line = self.line + count_newlines(&chunk[..pos]);
             return Err(io::Error::other(GuardError::Nul { line }));
         }
+        // The CSV parser holds a whole record, and a quoted field may span lines: an unclosed
+        // quote would swallow the rest of the file. Quotes are rare, so only their chunks pay
+        // for a per-byte scan.
+        if self.in_quote || chunk.contains(&b'"') {
+            self.scan_quoted(chunk)?;
+            return Ok(n);
+        }
         match chunk.iter().position(|&b| b == b'\n') {
             None => {
                 self.run += n;
@@ -99,6 +112,35 @@ impl<R: BufRead> Read for LineGuard<R> {
             }
         }
         Ok(n)
+    }
+}
+
+impl<R> LineGuard<R> {
+    /// Like the fast path, counting record bytes: newlines inside quotes do not reset them.
+    fn scan_quoted(&mut self, chunk: &[u8]) -> io::Result<()> {
+        if !self.in_quote {
+            self.record_line = self.line;
+        }
+        for &b in chunk {
+            match b {
+                b'"' => self.in_quote = !self.in_quote,
+                b'\n' => {
+                    self.line += 1;
+                    if !self.in_quote {
+                        self.run = 0;
+                        self.record_line = self.line;
+                        continue;
+                    }
+                }
+                _ => {}
+            }
+            self.run += 1;
+            if self.run > self.cap {
+                let line = self.record_line;
+                return Err(io::Error::other(GuardError::LongLine { line }));
+            }
+        }
+        Ok(())
     }
 }
 
@@ -496,7 +538,7 @@ fn read_error(path: &Path, e: &csv::Error) -> Diagnostic {
             format!("line longer than {MAX_LINE_BYTES} bytes; reading stopped here"),
         )
         .at_line(*line)
-        .expected("one short row per line"),
+        .expected("one short row per line; a `\"` never closed makes the rest one row"),
         None => {
             let line = e.position().map(|p| p.line());
             let d = Diagnostic::error(path, format!("cannot read: {e}"));
@@ -534,5 +576,16 @@ mod tests {
             Err(GuardError::LongLine { line: 3 })
         );
         assert_eq!(read(b"xxxxxxxxxx\nxxxxxxxxxx", 10).unwrap().len(), 21);
+    }
+
+    #[test]
+    fn guard_bounds_a_quoted_record_across_lines() {
+        assert_eq!(
+            read(b"a\n\"b\nc\nd\ne\nf\ng\n", 6),
+            Err(GuardError::LongLine { line: 2 })
+        );
+        // Closed quotes, even spanning a line, within the cap pass; counting resumes after.
+        let ok = b"a\n\"b\nc\"\nxxxxx\n\"\"\n";
+        assert_eq!(read(ok, 6).unwrap(), ok.to_vec());
     }
 }
