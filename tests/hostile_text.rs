@@ -1,0 +1,315 @@
+//! Hostile text in the data (issue 6, item 4): escape and control sequences in cue names,
+//! subject and rig ids, unit ids, session folder names and marks notes never reach the
+//! terminal — not through the reviewer's frames, not through the commands' printed output —
+//! and CSV exports protect cells a spreadsheet would run as a formula while keeping the text.
+
+mod tui_support;
+
+use ratatui::backend::TestBackend;
+use ratatui::Terminal;
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+use trialdesk::marks::{self, MarkKind, MarkRow};
+use trialdesk::tui::app;
+use trialdesk::tui::derived::ModelSettings;
+use trialdesk::tui::keymap::Keymap;
+
+const BIN: &str = env!("CARGO_BIN_EXE_trialdesk");
+
+/// Cue, as typed in trials.csv: a formula start, a clear-screen sequence and a bell.
+const CUE: &str = "=tone\u{1b}[2J\u{7}hi";
+/// The same as a TOML basic string body.
+const CUE_TOML: &str = "=tone\\u001b[2J\\u0007hi";
+const SUBJECT_TOML: &str = "@m\\u001b]0;owned\\u0007-041";
+const RIG_TOML: &str = "+box\\u009b31m-2";
+/// Unit id: colour sequence plus a C1 CSI.
+const UNIT: &str = "-u\u{1b}[31m\u{9b}1";
+/// Session folder names: a formula, and a leading minus with an escape sequence in it.
+const DAY1: &str = "=SUM(1+1)";
+const DAY2: &str = "-2+3\u{1b}[2J";
+const NOTE: &str = "=HYPERLINK(\"http:x\",\"see\")\u{1b}[?1049l\r\n\u{8}";
+const REASON: &str = "@reason\u{7}";
+const REVIEWER: &str = "+rev\u{1b}]0;t\u{7}";
+
+/// A simulated subject rewritten with hostile strings everywhere the data holds text.
+fn hostile_subject() -> (tempfile::TempDir, PathBuf) {
+    let tmp = tempfile::tempdir().unwrap();
+    let subject = tmp.path().join("m-x");
+    let o = Command::new(BIN)
+        .args(["simulate", subject.to_str().unwrap()])
+        .args(["--seed", "3", "--days", "2", "--trials-per-day", "40"])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let mut days: Vec<PathBuf> = std::fs::read_dir(&subject)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.join("session.toml").is_file())
+        .collect();
+    days.sort();
+    assert_eq!(days.len(), 2);
+    for (day, name) in days.iter().zip([DAY1, DAY2]) {
+        let edit = |file: &str, f: &dyn Fn(String) -> String| {
+            let path = day.join(file);
+            let text = std::fs::read_to_string(&path).unwrap();
+            std::fs::write(&path, f(text)).unwrap();
+        };
+        edit("session.toml", &|t| {
+            t.replace("\"tone-hi\"", &format!("\"{CUE_TOML}\""))
+                .replace("\"m-041\"", &format!("\"{SUBJECT_TOML}\""))
+                .replace("\"box-2\"", &format!("\"{RIG_TOML}\""))
+        });
+        edit("trials.csv", &|t| {
+            t.replace(",tone-hi,", &format!(",{CUE},"))
+        });
+        edit("spikes.csv", &|t| {
+            t.lines()
+                .map(|l| match l.strip_prefix("u1,") {
+                    Some(rest) => format!("{UNIT},{rest}\n"),
+                    None => format!("{l}\n"),
+                })
+                .collect()
+        });
+        let row = |trial: Option<i64>, mark: MarkKind| MarkRow {
+            trial,
+            mark,
+            reason: REASON.into(),
+            note: NOTE.into(),
+            reviewer: REVIEWER.into(),
+            at: "2026-03-02T10:00:00Z".into(),
+        };
+        marks::append(day, &row(Some(2), MarkKind::Exclude)).unwrap();
+        marks::append(day, &row(Some(3), MarkKind::Note)).unwrap();
+        marks::append(day, &row(None, MarkKind::Note)).unwrap();
+        std::fs::rename(day, subject.join(name)).unwrap();
+    }
+    (tmp, subject)
+}
+
+/// C0 (except newline), DEL and C1 characters: what a terminal would act on.
+fn controls(text: &str) -> Vec<char> {
+    text.chars()
+        .filter(|&c| c != '\n' && c.is_control())
+        .collect()
+}
+
+fn printed(o: &Output) -> String {
+    format!(
+        "{}{}",
+        String::from_utf8_lossy(&o.stdout),
+        String::from_utf8_lossy(&o.stderr)
+    )
+}
+
+#[test]
+fn the_reviewer_draws_no_control_characters_from_the_data() {
+    let (_tmp, subject) = hostile_subject();
+    let loaded = trialdesk::data::load(&subject).unwrap_or_else(|f| panic!("{f}"));
+    let s = &loaded.subject.sessions[0];
+    assert!(
+        s.meta.cues.iter().any(|c| c.name == CUE),
+        "hostile cue loaded"
+    );
+    assert!(s.spikes.as_ref().unwrap().units.iter().any(|u| u == UNIT));
+    for ascii in [false, true] {
+        let mut opts = tui_support::options();
+        opts.ascii = ascii;
+        let mut st = app::build_state(
+            loaded.subject.clone(),
+            opts,
+            Keymap::build(&[]).unwrap(),
+            &ModelSettings::defaults(),
+        );
+        // Every screen, the hostile unit chosen, the marked trial and its note shown, the
+        // second session (hostile folder name), the help overlay.
+        let mut bad = Vec::new();
+        for keys in [
+            "", ".", "j", "j", "2", "3", "4", "1", "]", "j", "2", "?", "?", "n",
+        ] {
+            tui_support::press(&mut st, keys);
+            for (w, h) in [(80, 24), (132, 40)] {
+                let mut t = Terminal::new(TestBackend::new(w, h)).unwrap();
+                app::draw(&mut t, &st).unwrap();
+                let buf = t.backend().buffer();
+                for y in 0..h {
+                    for x in 0..w {
+                        let sym = buf[(x, y)].symbol();
+                        if !controls(sym).is_empty() || sym.contains('\n') {
+                            bad.push(format!("after {keys:?} at {w}x{h} ({x},{y}): {sym:?}"));
+                        }
+                    }
+                }
+            }
+        }
+        assert!(
+            bad.is_empty(),
+            "ascii={ascii}: {:#?}",
+            &bad[..bad.len().min(20)]
+        );
+    }
+}
+
+#[test]
+#[ignore = "bug: check and summary print escape sequences from data (paths, cue names, bad values)"]
+fn printed_reports_carry_no_control_characters() {
+    let (_tmp, subject) = hostile_subject();
+    let s = subject.to_str().unwrap();
+    let day2 = subject.join(DAY2);
+    let day2 = day2.to_str().unwrap();
+    // An undeclared hostile cue and unit make `check` quote bad values back.
+    let broken = subject.join("zz-broken");
+    std::fs::create_dir(&broken).unwrap();
+    std::fs::copy(
+        subject.join(DAY1).join("session.toml"),
+        broken.join("session.toml"),
+    )
+    .unwrap();
+    std::fs::write(
+        broken.join("trials.csv"),
+        "trial,cue,cue_s,reward_s,reward_ul\n1,\u{1b}[2Jx,1,2.5,3\n2,ok,\u{1b}]0;t\u{7},,\n",
+    )
+    .unwrap();
+    let mut found = Vec::new();
+    let runs: Vec<Vec<&str>> = vec![
+        vec!["check", s],
+        vec!["check", day2],
+        vec!["summary", day2],
+        vec!["summary", day2, "--format", "markdown"],
+        vec!["marks", s],
+        vec!["marks", day2, "--all"],
+        vec![
+            "fit",
+            day2,
+            "--no-compare",
+            "--bootstrap",
+            "0",
+            "--no-save",
+            "--unit",
+            UNIT,
+        ],
+    ];
+    for args in &runs {
+        let o = Command::new(BIN)
+            .args(args)
+            .env("NO_COLOR", "1")
+            .output()
+            .unwrap();
+        let text = printed(&o);
+        assert!(!text.contains("panicked"), "{args:?}: {text}");
+        let c = controls(&text);
+        if !c.is_empty() {
+            found.push(format!("{args:?}: {c:?}\n{text}"));
+        }
+    }
+    assert!(found.is_empty(), "{}", found.join("\n----\n"));
+}
+
+/// Cells a spreadsheet would run: starting with = + - @ (or tab/CR) and not a plain number.
+fn formula_cells(csv_text: &str) -> Vec<String> {
+    let mut rdr = csv::ReaderBuilder::new()
+        .has_headers(false)
+        .flexible(true)
+        .from_reader(csv_text.as_bytes());
+    let mut bad = Vec::new();
+    for rec in rdr.records() {
+        for cell in rec.unwrap().iter() {
+            let risky = cell.starts_with(['=', '+', '-', '@', '\t', '\r']);
+            let number = cell.parse::<f64>().is_ok_and(f64::is_finite)
+                && !cell.to_ascii_lowercase().contains(['i', 'n']);
+            if risky && !number {
+                bad.push(cell.to_string());
+            }
+        }
+    }
+    bad
+}
+
+fn read(path: &Path) -> String {
+    std::fs::read_to_string(path).unwrap_or_else(|e| panic!("{}: {e}", path.display()))
+}
+
+#[test]
+#[ignore = "bug: model --out and fit --out trials.csv write a formula session name unprotected"]
+fn csv_exports_protect_formula_cells_and_keep_their_text() {
+    let (tmp, subject) = hostile_subject();
+    let out = tmp.path().join("out");
+    std::fs::create_dir(&out).unwrap();
+    let s = subject.to_str().unwrap();
+    let p = |name: &str| out.join(name).to_str().unwrap().to_string();
+    let runs: Vec<Vec<String>> = vec![
+        vec!["marks".into(), s.into(), "--csv".into(), p("marks.csv")],
+        vec![
+            "marks".into(),
+            s.into(),
+            "--all".into(),
+            "--csv".into(),
+            p("marks-all.csv"),
+        ],
+        vec![
+            "summary".into(),
+            s.into(),
+            "--format".into(),
+            "csv".into(),
+            "--out".into(),
+            p("summary.csv"),
+        ],
+        vec![
+            "model".into(),
+            s.into(),
+            "--alpha".into(),
+            "0.1".into(),
+            "--gamma".into(),
+            "0.9".into(),
+            "--out".into(),
+            p("model.csv"),
+        ],
+        vec![
+            "fit".into(),
+            s.into(),
+            "--no-compare".into(),
+            "--bootstrap".into(),
+            "0".into(),
+            "--no-save".into(),
+            "--out".into(),
+            p("fit"),
+        ],
+    ];
+    for args in &runs {
+        let o = Command::new(BIN).args(args).output().unwrap();
+        assert!(o.status.success(), "{args:?}: {}", printed(&o));
+    }
+    let mut problems = Vec::new();
+    for file in [
+        "marks.csv",
+        "marks-all.csv",
+        "summary.csv",
+        "model.csv",
+        "fit/params.csv",
+        "fit/trials.csv",
+    ] {
+        let text = read(&out.join(file));
+        let bad = formula_cells(&text);
+        if !bad.is_empty() {
+            problems.push(format!("{file}: {:?}", &bad[..bad.len().min(5)]));
+        }
+    }
+    assert!(problems.is_empty(), "{problems:#?}");
+
+    // The text is kept behind the apostrophe.
+    let marks = read(&out.join("marks.csv"));
+    for text in [DAY1, NOTE, REASON, REVIEWER] {
+        let quoted = format!("'{text}");
+        let mut rdr = csv::Reader::from_reader(marks.as_bytes());
+        let hit = rdr
+            .records()
+            .any(|r| r.unwrap().iter().any(|c| c == quoted));
+        assert!(hit, "{quoted:?} not in marks export:\n{marks}");
+    }
+    let summary = read(&out.join("summary.csv"));
+    assert!(summary.contains(&format!("'{CUE}")), "{summary}");
+    assert!(summary.contains(&format!("'{DAY1}")), "{summary}");
+    let trials = read(&out.join("fit/trials.csv"));
+    assert!(trials.contains(&format!("'{DAY1}")), "{trials}");
+    let model = read(&out.join("model.csv"));
+    assert!(model.contains(&format!("'{DAY2}")), "{model}");
+}
