@@ -35,8 +35,13 @@ pub fn lower_bound_from(sorted: &[f64], x: f64, hint: usize) -> usize {
             step *= 2;
         }
     }
-    // Answer ≥ h: gallop forwards, keeping everything before lo < x.
-    let (mut lo, mut step) = (h, 1);
+    // Answer ≥ h. Sweeps mostly move a few elements: look at those first (predictable
+    // branches), then gallop forwards, keeping everything before lo < x.
+    let near = (h + 8).min(n);
+    if let Some(i) = sorted[h..near].iter().position(|&t| t >= x) {
+        return h + i;
+    }
+    let (mut lo, mut step) = (near, 1);
     loop {
         let p = lo + step;
         if p >= n {
