@@ -154,6 +154,10 @@ fn sessions_keep_their_own_marks() {
     assert!(st.status.text.contains("last session"));
     press(&mut st, "[");
     assert_eq!(st.mark_of(2).unwrap().kind, MarkKind::Exclude);
+    // Sessions reopen at the trial last looked at.
+    assert_eq!(st.trial, 1);
+    press(&mut st, "]");
+    assert_eq!(st.trial, 11);
 }
 
 #[test]
@@ -396,4 +400,23 @@ fn saved_fit_parameters_are_used_and_labelled() {
     let (settings, problem) = ModelSettings::from_subject(&dir);
     assert_eq!(settings.source, ParamSource::Defaults);
     assert!(problem.unwrap().starts_with("saved fit not used:"));
+}
+
+#[test]
+fn configured_reasons_are_offered() {
+    let (_tmp, dir) = fixture_copy();
+    let mut opts = options();
+    opts.reasons = vec!["bubble in line".into(), "other".into()];
+    let mut st = state_with(&dir, opts, Keymap::build(&[]).unwrap());
+    press(&mut st, "x");
+    let text = frame_text(80, 24, &st);
+    assert!(text.contains("1  bubble in line"), "{text}");
+    // Only two reasons: 3 picks nothing, the picker stays open.
+    press(&mut st, "3");
+    assert!(matches!(st.overlay, Overlay::Picker { .. }));
+    press(&mut st, "<down><down><enter>fiber slipped<enter>");
+    assert_eq!(
+        marks_rows(&dir, DAY1),
+        [HEADER, "1,exclude,other,fiber slipped,tester"]
+    );
 }

@@ -48,6 +48,7 @@ pub fn build_state(
         overlay: Overlay::None,
         session: 0,
         trial: 0,
+        last_trial: vec![0; n],
         unit: None,
         signal,
         marks: vec![SessionMarks::default(); n],

@@ -151,6 +151,8 @@ pub struct State {
     pub session: usize,
     /// Index into the session's `trials`.
     pub trial: usize,
+    /// Per session, the trial last looked at (sessions reopen where they were left).
+    pub last_trial: Vec<usize>,
     /// Chosen unit of the current session; `None` = all units.
     pub unit: Option<usize>,
     pub signal: SignalKind,

@@ -123,8 +123,9 @@ pub fn open_session(state: &mut State, index: usize) {
         info(state, "this is the last session");
         return;
     }
+    state.last_trial[state.session] = state.trial;
     state.session = index;
-    state.trial = 0;
+    state.trial = state.last_trial[index];
     let units = state
         .current_session()
         .spikes

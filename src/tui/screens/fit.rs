@@ -3,6 +3,7 @@
 //! trial of the current session.
 
 use crate::marks::MarkKind;
+use crate::tui::screens::days::spark;
 use crate::tui::state::State;
 use crate::tui::theme::{Role, Theme};
 use crate::tui::widgets::trial_list::outcome_tag;
@@ -97,6 +98,9 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
             Role::Dim,
         );
     }
+    if area.height >= 30 {
+        render_sparks(buf, area, &mut y, state, theme, &predicted);
+    }
     let header = format!(
         "{:>6} {:<7} {:>9} {:>9}   {:>9} {:>9}",
         "trial",
@@ -150,4 +154,72 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         put(buf, table, 0, dy, glyph, theme.style(role).patch(style));
         put(buf, table, 1, dy, &text, style);
     }
+}
+
+/// Observed and predicted responses across the session's trials, one line each (excluded
+/// trials are gaps; each line is scaled to its own range, so compare shapes, not heights).
+fn render_sparks(
+    buf: &mut Buffer,
+    area: Rect,
+    y: &mut u16,
+    state: &State,
+    theme: &Theme,
+    predicted: &dyn Fn(Option<f64>, bool) -> Option<f64>,
+) {
+    let session = state.current_session();
+    let n = session.trials.len();
+    let series = |f: &dyn Fn(usize) -> Option<f64>| -> Vec<f64> {
+        (0..n)
+            .map(|ti| {
+                let excluded = state.marks[state.session]
+                    .state
+                    .is_excluded(session.trials[ti].number);
+                if excluded {
+                    f64::NAN
+                } else {
+                    f(ti).unwrap_or(f64::NAN)
+                }
+            })
+            .collect()
+    };
+    let obs = |ti: usize, cue: bool| {
+        let o = state.obs[state.span_of(ti)?].as_ref()?;
+        if cue {
+            o.cue
+        } else {
+            o.reward
+        }
+    };
+    let pred = |ti: usize, cue: bool| {
+        let w = state.model.window_deltas[state.span_of(ti)?];
+        predicted(if cue { w.cue } else { w.reward }, cue)
+    };
+    let width = area.width.saturating_sub(18) as usize;
+    let lines: [(&str, Vec<f64>); 4] = [
+        ("cue observed", series(&|t| obs(t, true))),
+        ("cue model", series(&|t| pred(t, true))),
+        ("reward observed", series(&|t| obs(t, false))),
+        ("reward model", series(&|t| pred(t, false))),
+    ];
+    *y += 1;
+    for (label, values) in lines {
+        put(
+            buf,
+            area,
+            1,
+            *y,
+            &format!("{label:>15}"),
+            theme.style(Role::Dim),
+        );
+        put(
+            buf,
+            area,
+            17,
+            *y,
+            &spark(&values, width, theme),
+            theme.style(Role::Plain),
+        );
+        *y += 1;
+    }
+    *y += 1;
 }
