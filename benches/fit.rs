@@ -106,9 +106,10 @@ fn main() {
         &NoProgress,
     );
     println!(
-        "bootstrap, {} replicates: {:.3} s wall",
+        "bootstrap, {} replicates: {:.3} s wall ({} evaluations)",
         iv.n_ok,
-        t.elapsed().as_secs_f64()
+        t.elapsed().as_secs_f64(),
+        iv.evaluations
     );
 
     let t = Instant::now();

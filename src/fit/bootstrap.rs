@@ -52,6 +52,8 @@ pub struct Intervals {
     pub n_ok: usize,
     pub unit: ResampleUnit,
     pub replicates: Vec<Replicate>,
+    /// Objective evaluations (model passes) over all replicates.
+    pub evaluations: usize,
 }
 
 /// Level of the reported intervals.
@@ -115,7 +117,7 @@ pub fn bootstrap(
     progress: &dyn Progress,
 ) -> Intervals {
     let groups = resampling_groups(problem, idx, unit);
-    let replicates: Vec<Option<Replicate>> = (0..n)
+    let replicates: Vec<Option<(Replicate, usize)>> = (0..n)
         .into_par_iter()
         .map(|b| {
             let mut rng = ChaCha8Rng::seed_from_u64(seed);
@@ -126,19 +128,23 @@ pub fn bootstrap(
             }
             let r = refine(problem, &sample, &best.z, opts, opts.max_iters_refine);
             progress.tick();
-            r.map(|f| Replicate {
-                params: f.params,
-                gain: f.linear.gain,
-                baselines: f.linear.baselines,
+            r.map(|f| {
+                let rep = Replicate {
+                    params: f.params,
+                    gain: f.linear.gain,
+                    baselines: f.linear.baselines,
+                };
+                (rep, f.evaluations)
             })
         })
         .collect();
-    let replicates: Vec<Replicate> = replicates.into_iter().flatten().collect();
+    let ok: Vec<(Replicate, usize)> = replicates.into_iter().flatten().collect();
     Intervals {
         n_requested: n,
-        n_ok: replicates.len(),
+        n_ok: ok.len(),
         unit,
-        replicates,
+        evaluations: ok.iter().map(|r| r.1).sum(),
+        replicates: ok.into_iter().map(|r| r.0).collect(),
     }
 }
 
