@@ -6,6 +6,25 @@ pub fn fmt_f64(x: f64) -> String {
     format!("{x}")
 }
 
+/// Text for a terminal or a text file: control characters from data strings (C0 except
+/// newline, DEL, C1; ESC starts terminal escape sequences) are shown escaped, as `\u{1b}`,
+/// instead of being acted on. Text without them is returned as is.
+pub fn printable(s: &str) -> std::borrow::Cow<'_, str> {
+    let bad = |c: char| c != '\n' && c.is_control();
+    if !s.chars().any(bad) {
+        return std::borrow::Cow::Borrowed(s);
+    }
+    let mut out = String::with_capacity(s.len() + 16);
+    for c in s.chars() {
+        if bad(c) {
+            out.extend(c.escape_default());
+        } else {
+            out.push(c);
+        }
+    }
+    std::borrow::Cow::Owned(out)
+}
+
 /// Neutralise a text cell for CSV exports that people open in a spreadsheet: a cell starting
 /// with `=`, `+`, `-`, `@`, a tab or a carriage return could run as a formula, so it gets a
 /// leading apostrophe and keeps its text (the OWASP "CSV injection" advice, common practice).

@@ -149,6 +149,11 @@ pub fn run(args: Args) -> CmdResult {
     };
     let text = render::render(format, &summaries, cohort.as_deref())
         .map_err(|e| CliError::failed(format!("writing CSV: {e}")))?;
+    // Names in the tables come from the data; CSV keeps them as they are.
+    let text = match format {
+        Format::Csv => text,
+        _ => crate::util::printable(&text).into_owned(),
+    };
     match &args.out {
         Some(path) => std::fs::write(path, text)
             .map_err(|e| CliError::failed(format!("{}: {e}", path.display())))?,

@@ -499,10 +499,18 @@ impl<R: BufRead> Table<R> {
     }
 }
 
-/// At most 40 characters of a bad value, for messages.
+/// At most 40 characters of a bad value, for messages, on one line: control characters
+/// (a newline inside quotes, ESC) are shown escaped.
 pub fn shorten(text: &str) -> String {
-    let mut s: String = text.chars().take(40).collect();
-    if s.len() < text.len() {
+    let mut s = String::new();
+    for c in text.chars().take(40) {
+        if c.is_control() {
+            s.extend(c.escape_default());
+        } else {
+            s.push(c);
+        }
+    }
+    if text.chars().nth(40).is_some() {
         s.push('…');
     }
     s

@@ -56,7 +56,17 @@ impl Diagnostic {
 }
 
 impl fmt::Display for Diagnostic {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+    /// Paths and quoted values come from the data: control characters are printed escaped.
+    fn fmt(&self, out: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let mut text = String::new();
+        self.write_raw(&mut text)?;
+        out.write_str(&crate::util::printable(&text))
+    }
+}
+
+impl Diagnostic {
+    fn write_raw(&self, f: &mut String) -> fmt::Result {
+        use std::fmt::Write;
         write!(f, "{}", self.file.display())?;
         if let Some(line) = self.line {
             write!(f, ":{line}")?;
