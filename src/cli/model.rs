@@ -143,7 +143,7 @@ fn write_traces(
         let (values, deltas) = (traces.trial_value(i), traces.trial_delta(i));
         for k in 0..span.n_bins {
             out.write_record([
-                session.name.as_str(),
+                crate::util::csv_safe_cell(&session.name).as_ref(),
                 number.as_str(),
                 &k.to_string(),
                 &fmt_f64(k as f64 * dt),
