@@ -150,7 +150,6 @@ fn the_reviewer_draws_no_control_characters_from_the_data() {
 }
 
 #[test]
-#[ignore = "bug: check and summary print escape sequences from data (paths, cue names, bad values)"]
 fn printed_reports_carry_no_control_characters() {
     let (_tmp, subject) = hostile_subject();
     let s = subject.to_str().unwrap();
@@ -229,7 +228,6 @@ fn read(path: &Path) -> String {
 }
 
 #[test]
-#[ignore = "bug: model --out and fit --out trials.csv write a formula session name unprotected"]
 fn csv_exports_protect_formula_cells_and_keep_their_text() {
     let (tmp, subject) = hostile_subject();
     let out = tmp.path().join("out");
