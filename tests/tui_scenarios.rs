@@ -420,3 +420,21 @@ fn configured_reasons_are_offered() {
         [HEADER, "1,exclude,other,fiber slipped,tester"]
     );
 }
+
+#[test]
+fn other_sessions_journals_are_watched_too() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    let row = MarkRow {
+        trial: Some(4),
+        mark: MarkKind::Exclude,
+        reason: "artifact".into(),
+        note: String::new(),
+        reviewer: "ana".into(),
+        at: marks::now_rfc3339(),
+    };
+    marks::append(&dir.join(DAY2), &row).unwrap();
+    update(&mut st, Action::RefreshMarks);
+    assert_eq!(st.session, 0);
+    assert_eq!(st.days[1].excluded, 1);
+}

@@ -112,6 +112,8 @@ pub fn run(args: Args) -> CmdResult {
     drop(term);
     drop(guard);
     result.map_err(CliError::failed)?;
+    // One last try for rows whose append failed while reviewing.
+    crate::tui::update::update(&mut state, crate::tui::Action::RefreshMarks);
     let unsaved: usize = state.marks.iter().map(|m| m.unsaved.len()).sum();
     if unsaved > 0 {
         return Err(CliError::failed(format!(

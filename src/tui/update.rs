@@ -448,7 +448,7 @@ pub fn reread_journal(state: &mut State, session: usize) -> usize {
     added
 }
 
-/// Retry unsaved rows everywhere, then look for rows other reviewers appended to the current
+/// Retry unsaved rows everywhere, then look for rows other reviewers appended to any
 /// session's journal.
 fn refresh(state: &mut State) {
     let mut retried = 0;
@@ -469,8 +469,11 @@ fn refresh(state: &mut State) {
         state.marks[si].unsaved = left;
         reread_journal(state, si);
     }
-    let si = state.session;
-    let added = reread_journal(state, si);
+    // A stat per session when nothing changed, so every journal is watched (the days screen
+    // counts them all).
+    let added: usize = (0..state.marks.len())
+        .map(|si| reread_journal(state, si))
+        .sum();
     let unsaved: usize = state.marks.iter().map(|m| m.unsaved.len()).sum();
     if retried > 0 && unsaved == 0 {
         state.status = Status {
