@@ -285,7 +285,7 @@ fn control_fit_poor_needs_drift_and_a_control_that_misses_it() {
     let got = only(&s, &RuleSet::default(), "control_fit_poor");
     assert_eq!(got.len(), 20);
     assert!(
-        got[0].1.starts_with("session: the control fit explains"),
+        got[0].1.starts_with("session: the control explains"),
         "{}",
         got[0].1
     );
