@@ -1,14 +1,35 @@
-//! The photometry activity a response is measured on — the seam for preprocessing.
+//! The photometry activity a response is measured on: ΔF/F from [`crate::photometry`].
 //!
-//! Today: the raw `signal` column. The photometry work (ΔF/F with the isosbestic control fitted
-//! to the signal, methods.md §5) replaces the body of [`photometry_activity`]; every caller
-//! (observations, traces, heat rows, the fitter) goes through it, so nothing else changes.
+//! Every caller (observations, traces, heat rows, the fitter) goes through
+//! [`photometry_activity`] or [`photometry_processed`], so they all see the same trace. With an
+//! isosbestic control the control is fitted to the signal (IRLS, Tukey bisquare, whole
+//! session: the library defaults) and ΔF/F = (signal − F̂)/F̂; without one, ΔF/F is taken
+//! against a fitted photobleaching curve, which cannot remove motion artifacts.
+//!
+//! One deviation from [`PreprocessOptions::default`]: the z-score is off
+//! ([`ZScoreMode::None`]). An observation is already a window mean minus the trial's own
+//! pre-cue baseline mean, in ΔF/F units; dividing by the SD of a 1 s baseline (20 samples at
+//! 20 Hz) would add heavy-tailed noise to a Gaussian likelihood. The method string says so.
+//!
+//! Cost: one preprocessing pass per session (a few ms for an hour at 20 Hz). Build a
+//! [`super::SessionActivity`] once per session — or keep the [`Processed`] from
+//! [`photometry_processed`] — never per trial.
 
 use super::ObsError;
-use crate::data::Session;
+use crate::data::{Session, Subject};
+use crate::photometry::{preprocess, PreprocessOptions, Processed, ZScoreMode};
 
-/// One activity value per photometry sample (same length and time base as `time_s`).
-pub fn photometry_activity(session: &Session) -> Result<Vec<f64>, ObsError> {
+/// The preprocessing options the observation layer uses: the library defaults, no z-score.
+pub fn obs_preprocess_options() -> PreprocessOptions {
+    PreprocessOptions {
+        zscore: ZScoreMode::None,
+        ..PreprocessOptions::default()
+    }
+}
+
+/// The session's photometry preprocessed into ΔF/F, with its method, fit and QC figures. Keep
+/// it for as long as the session is shown: it costs a full pass over the recording.
+pub fn photometry_processed(session: &Session) -> Result<Processed, ObsError> {
     let ph = session
         .photometry
         .as_ref()
@@ -17,5 +38,54 @@ pub fn photometry_activity(session: &Session) -> Result<Vec<f64>, ObsError> {
             session: session.name.clone(),
             hint: "no photometry.csv".into(),
         })?;
-    Ok(ph.signal.clone())
+    preprocess(ph, &obs_preprocess_options()).map_err(|e| {
+        let what = match ph.control {
+            Some(_) => "the isosbestic correction",
+            None => "the photobleaching detrend (no control channel)",
+        };
+        // "session X has no usable photometry data (ΔF/F failed in ...: <reason>)"
+        ObsError::SignalAbsent {
+            signal: "usable photometry",
+            session: session.name.clone(),
+            hint: format!("ΔF/F could not be computed by {what}: {e}"),
+        }
+    })
+}
+
+/// One ΔF/F value (a fraction: 0.05 = 5 %) per photometry sample, same length and time base
+/// as `time_s`.
+pub fn photometry_activity(session: &Session) -> Result<Vec<f64>, ObsError> {
+    photometry_processed(session).map(|p| p.dff)
+}
+
+/// How the session's photometry was turned into activity, for reports ("ΔF/F against the
+/// isosbestic control fitted ... ; no z-score"), or why it could not be. Runs the
+/// preprocessing: if the trace is needed too, call [`photometry_processed`] once instead.
+pub fn photometry_method(session: &Session) -> String {
+    match photometry_processed(session) {
+        Ok(p) => p.method,
+        Err(e) => e.to_string(),
+    }
+}
+
+/// The preprocessing of a whole subject in one line per distinct method, with the sessions
+/// that used it counted: "ΔF/F against ... (8 sessions)". Sessions without photometry are
+/// left out; `None` when no session has any. One preprocessing pass per session.
+pub fn photometry_methods(subject: &Subject) -> Option<String> {
+    let mut methods: Vec<(String, usize)> = Vec::new();
+    for s in subject.sessions.iter().filter(|s| s.photometry.is_some()) {
+        let m = photometry_method(s);
+        match methods.iter_mut().find(|(x, _)| *x == m) {
+            Some((_, n)) => *n += 1,
+            None => methods.push((m, 1)),
+        }
+    }
+    if methods.is_empty() {
+        return None;
+    }
+    let lines: Vec<String> = methods
+        .into_iter()
+        .map(|(m, n)| format!("{m} ({n} session{})", if n == 1 { "" } else { "s" }))
+        .collect();
+    Some(lines.join("\n"))
 }
