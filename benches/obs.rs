@@ -116,6 +116,12 @@ fn main() {
         "heat rows: 300 trials × {} bins of 50 ms, 64 units: {ms:.2} ms",
         rows[0].len()
     );
+    // The floor for a population sweep on this machine: reading every spike time once.
+    let trains = &s.spikes.as_ref().unwrap().times;
+    let (ms, total) = best_of(10, || {
+        std::hint::black_box(trains.iter().map(|t| t.iter().sum::<f64>()).sum::<f64>())
+    });
+    println!("reference, one pass over all spike times: {ms:.2} ms (sum {total:.0})");
     if let Some(mb) = vm_hwm_mb() {
         println!("peak memory (VmHWM): {mb:.1} MB");
     }
