@@ -12,6 +12,7 @@ pub mod fit;
 pub mod marks;
 pub mod model;
 pub mod obs;
+pub mod plots;
 pub mod photometry;
 pub mod simulate;
 pub mod suggest;
