@@ -438,3 +438,23 @@ fn other_sessions_journals_are_watched_too() {
     assert_eq!(st.session, 0);
     assert_eq!(st.days[1].excluded, 1);
 }
+
+#[test]
+fn refresh_reaches_through_open_boxes() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    press(&mut st, "nhalf typed");
+    let row = MarkRow {
+        trial: Some(2),
+        mark: MarkKind::Suspect,
+        reason: "artifact".into(),
+        note: String::new(),
+        reviewer: "ana".into(),
+        at: marks::now_rfc3339(),
+    };
+    marks::append(&dir.join(DAY1), &row).unwrap();
+    update(&mut st, Action::RefreshMarks);
+    assert_eq!(st.mark_of(2).unwrap().reviewer, "ana");
+    // The note being typed is untouched.
+    assert!(matches!(&st.overlay, Overlay::Editor { text, .. } if text == "half typed"));
+}

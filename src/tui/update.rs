@@ -19,6 +19,11 @@ pub fn update(state: &mut State, action: Action) {
         state.quit = true;
         return;
     }
+    // The once-a-second refresh arrives whatever box is open.
+    if action == Action::RefreshMarks {
+        refresh(state);
+        return;
+    }
     match state.overlay.clone() {
         Overlay::Picker { kind, selected } => return picker(state, kind, selected, action),
         Overlay::Editor { .. } => return editor(state, action),
@@ -28,10 +33,6 @@ pub fn update(state: &mut State, action: Action) {
                 Action::ToggleHelp | Action::Cancel | Action::Confirm
             ) {
                 state.overlay = Overlay::None;
-                return;
-            }
-            if action == Action::Quit {
-                state.quit = true;
             }
             return;
         }
@@ -92,7 +93,6 @@ pub fn update(state: &mut State, action: Action) {
         }
         Action::NoteSession => open_editor(state, NoteTarget::Session),
         Action::UndoMark => undo(state),
-        Action::RefreshMarks => refresh(state),
         Action::ToggleHelp => state.overlay = Overlay::Help,
         Action::Quit => state.quit = true,
         // Picker and editor keys mean nothing outside them.
