@@ -3,9 +3,12 @@
 //! own file with its own `Args` struct and `run`.
 
 pub mod check;
+pub mod completions;
 pub mod fit;
 pub mod marks;
+pub mod merge;
 pub mod model;
+pub mod plot;
 pub mod review;
 pub mod simulate;
 pub mod summary;
@@ -40,6 +43,14 @@ pub enum Command {
     Marks(marks::Args),
     /// Per-day learning table as text, tidy CSV or Markdown
     Summary(summary::Args),
+    /// Write SVG pictures: learning curves, fit per trial, session heat maps
+    Plot(plot::Args),
+    /// Join per-subject result tables of a cohort fit into one tidy CSV
+    Merge(merge::Args),
+    /// Print a shell completion script (bash, zsh, fish, powershell, elvish)
+    Completions(completions::Args),
+    /// Print or write the manual page (trialdesk.1)
+    Man(completions::ManArgs),
 }
 
 /// A failed command: its exit code and the message for stderr.
@@ -99,6 +110,10 @@ pub fn main() -> i32 {
         Command::Simulate(a) => simulate::run(a),
         Command::Marks(a) => marks::run(a),
         Command::Summary(a) => summary::run(a),
+        Command::Plot(a) => plot::run(a),
+        Command::Merge(a) => merge::run(a),
+        Command::Completions(a) => completions::run(a),
+        Command::Man(a) => completions::run_man(a),
     };
     match result {
         Ok(code) => code,

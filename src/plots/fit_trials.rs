@@ -121,3 +121,24 @@ pub fn fit_trials(title: &str, rows: &[FitTrialRow], unit: &str) -> Result<Strin
     }
     Ok(with_title(svg, &format!("Fit per trial: {title}")))
 }
+
+/// Predictions of every point at fitted parameters: its window's baseline plus gain × (model
+/// δ summed over the point's bins), δ from `run`, one model pass over `data.spans` (the same
+/// closed form the fitter reports; NaN where the window's baseline was not fitted).
+pub fn predictions(
+    data: &FitData,
+    run: &crate::model::TdRun,
+    gain: f64,
+    baselines: [Option<f64>; 2],
+) -> Vec<f64> {
+    data.points
+        .iter()
+        .map(|p| {
+            let delta = run.trial_delta(p.span);
+            let end = (p.end_bin as usize).min(delta.len());
+            let start = (p.first_bin as usize).min(end);
+            let x: f64 = delta[start..end].iter().sum();
+            baselines[p.kind.index()].map_or(f64::NAN, |b| b + gain * x)
+        })
+        .collect()
+}

@@ -1,0 +1,406 @@
+//! `trialdesk plot PATH --out DIR`: SVG pictures for a lab meeting — learning curves,
+//! observed vs predicted per trial (from the saved fit) and one heat map per session.
+//!
+//! Thin shell: load → observations → marks → day rows (and a model pass at the saved fit's
+//! parameters) → `crate::plots` → files in `--out` only.
+
+use super::summary::{ObsArgs, SignalArg};
+use super::{CliError, CmdResult};
+use crate::data::{self, Session, Subject};
+use crate::fit::dataset;
+use crate::fit::saved::{load_saved, SavedFit};
+use crate::marks::{read_journal, MarkKind, MarkState};
+use crate::model::{self, layout_subject, Representation, TdParams};
+use crate::obs::{
+    alignment_time, observe_lenient, window_delta_sums, ObsOptions, SessionActivity, Signal,
+    TrialKind, TrialObs,
+};
+use crate::plots::{self, fit_trials, HeatMap, TrialCurves};
+use crate::summary::{day_rows, ModelTraces};
+use std::collections::HashMap;
+use std::path::{Path, PathBuf};
+
+#[derive(clap::Args, Debug)]
+#[command(after_help = "Writes, into --out only:\n  \
+learning_curves.svg   cue and reward responses and model δ by day and by trial\n  \
+fit_trials.svg        observed vs predicted per trial (needs a saved fit: trialdesk fit PATH)\n  \
+heatmap_<session>.svg trial × time activity of each session\n\
+Model δ and predictions are recomputed from the saved fit (trialdesk-fit.toml) with today's \
+marks; without one the model panels say so. Trials marked exclude are left out of the curves \
+and drawn hollow in fit_trials.svg.")]
+pub struct Args {
+    /// A subject folder, or one session folder (heat map and curves of that session only)
+    pub path: PathBuf,
+    /// Folder to write the SVG files into (created if needed)
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+    #[command(flatten)]
+    pub obs: ObsArgs,
+    /// Heat map bin width, seconds
+    #[arg(long, default_value_t = 0.05, value_name = "SECONDS")]
+    pub heat_bin: f64,
+    /// Only the heat maps of these sessions (folder names; repeat the option for more)
+    #[arg(long, value_name = "NAME")]
+    pub session: Vec<String>,
+    /// Leave the model out even when a saved fit exists
+    #[arg(long)]
+    pub no_model: bool,
+}
+
+fn warn(msg: impl std::fmt::Display) {
+    eprintln!("trialdesk: warning: {msg}");
+}
+
+fn obs_options(
+    subject: &Subject,
+    a: &ObsArgs,
+    saved: Option<&SavedFit>,
+) -> Result<ObsOptions, CliError> {
+    let signal = match a.signal {
+        SignalArg::Spikes => Signal::Spikes {
+            unit: a.unit.clone(),
+        },
+        SignalArg::Photometry => Signal::Photometry,
+        SignalArg::Auto
+            if a.unit.is_some() || subject.sessions.iter().any(|s| s.spikes.is_some()) =>
+        {
+            Signal::Spikes {
+                unit: a.unit.clone(),
+            }
+        }
+        SignalArg::Auto if subject.sessions.iter().any(|s| s.photometry.is_some()) => {
+            Signal::Photometry
+        }
+        SignalArg::Auto => {
+            return Err(CliError::failed(format!(
+                "{}: nothing to draw: no session has spikes.csv or photometry.csv",
+                subject.root.display()
+            )))
+        }
+    };
+    if a.unit.is_some() && signal == Signal::Photometry {
+        return Err(CliError::usage("--unit applies to spikes, not photometry"));
+    }
+    let base = match signal {
+        Signal::Photometry => ObsOptions::photometry(),
+        _ => ObsOptions::default(),
+    };
+    let pair = |v: Option<[f64; 2]>| v.map(|[x, y]| (x, y));
+    let opts = ObsOptions {
+        cue_window: a
+            .cue_window
+            .or(pair(saved.and_then(|s| s.cue_window_s)))
+            .unwrap_or(base.cue_window),
+        reward_window: a
+            .reward_window
+            .or(pair(saved.and_then(|s| s.reward_window_s)))
+            .unwrap_or(base.reward_window),
+        baseline: a
+            .baseline
+            .or(pair(saved.and_then(|s| s.baseline_window_s)))
+            .unwrap_or(base.baseline),
+        latency: a
+            .latency
+            .or(saved.and_then(|s| s.latency_s))
+            .unwrap_or(base.latency),
+        signal,
+    };
+    opts.validate()
+        .map_err(|e| CliError::usage(e.to_string()))?;
+    Ok(opts)
+}
+
+/// Standing marks per session; an unreadable journal is warned about and read as no marks
+/// (a picture should not fail for it, but the warning says the exclusions are missing).
+fn read_marks(subject: &Subject) -> Vec<MarkState> {
+    subject
+        .sessions
+        .iter()
+        .map(|s| match read_journal(&s.dir) {
+            Ok(j) => j.state(),
+            Err(e) => {
+                warn(format!("{e}; this session is drawn without its marks"));
+                MarkState::default()
+            }
+        })
+        .collect()
+}
+
+fn unit_label(signal: &Signal) -> &'static str {
+    match signal {
+        Signal::Photometry => "ΔF/F",
+        Signal::Spikes { .. } => "spikes/s",
+    }
+}
+
+/// A session folder name as a file-name part: anything but letters, digits, '-', '_' and '.'
+/// becomes '_' (folder names come from data and may hold anything).
+pub fn file_part(name: &str) -> String {
+    let s: String = name
+        .chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || matches!(c, '-' | '_' | '.') {
+                c
+            } else {
+                '_'
+            }
+        })
+        .collect();
+    match s.trim_matches('.') {
+        "" => "session".to_string(),
+        t => t.to_string(),
+    }
+}
+
+/// One session's heat map: rows = trials in order, from the baseline start to the longest
+/// reward delay + 1 s.
+fn session_heatmap(
+    session: &Session,
+    opts: &ObsOptions,
+    marks: &MarkState,
+    bin_s: f64,
+) -> Result<HeatMap, String> {
+    let act = SessionActivity::new(session, &opts.signal).map_err(|e| e.to_string())?;
+    let max_delay = session
+        .meta
+        .cues
+        .iter()
+        .filter_map(|c| c.reward_delay_s)
+        .fold(0.0, f64::max);
+    let from = opts.baseline.0.min(0.0);
+    let to = max_delay + model::POST_S;
+    let trials: Vec<_> = session
+        .trials
+        .iter()
+        .filter_map(|t| Some((t, alignment_time(t)?)))
+        .collect();
+    let t0s: Vec<f64> = trials.iter().map(|(_, t0)| *t0).collect();
+    let rows = act.traces(&t0s, from, to, bin_s);
+    let row_labels = trials
+        .iter()
+        .map(|(t, _)| {
+            let kind = TrialKind::of(session, t).map_or("", |k| k.name());
+            let mark = match marks.marks.get(&t.number).map(|m| m.kind) {
+                Some(MarkKind::Exclude) => " ✗",
+                Some(MarkKind::Suspect) => " ?",
+                _ => "",
+            };
+            format!("{} {kind}{mark}", t.number)
+        })
+        .collect();
+    let mut events = vec![(0.0, "cue".to_string())];
+    for c in &session.meta.cues {
+        if let Some(d) = c.reward_delay_s {
+            events.push((d, format!("reward ({})", c.name)));
+        }
+    }
+    Ok(HeatMap {
+        title: format!("{} — {}", session.name, opts.signal.label()),
+        row_labels,
+        rows,
+        from_s: from,
+        bin_s,
+        events,
+        unit: unit_label(&opts.signal).to_string(),
+    })
+}
+
+fn model_params(fit: &SavedFit) -> Option<TdParams> {
+    Some(TdParams {
+        alpha: fit.alpha,
+        gamma: fit.gamma,
+        lambda: fit.lambda,
+        dt: fit.dt,
+        representation: Representation::parse(&fit.representation)?,
+    })
+}
+
+fn write_svg(
+    dir: &Path,
+    name: &str,
+    svg: &str,
+    written: &mut Vec<PathBuf>,
+) -> Result<(), CliError> {
+    let path = dir.join(name);
+    std::fs::write(&path, svg)
+        .map_err(|e| CliError::failed(format!("{}: cannot write: {e}", path.display())))?;
+    written.push(path);
+    Ok(())
+}
+
+pub fn run(args: Args) -> CmdResult {
+    if !(args.heat_bin > 0.0 && args.heat_bin.is_finite()) {
+        return Err(CliError::usage(format!(
+            "--heat-bin {} must be a bin width in seconds > 0",
+            args.heat_bin
+        )));
+    }
+    let loaded = data::load(&args.path).map_err(|f| {
+        CliError::failed(format!(
+            "{}\n{}: data did not load; nothing drawn",
+            f.to_string().trim_end(),
+            args.path.display()
+        ))
+    })?;
+    for w in &loaded.warnings {
+        eprintln!("{w}");
+    }
+    let subject = loaded.subject;
+    let single_session = args.path.join(data::meta::SESSION_FILE).is_file();
+    let saved = if single_session || args.no_model {
+        None
+    } else {
+        match load_saved(&subject.root) {
+            Some(Ok(f)) => Some(f),
+            Some(Err(e)) => {
+                warn(format!("{e}; the model panels are left empty"));
+                None
+            }
+            None => None,
+        }
+    };
+    let params = saved.as_ref().and_then(|f| {
+        let p = model_params(f);
+        if p.is_none() {
+            warn(format!(
+                "saved fit: unknown representation '{}'; the model panels are left empty",
+                f.representation
+            ));
+        }
+        p
+    });
+    let opts = obs_options(&subject, &args.obs, saved.as_ref())?;
+    let (obs, problems) =
+        observe_lenient(&subject, &opts).map_err(|e| CliError::usage(e.to_string()))?;
+    if !problems.is_empty() && obs.iter().all(|o| o.cue.is_none() && o.reward.is_none()) {
+        return Err(CliError::failed(problems[0].to_string()));
+    }
+    for p in &problems {
+        warn(format!("{p}; its responses are left out"));
+    }
+    let marks = read_marks(&subject);
+    for s in &args.session {
+        if !subject.sessions.iter().any(|x| &x.name == s) {
+            return Err(CliError::usage(format!(
+                "--session '{s}': no such session folder in {}",
+                subject.root.display()
+            )));
+        }
+    }
+
+    std::fs::create_dir_all(&args.out).map_err(|e| {
+        CliError::failed(format!("{}: cannot create folder: {e}", args.out.display()))
+    })?;
+    let name = subject
+        .sessions
+        .first()
+        .map(|s| s.meta.subject.clone())
+        .unwrap_or_else(|| args.path.display().to_string());
+    let unit = unit_label(&opts.signal);
+    let mut written = Vec::new();
+
+    // One model pass at the saved parameters serves the curves and the predictions.
+    let model_run = params.map(|p| {
+        let spans = layout_subject(&subject, p.dt);
+        let run = model::run(&spans, subject.cue_names().len(), &p);
+        (spans, run, p)
+    });
+    let traces = model_run.as_ref().map(|(spans, run, p)| ModelTraces {
+        spans,
+        run,
+        dt: p.dt,
+        opts: &opts,
+    });
+    let days = day_rows(&subject, &obs, &marks, traces);
+    let excluded = |o: &TrialObs| {
+        marks
+            .get(o.session)
+            .is_some_and(|m| m.is_excluded(subject.sessions[o.session].trials[o.trial].number))
+    };
+    let kept: Vec<TrialObs> = obs.iter().filter(|o| !excluded(o)).cloned().collect();
+    let deltas = model_run.as_ref().map(|(spans, run, p)| {
+        let index: HashMap<(usize, usize), usize> = spans
+            .iter()
+            .enumerate()
+            .map(|(i, s)| ((s.session, s.trial), i))
+            .collect();
+        kept.iter()
+            .map(|o| {
+                let &i = index.get(&(o.session, o.trial))?;
+                Some(window_delta_sums(
+                    &spans[i],
+                    run.trial_delta(i),
+                    &opts,
+                    p.dt,
+                ))
+            })
+            .collect::<Vec<_>>()
+    });
+    let curves = TrialCurves {
+        obs: &kept,
+        deltas: deltas.as_deref(),
+        unit,
+    };
+    let svg = plots::learning_curves(&name, &days, &curves)
+        .map_err(|e| CliError::failed(e.to_string()))?;
+    write_svg(&args.out, "learning_curves.svg", &svg, &mut written)?;
+
+    match (&saved, &model_run) {
+        (Some(fit), Some((_, _, p))) => {
+            let data = dataset::build(&subject, &obs, &opts, p.dt, &marks, false);
+            let run = model::run(&data.spans, data.n_cues, p);
+            let predicted = fit_trials::predictions(
+                &data,
+                &run,
+                fit.gain,
+                [fit.baselines.cue, fit.baselines.reward],
+            );
+            let rows = fit_trials::rows_from(&data, &predicted);
+            let title = format!(
+                "{name}, {} α={:.4} γ={:.4} λ={:.3} (saved {})",
+                fit.representation, fit.alpha, fit.gamma, fit.lambda, fit.fitted_at
+            );
+            let svg = plots::fit_trials(&title, &rows, unit)
+                .map_err(|e| CliError::failed(e.to_string()))?;
+            write_svg(&args.out, "fit_trials.svg", &svg, &mut written)?;
+        }
+        _ if !single_session && !args.no_model => eprintln!(
+            "trialdesk: fit_trials.svg not written: no usable saved fit in {} (run trialdesk fit {})",
+            subject.root.display(),
+            args.path.display()
+        ),
+        _ => {}
+    }
+
+    let mut used: HashMap<String, usize> = HashMap::new();
+    for (si, session) in subject.sessions.iter().enumerate() {
+        if !args.session.is_empty() && !args.session.contains(&session.name) {
+            continue;
+        }
+        let empty = MarkState::default();
+        match session_heatmap(
+            session,
+            &opts,
+            marks.get(si).unwrap_or(&empty),
+            args.heat_bin,
+        ) {
+            Ok(map) => {
+                let svg = plots::heatmap(&map).map_err(|e| CliError::failed(e.to_string()))?;
+                // Two folder names can map to one file name: number the later ones.
+                let part = file_part(&session.name);
+                let n = used.entry(part.clone()).or_insert(0);
+                *n += 1;
+                let file = match *n {
+                    1 => format!("heatmap_{part}.svg"),
+                    k => format!("heatmap_{part}_{k}.svg"),
+                };
+                write_svg(&args.out, &file, &svg, &mut written)?;
+            }
+            Err(e) => warn(format!("{}: no heat map: {e}", session.name)),
+        }
+    }
+    for p in &written {
+        println!("{}", p.display());
+    }
+    Ok(0)
+}
