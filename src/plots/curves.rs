@@ -190,6 +190,7 @@ fn draw_day_row(areas: &[panel::Area], rows: &[DayRow], unit: &str) -> Result<()
             series: &observed,
             vlines: &[],
             empty_note: "no responses measured",
+            integer_x: true,
         },
     )?;
     panel::draw(
@@ -201,6 +202,7 @@ fn draw_day_row(areas: &[panel::Area], rows: &[DayRow], unit: &str) -> Result<()
             series: &model,
             vlines: &[],
             empty_note: "no model δ (no saved fit: run trialdesk fit)",
+            integer_x: true,
         },
     )
 }
@@ -216,6 +218,7 @@ fn draw_trial_row(areas: &[panel::Area], t: &TrialCurves) -> Result<(), PlotErro
             series: &observed,
             vlines: &boundaries,
             empty_note: "no responses measured",
+            integer_x: true,
         },
     )?;
     panel::draw(
@@ -227,6 +230,7 @@ fn draw_trial_row(areas: &[panel::Area], t: &TrialCurves) -> Result<(), PlotErro
             series: &model,
             vlines: &boundaries,
             empty_note: "no model δ (no saved fit: run trialdesk fit)",
+            integer_x: true,
         },
     )
 }

@@ -1,6 +1,7 @@
 //! Observed vs predicted, trial by trial: one panel per response window (cue, reward), the
 //! observed responses as dots (excluded trials hollow and grey: the model still ran over
-//! them, they just left the likelihood) and the fitted prediction as a black line.
+//! them, they just left the likelihood) and the fitted prediction as small black dots (a
+//! line would zig-zag: one window mixes rewarded, omission and uncued trials).
 
 use super::panel::{self, Panel, Series, GUIDE, PALETTE};
 use super::{with_title, PlotError};
@@ -8,7 +9,7 @@ use crate::fit::{FitData, WindowKind};
 use plotters::prelude::*;
 use std::collections::HashMap;
 
-/// Colour of the prediction line (tests find the line by it).
+/// Colour of the prediction dots (tests find them by it).
 pub const PREDICTED: RGBColor = RGBColor(0, 0, 0);
 /// Colour of included observations.
 pub const OBSERVED: RGBColor = PALETTE[0];
@@ -99,7 +100,8 @@ pub fn fit_trials(title: &str, rows: &[FitTrialRow], unit: &str) -> Result<Strin
                     .map(|&i| (xs[i], Some(rows[i].predicted)))
                     .collect(),
             );
-            predicted.marker = 0;
+            predicted.line = false;
+            predicted.marker = 1;
             let series = [
                 dots(Series::new("observed", OBSERVED, pick(false)), false),
                 dots(Series::new("observed, excluded", GUIDE, pick(true)), true),
@@ -114,6 +116,7 @@ pub fn fit_trials(title: &str, rows: &[FitTrialRow], unit: &str) -> Result<Strin
                     series: &series,
                     vlines: &boundaries,
                     empty_note: &format!("no {} responses were fitted", kind.name()),
+                    integer_x: true,
                 },
             )?;
         }

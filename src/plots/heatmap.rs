@@ -88,7 +88,7 @@ pub fn heatmap(map: &HeatMap) -> Result<String, PlotError> {
             .caption(clean_label(&map.title), ("sans-serif", 17))
             .margin(12)
             .x_label_area_size(38)
-            .y_label_area_size(90)
+            .y_label_area_size(150)
             .build_cartesian_2d(x0..x1, 0.0..y1)?;
         chart
             .configure_mesh()

@@ -67,6 +67,8 @@ pub struct Panel<'s> {
     pub vlines: &'s [f64],
     /// Shown in place of the chart when no series has a point.
     pub empty_note: &'s str,
+    /// x counts days or trials: tick labels without decimals.
+    pub integer_x: bool,
 }
 
 /// Range of `values` padded by 5 %, always containing 0 (responses are relative to baseline).
@@ -121,6 +123,10 @@ pub fn draw(area: &Area, panel: &Panel) -> Result<(), PlotError> {
         .bold_line_style(RGBColor(235, 235, 235))
         .label_style(("sans-serif", 12))
         .axis_desc_style(("sans-serif", 13))
+        .x_label_formatter(&|x: &f64| match panel.integer_x {
+            true => format!("{x:.0}"),
+            false => format!("{x}"),
+        })
         .draw()?;
     let guide = GUIDE.stroke_width(1);
     for &x in panel.vlines {
