@@ -5,7 +5,9 @@ use std::collections::HashMap;
 use std::path::Path;
 use trialdesk::data::load;
 use trialdesk::model::layout_subject;
-use trialdesk::obs::{observe, observe_trial, ObsOptions, SessionActivity, TrialKind};
+use trialdesk::obs::{
+    observe, observe_trial, photometry_activity, ObsOptions, SessionActivity, TrialKind,
+};
 
 const FIXTURE: &str = "tests/fixtures/obs";
 
@@ -97,4 +99,25 @@ fn photometry_window_means_match_numpy_on_the_raw_signal() {
         checked += 1;
     }
     assert_eq!(checked, 48);
+}
+
+/// `Signal::Photometry` goes through the seam: `observe` equals the window rules applied to
+/// whatever `photometry_activity` returns (ΔF/F once preprocessing is in place).
+#[test]
+fn photometry_signal_goes_through_photometry_activity() {
+    let subject = load(&Path::new(FIXTURE).join("m-007")).unwrap().subject;
+    let opts = ObsOptions::photometry();
+    let obs = observe(&subject, &opts).unwrap();
+    assert_eq!(obs.len(), 48);
+    for (si, s) in subject.sessions.iter().enumerate() {
+        let ph = s.photometry.as_ref().unwrap();
+        let act = SessionActivity::from_samples(&ph.time_s, photometry_activity(s).unwrap());
+        for o in obs.iter().filter(|o| o.session == si) {
+            let want = observe_trial(s, &s.trials[o.trial], &act, &opts).unwrap();
+            assert!(
+                same(o.cue, want.cue) && same(o.reward, want.reward),
+                "{o:?} vs {want:?}"
+            );
+        }
+    }
 }

@@ -1,9 +1,10 @@
 //! Observation windows on hand-built sessions: known spikes give known rates.
 
-use trialdesk::data::{CueDef, Photometry, Session, SessionMeta, Spikes, Subject, Trial};
+use trialdesk::data::{CueDef, Session, SessionMeta, Spikes, Subject, Trial};
 use trialdesk::model::{layout_subject, run, TdParams};
 use trialdesk::obs::{
-    activity_trace, observe, window_delta_sums, ObsError, ObsOptions, Signal, TrialKind,
+    activity_trace, observe, observe_trial, window_delta_sums, ObsError, ObsOptions,
+    SessionActivity, Signal, TrialKind,
 };
 
 fn trial(number: i64, cue: Option<usize>, cue_s: Option<f64>, reward_s: Option<f64>) -> Trial {
@@ -188,35 +189,35 @@ fn absent_signal_and_bad_windows_are_clear_errors() {
 
 #[test]
 fn photometry_window_mean_minus_baseline_on_a_ramp() {
-    let mut s = four_kinds();
-    // 20 Hz samples of signal = t: the mean over the samples in [a, b) of a ramp is the mean of
+    // The window arithmetic on raw samples (SessionActivity::from_samples), independent of the
+    // ΔF/F preprocessing that Signal::Photometry applies.
+    // 20 Hz samples of value = t: the mean over the samples in [a, b) of a ramp is the mean of
     // those sample times (closed form). Baseline [9, 10): samples 9.00..9.95 → mean 9.475.
     // Cue window [10, 11): 10.00..10.95 → 10.475. Response = 1.0 exactly.
+    let s = four_kinds();
     let time: Vec<f64> = (0..1000).map(|i| i as f64 * 0.05).collect();
-    s.photometry = Some(Photometry {
-        signal: time.clone(),
-        time_s: time,
-        control: None,
-    });
-    let obs = observe(&subject(vec![s]), &ObsOptions::photometry()).unwrap();
-    assert!(close(obs[0].cue, 1.0), "{:?}", obs[0].cue);
+    let act = SessionActivity::from_samples(&time, time.clone());
+    let opts = ObsOptions::photometry();
+    let o = observe_trial(&s, &s.trials[0], &act, &opts).unwrap();
+    assert!(close(o.cue, 1.0), "{:?}", o.cue);
     // Reward at 11.5: window [11.5, 12.5) mean 11.975; minus 9.475 → 2.5.
-    assert!(close(obs[0].reward, 2.5), "{:?}", obs[0].reward);
+    assert!(close(o.reward, 2.5), "{:?}", o.reward);
+    // The batch sweep gives the same.
+    let m = act.means(&[(9.0, 10.0), (10.0, 11.0), (11.5, 12.5)]);
+    assert!(close(m[0], 9.475) && close(m[1], 10.475) && close(m[2], 11.975));
 }
 
 #[test]
 fn photometry_past_the_recording_is_no_observation() {
-    let mut s = four_kinds();
+    let s = four_kinds();
     let time: Vec<f64> = (0..300).map(|i| i as f64 * 0.05).collect(); // ends at 14.95 s
-    s.photometry = Some(Photometry {
-        signal: vec![1.0; 300],
-        time_s: time,
-        control: None,
-    });
-    let obs = observe(&subject(vec![s]), &ObsOptions::photometry()).unwrap();
-    assert!(close(obs[0].cue, 0.0));
-    assert_eq!(obs[1].cue, None);
-    assert_eq!(obs[1].reward, None);
+    let act = SessionActivity::from_samples(&time, vec![1.0; 300]);
+    let opts = ObsOptions::photometry();
+    let first = observe_trial(&s, &s.trials[0], &act, &opts).unwrap();
+    assert!(close(first.cue, 0.0));
+    let second = observe_trial(&s, &s.trials[1], &act, &opts).unwrap();
+    assert_eq!(second.cue, None);
+    assert_eq!(second.reward, None);
 }
 
 #[test]

@@ -215,6 +215,11 @@ fn summarise(dir: &Path, args: &Args) -> Result<SubjectSummary, CliError> {
         opts.baseline.0,
         opts.baseline.1
     )];
+    if opts.signal == Signal::Photometry {
+        if let Some(methods) = crate::obs::photometry::photometry_methods(&subject) {
+            notes.extend(methods.lines().map(|m| format!("photometry: {m}")));
+        }
+    }
     notes.push(exclusion_note(&marks));
 
     let params = model_params(&subject, args, saved.as_ref(), single_session, &mut notes)?;

@@ -36,12 +36,13 @@ pub enum Signal {
 }
 
 impl Signal {
-    /// Short label for headers and messages ("population rate", "unit u3", "photometry").
+    /// Short label for headers and messages ("population rate (spikes/s)", "unit u3 rate
+    /// (spikes/s)", "photometry ΔF/F"); [`photometry::photometry_methods`] says how ΔF/F was made.
     pub fn label(&self) -> String {
         match self {
             Signal::Spikes { unit: None } => "population rate (spikes/s)".to_string(),
             Signal::Spikes { unit: Some(u) } => format!("unit {u} rate (spikes/s)"),
-            Signal::Photometry => "photometry signal".to_string(),
+            Signal::Photometry => "photometry ΔF/F".to_string(),
         }
     }
 }
