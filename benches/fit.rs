@@ -65,12 +65,14 @@ fn main() {
     };
     let reps = 20;
     let t = Instant::now();
+    let c = cpu_s();
     for _ in 0..reps {
         std::hint::black_box(problem.cost(&problem.to_z(&params), &idx));
     }
     println!(
-        "one objective evaluation (model pass + window sums + least squares): {:.2} ms",
-        t.elapsed().as_secs_f64() * 1e3 / reps as f64
+        "one objective evaluation (model pass + window sums + least squares): {:.2} ms wall, {:.2} ms CPU",
+        t.elapsed().as_secs_f64() * 1e3 / reps as f64,
+        (cpu_s() - c) * 1e3 / reps as f64
     );
 
     let t = Instant::now();
@@ -87,6 +89,7 @@ fn main() {
     );
 
     let t = Instant::now();
+    let c = cpu_s();
     let prof = bootstrap::gamma_profile(&problem, &idx, &best, &opts.search, &NoProgress);
     println!(
         "gamma profile (4 points): {:.3} s, flat = {}",
@@ -95,6 +98,7 @@ fn main() {
     );
 
     let t = Instant::now();
+    let c = cpu_s();
     let iv = bootstrap::bootstrap(
         &problem,
         &idx,
@@ -106,18 +110,21 @@ fn main() {
         &NoProgress,
     );
     println!(
-        "bootstrap, {} replicates: {:.3} s wall ({} evaluations)",
+        "bootstrap, {} replicates: {:.3} s wall, {:.2} s CPU ({} evaluations)",
         iv.n_ok,
         t.elapsed().as_secs_f64(),
+        cpu_s() - c,
         iv.evaluations
     );
 
     let t = Instant::now();
+    let c = cpu_s();
     let rows = compare::compare(&data, &idx, &opts, (problem.model, &best), &NoProgress);
     println!(
-        "model comparison ({} models, held-out refits): {:.3} s",
+        "model comparison ({} models, held-out refits): {:.3} s wall, {:.2} s CPU",
         rows.len(),
-        t.elapsed().as_secs_f64()
+        t.elapsed().as_secs_f64(),
+        cpu_s() - c
     );
     println!(
         "peak memory overall (VmHWM): {:.1} MB",

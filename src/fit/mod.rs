@@ -159,11 +159,12 @@ pub fn validate(data: &FitData) -> Result<Vec<usize>, FitError> {
         });
     }
     let first = data.points[included[0]].observed;
-    let spread = included
-        .iter()
-        .map(|&i| (data.points[i].observed - first).abs())
-        .fold(0.0, f64::max);
-    if spread <= 1e-12 * first.abs().max(1e-300) || spread == 0.0 {
+    let (spread, max_abs) = included.iter().fold((0.0f64, 0.0f64), |(s, m), &i| {
+        let y = data.points[i].observed;
+        (s.max((y - first).abs()), m.max(y.abs()))
+    });
+    // Relative test: a spread at rounding level of the values is no spread.
+    if spread <= 1e-12 * max_abs || spread == 0.0 {
         return Err(FitError::ZeroVariance {
             n: included.len(),
             value: first,
@@ -204,6 +205,20 @@ pub fn run_fit(
             "the fitted gain is {} (not positive): the responses do not rise with the model's \
              prediction error, so the learning parameters mean little",
             report::num(best.linear.gain)
+        ));
+    }
+
+    let p = best.params;
+    if p.alpha > 0.999 || p.alpha < 1e-4 {
+        warnings.push(format!(
+            "α = {} sits at the edge of its range: the data may not inform the learning rate",
+            report::num(p.alpha)
+        ));
+    }
+    if problem.has_gamma() && (p.gamma > 0.9999 || p.gamma < 1e-4) {
+        warnings.push(format!(
+            "γ = {} sits at the edge of its range [0, 1)",
+            report::num(p.gamma)
         ));
     }
 
