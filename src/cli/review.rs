@@ -116,11 +116,62 @@ pub fn run(args: Args) -> CmdResult {
     crate::tui::update::update(&mut state, crate::tui::Action::RefreshMarks);
     let unsaved: usize = state.marks.iter().map(|m| m.unsaved.len()).sum();
     if unsaved > 0 {
-        return Err(CliError::failed(format!(
-            "{unsaved} mark row(s) could not be written to marks.csv and are lost; see the errors shown while reviewing"
-        )));
+        let base = directories::ProjectDirs::from("", "", "trialdesk")
+            .map_or_else(std::env::temp_dir, |d| d.data_dir().to_path_buf())
+            .join("unsaved-marks");
+        let mut lines = vec![format!(
+            "{unsaved} mark row(s) could not be written to the data folder's marks.csv:"
+        )];
+        for (session, result) in save_unsaved_elsewhere(&state, &base) {
+            lines.push(match result {
+                Ok(file) => format!(
+                    "  {}: kept in {} (same columns: append its rows, without the header, \
+                     to {}/marks.csv once the folder is writable)",
+                    session.display(),
+                    file.display(),
+                    session.display()
+                ),
+                Err(e) => format!(
+                    "  {}: LOST, could not save elsewhere either: {e}",
+                    session.display()
+                ),
+            });
+        }
+        return Err(CliError::failed(lines.join("\n")));
     }
     Ok(0)
+}
+
+/// Journal rows that could not be appended in their session folder (read-only, full disk),
+/// appended instead to a journal of their own under `base` (one folder per session and
+/// time), so a reviewer's work outlives an unwritable data folder. Returns, per session with
+/// such rows, the session folder and the file written (or why not).
+pub fn save_unsaved_elsewhere(
+    state: &crate::tui::state::State,
+    base: &Path,
+) -> Vec<(PathBuf, Result<PathBuf, String>)> {
+    let stamp = crate::marks::now_rfc3339().replace(':', "-");
+    let mut out = Vec::new();
+    for (i, m) in state.marks.iter().enumerate() {
+        if m.unsaved.is_empty() {
+            continue;
+        }
+        let session = &state.subject.sessions[i];
+        let dir = base.join(format!(
+            "{}-{stamp}",
+            session.name.replace(['/', '\\'], "_")
+        ));
+        let result = std::fs::create_dir_all(&dir)
+            .map_err(|e| format!("{}: {e}", dir.display()))
+            .and_then(|_| {
+                for row in &m.unsaved {
+                    crate::marks::append(&dir, row).map_err(|e| e.to_string())?;
+                }
+                Ok(dir.join(crate::marks::MARKS_FILE))
+            });
+        out.push((session.dir.clone(), result));
+    }
+    out
 }
 
 /// Colour unless NO_COLOR is set to a non-empty value (no-color.org).
