@@ -11,6 +11,8 @@
 //! `marks.csv` that is a folder and by a session path whose parent is a regular file; both
 //! fail in `open`, the same call a read-only folder fails in.
 
+mod tui_support;
+
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output, Stdio};
@@ -324,4 +326,30 @@ fn a_fit_that_cannot_save_beside_the_data_says_so() {
     assert_eq!(o.status.code(), Some(1), "{err}");
     let report = String::from_utf8_lossy(&o.stdout);
     assert!(report.contains("alpha"), "no report printed: {report}");
+}
+
+/// The reviewer with a journal it cannot write: the mark stays in memory, the screen says
+/// NOT SAVED, and on the way out the rows go to a journal elsewhere that reads back whole.
+#[test]
+fn the_reviewer_keeps_unwritable_marks_and_saves_them_elsewhere() {
+    let (tmp, dir) = tui_support::fixture_copy();
+    let session = dir.join("2026-03-02");
+    std::fs::create_dir(session.join("marks.csv")).unwrap();
+    let mut st = tui_support::state(&dir);
+    tui_support::press(&mut st, "jjx3");
+    assert!(st.status.text.contains("NOT SAVED"), "{}", st.status.text);
+    assert_eq!(st.mark_of(3).map(|m| m.kind), Some(MarkKind::Exclude));
+
+    let fallback = tmp.path().join("elsewhere");
+    let saved = trialdesk::cli::review::save_unsaved_elsewhere(&st, &fallback);
+    assert_eq!(saved.len(), 1);
+    let (from, result) = &saved[0];
+    assert_eq!(from, &session);
+    let file = result.as_ref().unwrap();
+    assert!(file.starts_with(&fallback));
+    let journal = marks::read_journal(file.parent().unwrap()).unwrap();
+    assert_eq!(journal.rows.len(), 1);
+    assert_eq!(journal.rows[0].trial, Some(3));
+    assert_eq!(journal.rows[0].mark, MarkKind::Exclude);
+    assert!(session.join("marks.csv").is_dir(), "data folder untouched");
 }
