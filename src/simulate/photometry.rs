@@ -58,7 +58,7 @@ impl PhotometryParams {
         if !(ok(self.tau_rise_s) && ok(self.tau_decay_s) && self.tau_rise_s < self.tau_decay_s) {
             return Err("sensor kernel needs 0 < rise < decay time constant".into());
         }
-        if !(ok(self.f0_signal) && ok(self.f0_control)) || !self.noise_frac.is_finite() {
+        if !(ok(self.f0_signal) && ok(self.f0_control) && self.noise_frac.is_finite()) {
             return Err("photometry baselines must be positive and noise finite".into());
         }
         if let Some(b) = &self.bleaching {

@@ -69,7 +69,7 @@ pub(super) fn unit_drift(
         for r in &rates {
             prefix.push(prefix.last().copied().unwrap_or(0.0) + r);
         }
-        for j in 0..trials.len() {
+        for (j, flags) in per_trial.iter_mut().enumerate() {
             let lo = j.saturating_sub(half);
             let hi = (j + half + 1).min(trials.len());
             let n = (hi - lo) as f64;
@@ -77,7 +77,7 @@ pub(super) fn unit_drift(
             let z = (smoothed - median) / (sigma / n.sqrt());
             let change = (smoothed - median).abs();
             if z.abs() > p.k && change >= p.min_change * median && change > 0.0 {
-                per_trial[j].push(Drift {
+                flags.push(Drift {
                     unit,
                     smoothed,
                     median,
