@@ -1,0 +1,206 @@
+//! Parameter recovery from photometry-only subjects (Wilson & Collins 2019, eLife 8:e49547:
+//! simulate with known parameters, refit, compare), through the whole path a user's data takes:
+//! simulator sensor trace (kinetics, bleaching, motion, noise; no units) → ΔF/F
+//! (`obs::photometry`) → per-trial windows (`obs::observe`, photometry defaults) → fit data
+//! (`fit::dataset::build`) → `fit::run_fit`.
+//!
+//! λ is fixed at its true value (0.9); α and γ are searched; the gain is checked against its
+//! closed form ([`expected_gain`]). Measured with these random seeds (11, 12, 13):
+//!
+//! | sensor | α error | τ = −dt/ln γ error | gain error |
+//! |---|---|---|---|
+//! | fast (rise 4 ms, decay 12 ms, 200 Hz) | −9.6, −9.6, −9.2 % | +6.3, −1.1, −5.0 % | −0.4, −0.2, +0.8 % |
+//! | simulator default (rise 0.1 s, decay 0.6 s, 20 Hz) | −58, −49, −54 % | +146, −5.4, −6.5 % | +1.2, +1.2, +2.5 % |
+//!
+//! **Known bias.** With a realistic sensor α comes out about half the truth. The cause is the
+//! fit's observation model, not the preprocessing (the fast sensor, with the same bleaching,
+//! motion and ΔF/F path, recovers α; without bleaching and motion the bias is unchanged; a 3 s
+//! cue–reward delay does not remove it; shorter or longer windows do not either): the
+//! prediction sums δ uniformly over the window's bins (Σ_{k<20} δ_k ≈ V at the window's end),
+//! while the sensor weights early bins most (its response to a late bin mostly falls after the
+//! window), so while value is still building up from the reward backwards the model expects
+//! the cue response sooner than the trace shows it, and a smaller α fits. A kernel-weighted
+//! predictor for photometry (δ of bin k weighted by the sensor kernel's mean over the window)
+//! would remove it; [`realistic_sensor_alpha_within_25_percent`] is that target, ignored until
+//! then.
+
+use trialdesk::fit::bootstrap::tau_s;
+use trialdesk::fit::{dataset, run_fit, FitOptions, NoProgress};
+use trialdesk::model::Representation;
+use trialdesk::obs::{observe, ObsOptions};
+use trialdesk::simulate::photometry::{kernel, Bleaching, Motion};
+use trialdesk::simulate::{simulate, PhotometryParams, SimConfig};
+
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Sensor {
+    /// The simulator's default sensor kinetics.
+    Default,
+    /// Kinetics within one model bin.
+    Fast,
+}
+
+struct Truth {
+    seed: u64,
+    alpha: f64,
+    gamma: f64,
+}
+
+/// Small subject: 4 days × 80 trials, dt 0.05, CSC, λ 0.9, no spikes; photometry with 20 %
+/// bleaching (τ 1200 s) and a 15 % motion dip about once a minute.
+fn config(t: &Truth, sensor: Sensor) -> SimConfig {
+    let mut c = SimConfig {
+        seed: t.seed,
+        ..Default::default()
+    };
+    c.schedule.days = 4;
+    c.schedule.trials_per_day = 80;
+    c.td.alpha = t.alpha;
+    c.td.gamma = t.gamma;
+    c.td.lambda = 0.9;
+    c.units.count = 0;
+    c.photometry = Some(PhotometryParams {
+        bleaching: Some(Bleaching {
+            fraction: 0.2,
+            tau_s: 1200.0,
+        }),
+        motion: Some(Motion {
+            per_minute: 1.0,
+            max_depth: 0.15,
+            duration_s: 1.0,
+        }),
+        ..Default::default()
+    });
+    if sensor == Sensor::Fast {
+        let p = c.photometry.as_mut().expect("photometry on");
+        p.tau_rise_s = 0.004;
+        p.tau_decay_s = 0.012;
+        p.rate_hz = 200.0;
+        p.amp_per_ul = 0.5;
+    }
+    c
+}
+
+/// The gain a window mean of ΔF/F should show per unit of δ in the event's bin: the sensor's
+/// peak ΔF/F per µL times the kernel's mean over the 1 s window, the response starting after
+/// the sensor latency (closed form of the simulator's sampled kernel).
+fn expected_gain(p: &PhotometryParams, window_s: f64) -> f64 {
+    let h = kernel(p.tau_rise_s, p.tau_decay_s, p.rate_hz);
+    let n = (window_s * p.rate_hz).round() as usize;
+    let lag = (p.latency_s * p.rate_hz).round() as usize;
+    let sum: f64 = (0..n)
+        .map(|j| {
+            if j >= lag {
+                h.get(j - lag).copied().unwrap_or(0.0)
+            } else {
+                0.0
+            }
+        })
+        .sum();
+    p.amp_per_ul * sum / n as f64
+}
+
+/// (α, τ, gain) relative errors of one subject.
+fn recover(t: &Truth, sensor: Sensor) -> (f64, f64, f64) {
+    let c = config(t, sensor);
+    let sim = simulate(&c).expect("simulate");
+    let subject = &sim.subject;
+    assert!(subject.sessions.iter().all(|s| s.spikes.is_none()));
+    let obs_opts = ObsOptions::photometry();
+    let obs = observe(subject, &obs_opts).expect("observe");
+    let data = dataset::build(subject, &obs, &obs_opts, c.td.dt, &[], false);
+    let opts = FitOptions {
+        representation: Representation::Csc,
+        lambda: c.td.lambda,
+        bootstrap: 0,
+        compare: false,
+        ..Default::default()
+    };
+    let out = run_fit(&data, &opts, &NoProgress).expect("fit");
+    let p = out.best.params;
+    let (tau_true, tau_fit) = (tau_s(t.gamma, c.td.dt), tau_s(p.gamma, c.td.dt));
+    let gain_true = expected_gain(c.photometry.as_ref().unwrap(), 1.0);
+    let errs = (
+        p.alpha / t.alpha - 1.0,
+        tau_fit / tau_true - 1.0,
+        out.best.linear.gain / gain_true - 1.0,
+    );
+    eprintln!(
+        "{sensor:?} sensor, seed {}: alpha {:.4} (true {}), gamma {:.4} (true {}), tau {:.3} s (true {:.3}), \
+         gain {:.5} (expected {:.5}), R² {:.3}, {} windows; errors α {:+.3} τ {:+.3} gain {:+.3}",
+        t.seed,
+        p.alpha,
+        t.alpha,
+        p.gamma,
+        t.gamma,
+        tau_fit,
+        tau_true,
+        out.best.linear.gain,
+        gain_true,
+        out.r_squared,
+        data.points.len(),
+        errs.0,
+        errs.1,
+        errs.2
+    );
+    errs
+}
+
+const SUBJECTS: [Truth; 3] = [
+    Truth {
+        seed: 11,
+        alpha: 0.03,
+        gamma: 0.98,
+    },
+    Truth {
+        seed: 12,
+        alpha: 0.06,
+        gamma: 0.95,
+    },
+    Truth {
+        seed: 13,
+        alpha: 0.02,
+        gamma: 0.97,
+    },
+];
+
+/// Sensor kinetics within one model bin (rise 4 ms, decay 12 ms, sampled at 200 Hz; peak
+/// 0.5 ΔF/F per µL so the window response matches the default sensor's): the fit's
+/// observation model then holds, and the whole ΔF/F path must recover the parameters.
+/// Tolerances are about twice the errors measured (table above).
+#[test]
+fn recovers_parameters_with_a_fast_sensor() {
+    for t in &SUBJECTS[..2] {
+        let (a, tau, gain) = recover(t, Sensor::Fast);
+        assert!(a.abs() < 0.2, "seed {}: α error {a:+.3}", t.seed);
+        assert!(tau.abs() < 0.15, "seed {}: τ error {tau:+.3}", t.seed);
+        assert!(gain.abs() < 0.05, "seed {}: gain error {gain:+.3}", t.seed);
+    }
+}
+
+/// The simulator's default sensor: the gain is recovered (within 5 %; measured ≤ 2.5 %), α is
+/// biased low by about half (see the module overview). The α bounds pin the known bias: if a
+/// change moves α out of them, look at this test and the ignored one below.
+#[test]
+fn realistic_sensor_gain_recovered_alpha_biased_low() {
+    for t in &SUBJECTS {
+        let (a, _, gain) = recover(t, Sensor::Default);
+        assert!(gain.abs() < 0.05, "seed {}: gain error {gain:+.3}", t.seed);
+        assert!(
+            (-0.7..-0.3).contains(&a),
+            "seed {}: α error {a:+.3} left the known-bias range",
+            t.seed
+        );
+    }
+}
+
+/// The target once the fit weights δ by the sensor kernel. Known bias: fails today (α −49 to
+/// −58 %; τ of seed 11 +146 %).
+#[test]
+#[ignore = "known bias: the photometry predictor ignores sensor kinetics (see module overview)"]
+fn realistic_sensor_alpha_within_25_percent() {
+    for t in &SUBJECTS {
+        let (a, tau, _) = recover(t, Sensor::Default);
+        assert!(a.abs() < 0.25, "seed {}: α error {a:+.3}", t.seed);
+        assert!(tau.abs() < 0.3, "seed {}: τ error {tau:+.3}", t.seed);
+    }
+}
