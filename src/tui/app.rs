@@ -20,7 +20,8 @@ use super::keymap::Keymap;
 pub const REFRESH_EVERY: Duration = Duration::from_secs(1);
 
 /// Build the reviewer's state for a loaded subject: model run at the given parameters, the
-/// first session's traces, every session's journal.
+/// first session's traces, every session's journal. The subject must hold at least one session
+/// (`trialdesk review` says so before getting here).
 pub fn build_state(
     subject: Subject,
     opts: Options,
@@ -30,7 +31,10 @@ pub fn build_state(
     let obs_opts = settings.obs_options(&subject);
     let model = ModelView::build(&subject, settings, &obs_opts);
     let obs = derived::observe_spans(&subject, &model, &obs_opts);
-    let first = &subject.sessions[0];
+    let first = subject
+        .sessions
+        .first()
+        .expect("build_state needs a subject with at least one session");
     let signal = if first.spikes.as_ref().is_some_and(|s| !s.units.is_empty()) {
         SignalKind::Spikes
     } else if first.photometry.is_some() {

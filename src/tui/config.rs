@@ -50,7 +50,7 @@ pub fn parse(file: &Path, text: &str) -> Result<Config, String> {
 /// Read `config.toml` from `dir`; an absent file is the empty config.
 pub fn load(dir: &Path) -> Result<Config, String> {
     let path = dir.join("config.toml");
-    match std::fs::read_to_string(&path) {
+    match crate::util::read_settings(&path) {
         Ok(text) => parse(&path, &text),
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(Config::default()),
         Err(e) => Err(format!("{}: {e}", path.display())),

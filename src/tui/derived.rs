@@ -213,14 +213,16 @@ pub fn obs_options_for(subject: &Subject) -> ObsOptions {
     }
 }
 
-/// Per model span, its observations (`None` where the trial gave none or the signal is absent).
+/// Per model span, its observations (`None` where the trial gave none or its session lacks the
+/// signal).
 pub fn observe_spans(
     subject: &Subject,
     model: &ModelView,
     opts: &ObsOptions,
 ) -> Vec<Option<TrialObs>> {
     let mut out = vec![None; model.spans.len()];
-    if let Ok(all) = obs::observe(subject, opts) {
+    // Lenient: a session without the signal leaves its trials blank instead of blanking all.
+    if let Ok((all, _problems)) = obs::observe_lenient(subject, opts) {
         for o in all {
             if let Some(Some(i)) = model.span_of.get(o.session).and_then(|v| v.get(o.trial)) {
                 out[*i] = Some(o);
@@ -296,17 +298,21 @@ impl SessionView {
             }
         };
         let (traces, missing) = match &act {
-            Ok(a) => (
-                session
+            Ok(a) => {
+                // One sweep per spike train for all trials (the core's batch form).
+                let aligned: Vec<(usize, f64)> = session
                     .trials
                     .iter()
-                    .map(|t| match obs::alignment_time(t) {
-                        Some(t0) => a.trace(t0, from_s, to_s, bin_s),
-                        None => Vec::new(),
-                    })
-                    .collect(),
-                None,
-            ),
+                    .enumerate()
+                    .filter_map(|(i, t)| obs::alignment_time(t).map(|t0| (i, t0)))
+                    .collect();
+                let t0s: Vec<f64> = aligned.iter().map(|(_, t0)| *t0).collect();
+                let mut traces = vec![Vec::new(); session.trials.len()];
+                for ((i, _), row) in aligned.iter().zip(a.traces(&t0s, from_s, to_s, bin_s)) {
+                    traces[*i] = row;
+                }
+                (traces, None)
+            }
             Err(e) => (vec![Vec::new(); session.trials.len()], Some(e.clone())),
         };
         let range = robust_range(traces.iter().flatten().copied());
