@@ -92,8 +92,9 @@ fn main() {
     let c = cpu_s();
     let prof = bootstrap::gamma_profile(&problem, &idx, &best, &opts.search, &NoProgress);
     println!(
-        "gamma profile (4 points): {:.3} s, flat = {}",
+        "gamma profile (4 points): {:.3} s wall, {:.2} s CPU, flat = {}",
         t.elapsed().as_secs_f64(),
+        cpu_s() - c,
         prof.flat
     );
 
