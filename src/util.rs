@@ -25,6 +25,30 @@ pub fn printable(s: &str) -> std::borrow::Cow<'_, str> {
     std::borrow::Cow::Owned(out)
 }
 
+/// Settings files (keymap, config, suggestion rules) are a few kilobytes.
+pub const MAX_SETTINGS_BYTES: u64 = 1 << 20;
+
+/// Read a settings file whole, refusing one that is not a regular file (a FIFO would block)
+/// or is larger than [`MAX_SETTINGS_BYTES`] before holding it in memory. A missing file keeps
+/// its `NotFound` error.
+pub fn read_settings(path: &std::path::Path) -> std::io::Result<String> {
+    use std::io::Read;
+    let meta = std::fs::metadata(path)?;
+    if !meta.is_file() {
+        return Err(std::io::Error::other("not a regular file"));
+    }
+    let mut text = String::new();
+    std::fs::File::open(path)?
+        .take(MAX_SETTINGS_BYTES + 1)
+        .read_to_string(&mut text)?;
+    if text.len() as u64 > MAX_SETTINGS_BYTES {
+        return Err(std::io::Error::other(format!(
+            "file too large for a settings file (over {MAX_SETTINGS_BYTES} bytes)"
+        )));
+    }
+    Ok(text)
+}
+
 /// Neutralise a text cell for CSV exports that people open in a spreadsheet: a cell starting
 /// with `=`, `+`, `-`, `@`, a tab or a carriage return could run as a formula, so it gets a
 /// leading apostrophe and keeps its text (the OWASP "CSV injection" advice, common practice).

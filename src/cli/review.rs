@@ -31,7 +31,7 @@ pub struct Args {
 }
 
 fn read_layer(path: &Path) -> Result<(String, String), CliError> {
-    let text = std::fs::read_to_string(path)
+    let text = crate::util::read_settings(path)
         .map_err(|e| CliError::failed(format!("{}: {e}", path.display())))?;
     Ok((path.display().to_string(), text))
 }

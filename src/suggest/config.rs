@@ -252,7 +252,7 @@ impl RuleSet {
     /// file that was read.
     pub fn load_from(dir: &Path) -> Result<(RuleSet, Option<PathBuf>), String> {
         let path = dir.join(USER_FILE);
-        match std::fs::read_to_string(&path) {
+        match crate::util::read_settings(&path) {
             Ok(text) => Ok((
                 RuleSet::parse(&path, &text, Some(&RuleSet::default()))?,
                 Some(path),
