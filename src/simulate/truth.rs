@@ -288,9 +288,16 @@ mod tests {
             }),
             ..Default::default()
         });
+        c.faults.rates = vec![
+            (crate::simulate::FaultKind::ValveFailure, 0.1),
+            (crate::simulate::FaultKind::Dropout, 0.0),
+        ];
         let truth = Truth::of(&simulate(&c).unwrap());
         let back: Truth = toml::from_str(&truth.to_toml()).unwrap();
         assert_eq!(back, truth);
+        // Only the faults that were on are listed.
+        let rates = &back.faults.as_ref().unwrap().rates;
+        assert_eq!(rates.keys().collect::<Vec<_>>(), ["valve_failure"]);
         assert_eq!(back.model.microstimulus_m, Some(20));
         assert_eq!(back.units.unit.len(), 6);
     }
