@@ -311,3 +311,29 @@ fn csv_exports_protect_formula_cells_and_keep_their_text() {
     let model = read(&out.join("model.csv"));
     assert!(model.contains(&format!("'{DAY2}")), "{model}");
 }
+
+/// An error on the status line quotes a path from the data (here a session folder name with
+/// an escape sequence whose journal cannot be written): drawn clean too.
+#[test]
+fn the_reviewer_status_line_shows_hostile_paths_clean() {
+    let (_tmp, subject) = hostile_subject();
+    let loaded = trialdesk::data::load(&subject).unwrap_or_else(|f| panic!("{f}"));
+    let mut st = app::build_state(
+        loaded.subject,
+        tui_support::options(),
+        Keymap::build(&[]).unwrap(),
+        &ModelSettings::defaults(),
+    );
+    let journal = subject.join(DAY2).join("marks.csv");
+    std::fs::remove_file(&journal).unwrap();
+    std::fs::create_dir(&journal).unwrap();
+    tui_support::press(&mut st, "]jx1");
+    assert!(st.status.text.contains("NOT SAVED"), "{}", st.status.text);
+    assert!(
+        st.status.text.contains('\u{1b}'),
+        "the raw path is in the state"
+    );
+    let frame = tui_support::frame_text(132, 40, &st);
+    assert!(frame.contains("NOT SAVED"), "{frame}");
+    assert!(controls(&frame).is_empty(), "{:?}", controls(&frame));
+}
