@@ -149,6 +149,8 @@ fn the_reviewer_draws_no_control_characters_from_the_data() {
     }
 }
 
+/// Human-readable output only: CSV (`marks --format csv`) keeps the text exactly, as the
+/// exports must, and is checked for formula cells below instead.
 #[test]
 fn printed_reports_carry_no_control_characters() {
     let (_tmp, subject) = hostile_subject();
@@ -176,6 +178,18 @@ fn printed_reports_carry_no_control_characters() {
         vec!["summary", day2, "--format", "markdown"],
         vec!["marks", s],
         vec!["marks", day2, "--all"],
+        vec![
+            "model",
+            s,
+            "--alpha",
+            "0.1",
+            "--gamma",
+            "0.9",
+            "--out",
+            "/dev/null",
+        ],
+        vec!["fit", s, "--no-compare", "--bootstrap", "0", "--no-save"],
+        vec!["review", day2],
         vec![
             "fit",
             day2,
