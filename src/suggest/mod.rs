@@ -27,7 +27,7 @@ use crate::data::{Session, Trial};
 use crate::marks::{MarkKind, MarkRow, MarkState};
 
 /// One doubtful trial: which rule points at it and why, with the measured value.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Eq, Hash)]
 pub struct Suggestion {
     /// The `trial` number (not an index).
     pub trial: i64,
@@ -88,6 +88,11 @@ pub const CATALOG: [RuleInfo; 8] = [
         source: "methods.md §8 signal artifacts (saturation, disconnects); common practice",
     },
 ];
+
+/// The catalogue entry of a rule id (for a reviewer's legend or a report's footnote).
+pub fn rule_info(id: &str) -> Option<&'static RuleInfo> {
+    CATALOG.iter().find(|r| r.id == id)
+}
 
 /// Reason prefix of the note row that records a rejected suggestion.
 pub const REJECT_PREFIX: &str = "reject:";

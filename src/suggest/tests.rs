@@ -462,6 +462,11 @@ fn accept_all_and_counts_follow_the_catalog() {
         ]
     );
     assert!(counts_by_rule(&[]).is_empty());
+    assert_eq!(
+        rule_info("reward_too_soon").map(|r| r.source.starts_with("Jeong")),
+        Some(true)
+    );
+    assert!(rule_info("nope").is_none());
     // Every catalogued rule has a section in the shipped defaults.
     for r in CATALOG {
         assert!(
