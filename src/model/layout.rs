@@ -34,6 +34,11 @@ pub fn base_bins(delay: f64, dt: f64) -> usize {
     ((delay + POST_S) / dt - BIN_EPS).ceil().max(1.0) as usize
 }
 
+/// Longest trial span the model lays out (5000 s at the default 50 ms bins). Real trials are
+/// seconds long; more means a reward_delay_s or reward time far from its cue (a typo, a unit
+/// mix-up) or a tiny --dt, and laying it out would take gigabytes.
+pub const MAX_TRIAL_BINS: usize = 100_000;
+
 /// A trial the model cannot place on a time line (which `check` rejects): left out of the
 /// spans and reported so the shell can say so.
 #[derive(Debug, Clone, PartialEq)]
@@ -119,6 +124,9 @@ fn layout_trial(
         }
         None => None,
     };
+    if n_bins > MAX_TRIAL_BINS {
+        return Err("spans over 100000 model bins (reward_delay_s or reward time far from the cue, or a tiny --dt)");
+    }
     let expected_reward_bin = trial
         .cue
         .and_then(|c| session.meta.cues[c].reward_delay_s)
