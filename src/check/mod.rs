@@ -3,11 +3,14 @@
 //! Start at [`check`]. It runs the same walk and readers as [`crate::data::load`] (there is
 //! one parser), then adds what loading does not need: the marks journal of each session
 //! (a torn last line, rows that do not parse, marks of trials that do not exist).
+//! [`check_with_suggestions`] also counts the pending suggested marks of each session that
+//! loaded ([`crate::suggest`]); they are information, never diagnostics.
 
 use crate::data::{self, Diagnostic, Session};
 use crate::marks;
+use crate::suggest::{counts_by_rule, pending_for_session, RuleSet};
 use std::collections::HashSet;
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 /// What `check` found, with the number of sessions looked at.
 #[derive(Debug)]
@@ -15,6 +18,17 @@ pub struct Report {
     pub diagnostics: Vec<Diagnostic>,
     pub sessions_found: usize,
     pub sessions_loaded: usize,
+    /// Pending suggested marks of each loaded session whose marks could be read (empty
+    /// without rules).
+    pub suggested: Vec<SessionSuggested>,
+}
+
+/// Pending suggestions of one session, per rule in catalogue order (rules without any left
+/// out; empty when nothing is suggested).
+#[derive(Debug, Clone, PartialEq)]
+pub struct SessionSuggested {
+    pub dir: PathBuf,
+    pub counts: Vec<(String, usize)>,
 }
 
 impl Report {
@@ -33,6 +47,12 @@ pub fn check(path: &Path) -> Vec<Diagnostic> {
 
 /// [`check`] with session counts, for the command's summary line.
 pub fn check_report(path: &Path) -> Report {
+    check_with_suggestions(path, None)
+}
+
+/// [`check_report`] plus, with `rules`, the pending suggestions of every loaded session.
+/// A session whose marks cannot be read is left out (its marks.csv problem is a diagnostic).
+pub fn check_with_suggestions(path: &Path, rules: Option<&RuleSet>) -> Report {
     let scan = data::scan(path);
     let mut out = scan.diagnostics;
     for dir in &scan.session_dirs {
@@ -41,10 +61,47 @@ pub fn check_report(path: &Path) -> Report {
     }
     // Stable: diagnostics of one file keep their order; whole-file problems come first.
     out.sort_by(|a, b| a.file.cmp(&b.file).then(a.line.cmp(&b.line)));
+    let suggested = match rules {
+        None => Vec::new(),
+        Some(rules) => scan
+            .subject
+            .sessions
+            .iter()
+            .filter_map(|s| {
+                let pending = pending_for_session(s, rules).ok()?;
+                Some(SessionSuggested {
+                    dir: s.dir.clone(),
+                    counts: counts_by_rule(&pending),
+                })
+            })
+            .collect(),
+    };
     Report {
         diagnostics: out,
         sessions_found: scan.session_dirs.len(),
         sessions_loaded: scan.subject.sessions.len(),
+        suggested,
+    }
+}
+
+/// A rule-file error from [`RuleSet::load_from`] (`file:line: message` or `file: message`)
+/// as a warning on `file`: the suggestions are left out, the data are not at fault.
+pub fn rules_diagnostic(file: &Path, error: &str) -> Diagnostic {
+    let rest = error
+        .strip_prefix(file.display().to_string().as_str())
+        .and_then(|r| r.strip_prefix(':'))
+        .unwrap_or(error);
+    let (line, message) = match rest.split_once(':') {
+        Some((l, m)) if l.parse::<u64>().is_ok() => (l.parse().ok(), m),
+        _ => (None, rest),
+    };
+    let d = Diagnostic::warning(
+        file,
+        format!("{}; suggested marks left out", message.trim()),
+    );
+    match line {
+        Some(l) => d.at_line(l),
+        None => d,
     }
 }
 
