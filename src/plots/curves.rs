@@ -31,6 +31,9 @@ fn color(i: usize) -> RGBColor {
     PALETTE[i % (PALETTE.len() - 1)]
 }
 
+/// One figure of a day row.
+type Measure = fn(&DayRow) -> Option<f64>;
+
 /// Series of the day rows: observed (left panel) and model δ (right panel).
 fn day_series(rows: &[DayRow]) -> (Vec<Series>, Vec<Series>) {
     let mut cue_names: Vec<&str> = Vec::new();
@@ -65,7 +68,7 @@ fn day_series(rows: &[DayRow]) -> (Vec<Series>, Vec<Series>) {
         ));
     }
     let n = cue_names.len();
-    let measures: [(&str, fn(&DayRow) -> Option<f64>, fn(&DayRow) -> Option<f64>); 3] = [
+    let measures: [(&str, Measure, Measure); 3] = [
         (
             "reward (cued)",
             |r| r.reward_response.value,
