@@ -7,9 +7,10 @@ use crate::fit::saved::{load_saved, saved_path, SavedFit};
 use crate::marks::{read_journal, MarkKind, MarkState};
 use crate::model::{layout_subject, Representation, TdParams, DEFAULT_DT};
 use crate::obs::{observe_lenient, ObsOptions, Signal};
+use crate::suggest::RuleSet;
 use crate::summary::cohort::{cohort_rows, cohort_subject_dirs};
-use crate::summary::render::{self, Format, SubjectSummary};
-use crate::summary::{day_rows, DayRow, ModelTraces};
+use crate::summary::render::{self, Format, SubjectSummary, SuggestedCounts};
+use crate::summary::{day_rows, suggested_counts, DayRow, ModelTraces};
 use std::collections::BTreeMap;
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -133,10 +134,20 @@ pub fn run(args: Args) -> CmdResult {
             ));
         }
     }
+    let rules = match super::check::user_rules() {
+        Ok(r) => Some(r),
+        Err(d) => {
+            eprintln!("{d}");
+            None
+        }
+    };
     let dirs = cohort_subject_dirs(&args.path).unwrap_or_else(|| vec![args.path.clone()]);
     let mut summaries = Vec::new();
+    let mut suggested: Vec<SuggestedCounts> = Vec::new();
     for dir in &dirs {
-        summaries.push(summarise(dir, &args)?);
+        let (summary, counts) = summarise(dir, &args, rules.as_ref())?;
+        summaries.push(summary);
+        suggested.extend(counts);
     }
     let cohort = (summaries.len() > 1).then(|| {
         let rows: Vec<&[DayRow]> = summaries.iter().map(|s| s.rows.as_slice()).collect();
@@ -147,7 +158,7 @@ pub fn run(args: Args) -> CmdResult {
         FormatArg::Csv => Format::Csv,
         FormatArg::Markdown => Format::Markdown,
     };
-    let text = render::render(format, &summaries, cohort.as_deref())
+    let text = render::render_with(format, &summaries, &suggested, cohort.as_deref())
         .map_err(|e| CliError::failed(format!("writing CSV: {e}")))?;
     // Names in the tables come from the data; CSV keeps them as they are.
     let text = match format {
@@ -172,8 +183,13 @@ fn warn(msg: impl std::fmt::Display) {
     eprintln!("trialdesk: warning: {msg}");
 }
 
-/// Load, observe and tabulate one subject (or one session folder).
-fn summarise(dir: &Path, args: &Args) -> Result<SubjectSummary, CliError> {
+/// Load, observe and tabulate one subject (or one session folder); with `rules` (and the
+/// file they were read from), also its pending suggested marks.
+fn summarise(
+    dir: &Path,
+    args: &Args,
+    rules: Option<&(RuleSet, Option<PathBuf>)>,
+) -> Result<(SubjectSummary, Option<SuggestedCounts>), CliError> {
     let loaded = load(dir).map_err(|f| CliError::failed(f.to_string().trim_end().to_string()))?;
     for w in &loaded.warnings {
         eprintln!("{w}");
@@ -221,6 +237,15 @@ fn summarise(dir: &Path, args: &Args) -> Result<SubjectSummary, CliError> {
         }
     }
     notes.push(exclusion_note(&marks));
+    let suggested = rules.map(|(rules, _)| suggested_counts(&subject, &marks, rules));
+    notes.push(match rules {
+        Some((_, Some(file))) => format!(
+            "suggested marks: pending ones per rule, rules from {} over the shipped defaults",
+            file.display()
+        ),
+        Some((_, None)) => "suggested marks: pending ones per rule, shipped default rules".into(),
+        None => "suggested marks: left out (the rule file has an error, see above)".into(),
+    });
 
     let params = model_params(&subject, args, saved.as_ref(), single_session, &mut notes)?;
     let model_run = params.map(|p| {
@@ -240,11 +265,14 @@ fn summarise(dir: &Path, args: &Args) -> Result<SubjectSummary, CliError> {
         .first()
         .map(|s| s.meta.subject.clone())
         .unwrap_or_else(|| dir.display().to_string());
-    Ok(SubjectSummary {
-        subject: name,
-        rows,
-        notes,
-    })
+    Ok((
+        SubjectSummary {
+            subject: name,
+            rows,
+            notes,
+        },
+        suggested,
+    ))
 }
 
 fn obs_options(

@@ -4,7 +4,8 @@
 //! Start at [`day_rows`]. Trial counts include every trial; the response means leave out the
 //! observations of trials whose standing mark is `exclude` (the marks contract), so every mean
 //! carries its own n. [`render`] writes the rows as text, tidy CSV or Markdown; [`cohort`]
-//! averages subjects by training day.
+//! averages subjects by training day. [`suggested_counts`] adds the pending suggested marks
+//! ([`crate::suggest`]) per session and rule.
 
 pub mod cohort;
 pub mod render;
@@ -13,6 +14,7 @@ use crate::data::Subject;
 use crate::marks::{MarkKind, MarkState};
 use crate::model::{TdRun, TrialSpan};
 use crate::obs::{window_delta_sums, ObsOptions, TrialKind, TrialObs};
+use crate::suggest::{counts_by_rule, pending, suggest_session, RuleSet};
 use std::collections::HashMap;
 
 /// A mean and the number of trials it is over (`value` is `None` when n = 0).
@@ -240,6 +242,26 @@ pub fn day_rows(
                     omission: model_omission,
                 }),
             }
+        })
+        .collect()
+}
+
+/// Pending suggested marks of each session of `subject` (same order), per rule in catalogue
+/// order with rules that suggest nothing left out. `marks[i]` is the mark state of
+/// `subject.sessions[i]` (missing entries mean no marks), as for [`day_rows`].
+pub fn suggested_counts(
+    subject: &Subject,
+    marks: &[MarkState],
+    rules: &RuleSet,
+) -> Vec<Vec<(String, usize)>> {
+    let empty = MarkState::default();
+    subject
+        .sessions
+        .iter()
+        .enumerate()
+        .map(|(i, s)| {
+            let marks = marks.get(i).unwrap_or(&empty);
+            counts_by_rule(&pending(&suggest_session(s, rules), marks))
         })
         .collect()
 }

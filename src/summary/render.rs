@@ -1,9 +1,11 @@
 //! Writing learning tables: aligned plain text for a terminal (fits 80 columns for up to two
 //! cues), Markdown for a lab notebook, and tidy long-form CSV for pandas/R (one value per row:
-//! `subject,session,date,day,measure,cue,value,n`).
+//! `subject,session,date,day,measure,cue,value,n`). With suggested-mark counts
+//! ([`render_with`]) a further table per subject, and CSV rows `suggested:<rule id>`.
 
 use super::cohort::CohortRow;
 use super::{DayRow, Mean};
+use crate::suggest::CATALOG;
 use crate::util::fmt_f64;
 
 /// One subject's rows and the header lines that say how they were measured.
@@ -23,16 +25,32 @@ pub enum Format {
     Markdown,
 }
 
+/// Pending suggested-mark counts of one subject: entry `i` belongs to `rows[i]` and lists
+/// `(rule id, count)` in catalogue order, rules without suggestions left out
+/// ([`super::suggested_counts`]).
+pub type SuggestedCounts = Vec<Vec<(String, usize)>>;
+
 /// The whole output in one format (CSV has no cohort rows: it is tidy, aggregate it there).
 pub fn render(
     format: Format,
     subjects: &[SubjectSummary],
     cohort: Option<&[CohortRow]>,
 ) -> Result<String, csv::Error> {
+    render_with(format, subjects, &[], cohort)
+}
+
+/// [`render`] with suggested-mark counts: `suggested[i]` belongs to `subjects[i]`; a subject
+/// without an entry gets none of the suggestion table or rows.
+pub fn render_with(
+    format: Format,
+    subjects: &[SubjectSummary],
+    suggested: &[SuggestedCounts],
+    cohort: Option<&[CohortRow]>,
+) -> Result<String, csv::Error> {
     Ok(match format {
-        Format::Text => text(subjects, cohort),
-        Format::Markdown => markdown(subjects, cohort),
-        Format::Csv => csv(subjects)?,
+        Format::Text => text_with(subjects, suggested, cohort),
+        Format::Markdown => markdown_with(subjects, suggested, cohort),
+        Format::Csv => csv_with(subjects, suggested)?,
     })
 }
 
@@ -43,6 +61,10 @@ struct Table {
     headers: Vec<String>,
     rows: Vec<Vec<Cell>>,
     left: std::ops::Range<usize>,
+    /// The last column is left-aligned too (a list in words).
+    left_last: bool,
+    /// Lines printed under the table (a legend).
+    footer: Vec<String>,
     /// Numeric columns in the same unit share one number of decimals: the last `licks` columns
     /// are licks/s, the other numbers the response unit.
     licks: usize,
@@ -86,6 +108,10 @@ fn fmt_num(v: Option<f64>, decimals: usize) -> String {
 }
 
 impl Table {
+    fn is_left(&self, c: usize) -> bool {
+        self.left.contains(&c) || (self.left_last && c + 1 == self.headers.len())
+    }
+
     /// The cells as strings, numbers formatted per column.
     fn formatted(&self) -> Vec<Vec<String>> {
         let n = self.headers.len();
@@ -134,7 +160,7 @@ impl Table {
                 .iter()
                 .enumerate()
                 .map(|(c, cell)| {
-                    if self.left.contains(&c) {
+                    if self.is_left(c) {
                         format!("{cell:<w$}", w = widths[c])
                     } else {
                         format!("{cell:>w$}", w = widths[c])
@@ -143,6 +169,9 @@ impl Table {
                 .collect();
             out.push_str(cells.join("  ").trim_end());
             out.push('\n');
+        }
+        for f in &self.footer {
+            out.push_str(&format!("  {f}\n"));
         }
         out.push('\n');
     }
@@ -155,18 +184,17 @@ impl Table {
         };
         out.push_str(&line(&self.headers));
         let align: Vec<String> = (0..self.headers.len())
-            .map(|c| {
-                if self.left.contains(&c) {
-                    ":---"
-                } else {
-                    "---:"
-                }
-                .to_string()
-            })
+            .map(|c| if self.is_left(c) { ":---" } else { "---:" }.to_string())
             .collect();
         out.push_str(&format!("|{}|\n", align.join("|")));
         for row in &self.formatted() {
             out.push_str(&line(row));
+        }
+        if !self.footer.is_empty() {
+            out.push('\n');
+        }
+        for f in &self.footer {
+            out.push_str(&format!("- {}\n", md_escape(f)));
         }
         out.push('\n');
     }
@@ -203,7 +231,7 @@ fn cue_cell(r: &DayRow, cue: &str, pick: impl Fn(&super::CueDay) -> Option<Mean>
     )
 }
 
-fn subject_tables(s: &SubjectSummary) -> Vec<Table> {
+fn subject_tables(s: &SubjectSummary, suggested: Option<&SuggestedCounts>) -> Vec<Table> {
     // Sessions are usually named by their date: then one column says both.
     let show_date = s.rows.iter().any(|r| r.session != r.date);
     let lead = |r: &DayRow| {
@@ -256,6 +284,8 @@ fn subject_tables(s: &SubjectSummary) -> Vec<Table> {
             })
             .collect(),
         left: left.clone(),
+        left_last: false,
+        footer: Vec::new(),
     });
 
     let mut h = lead_h();
@@ -284,6 +314,8 @@ fn subject_tables(s: &SubjectSummary) -> Vec<Table> {
             })
             .collect(),
         left: left.clone(),
+        left_last: false,
+        footer: Vec::new(),
     });
 
     if s.rows.iter().any(|r| r.model.is_some()) {
@@ -308,9 +340,59 @@ fn subject_tables(s: &SubjectSummary) -> Vec<Table> {
                 })
                 .collect(),
             left: left.clone(),
+            left_last: false,
+            footer: Vec::new(),
+        });
+    }
+    if let Some(counts) = suggested {
+        let mut h = lead_h();
+        h.extend(["suggested", "by rule"].map(String::from));
+        let none = Vec::new();
+        tables.push(Table {
+            title: "Suggested marks (pending; accept or reject them in `trialdesk review`)".into(),
+            licks: 0,
+            headers: h,
+            rows: s
+                .rows
+                .iter()
+                .enumerate()
+                .map(|(i, r)| {
+                    let c = counts.get(i).unwrap_or(&none);
+                    let mut v = lead(r);
+                    v.push(c.iter().map(|(_, n)| n).sum::<usize>().to_string().into());
+                    v.push(by_rule(c).into());
+                    v
+                })
+                .collect(),
+            left,
+            left_last: true,
+            footer: legend(counts),
         });
     }
     tables
+}
+
+/// `rule n, rule n` or `none`.
+fn by_rule(counts: &[(String, usize)]) -> String {
+    if counts.is_empty() {
+        return "none".into();
+    }
+    let parts: Vec<String> = counts.iter().map(|(r, n)| format!("{r} {n}")).collect();
+    parts.join(", ")
+}
+
+/// One line per rule that suggested anything: its id and description.
+fn legend(counts: &SuggestedCounts) -> Vec<String> {
+    let lines: Vec<String> = CATALOG
+        .iter()
+        .filter(|r| counts.iter().flatten().any(|(id, _)| id == r.id))
+        .map(|r| format!("{}: {}", r.id, r.description))
+        .collect();
+    if lines.is_empty() {
+        vec!["no rule suggests any trial".into()]
+    } else {
+        lines
+    }
 }
 
 fn cohort_table(rows: &[CohortRow]) -> Table {
@@ -347,6 +429,8 @@ fn cohort_table(rows: &[CohortRow]) -> Table {
             })
             .collect(),
         left: 0..0,
+        left_last: false,
+        footer: Vec::new(),
     }
 }
 
@@ -359,8 +443,16 @@ fn sessions(n: usize) -> String {
 }
 
 pub fn text(subjects: &[SubjectSummary], cohort: Option<&[CohortRow]>) -> String {
+    text_with(subjects, &[], cohort)
+}
+
+fn text_with(
+    subjects: &[SubjectSummary],
+    suggested: &[SuggestedCounts],
+    cohort: Option<&[CohortRow]>,
+) -> String {
     let mut out = String::new();
-    for s in subjects {
+    for (i, s) in subjects.iter().enumerate() {
         let trials: usize = s.rows.iter().map(|r| r.trials).sum();
         out.push_str(&format!(
             "Subject {}: {}, {} trials\n",
@@ -372,7 +464,7 @@ pub fn text(subjects: &[SubjectSummary], cohort: Option<&[CohortRow]>) -> String
             out.push_str(&format!("  {n}\n"));
         }
         out.push('\n');
-        for t in subject_tables(s) {
+        for t in subject_tables(s, suggested.get(i)) {
             t.text(&mut out);
         }
     }
@@ -383,8 +475,16 @@ pub fn text(subjects: &[SubjectSummary], cohort: Option<&[CohortRow]>) -> String
 }
 
 pub fn markdown(subjects: &[SubjectSummary], cohort: Option<&[CohortRow]>) -> String {
+    markdown_with(subjects, &[], cohort)
+}
+
+fn markdown_with(
+    subjects: &[SubjectSummary],
+    suggested: &[SuggestedCounts],
+    cohort: Option<&[CohortRow]>,
+) -> String {
     let mut out = String::new();
-    for s in subjects {
+    for (i, s) in subjects.iter().enumerate() {
         let trials: usize = s.rows.iter().map(|r| r.trials).sum();
         out.push_str(&format!(
             "## Subject {}: {}, {} trials\n\n",
@@ -396,7 +496,7 @@ pub fn markdown(subjects: &[SubjectSummary], cohort: Option<&[CohortRow]>) -> St
             out.push_str(&format!("- {}\n", md_escape(n)));
         }
         out.push('\n');
-        for t in subject_tables(s) {
+        for t in subject_tables(s, suggested.get(i)) {
             t.markdown(&mut out);
         }
     }
@@ -419,12 +519,21 @@ pub fn safe_cell(s: &str) -> String {
 
 /// Long-form CSV: one measured value per row.
 pub fn csv(subjects: &[SubjectSummary]) -> Result<String, csv::Error> {
+    csv_with(subjects, &[])
+}
+
+/// [`csv`] plus, for a subject with counts, one `suggested:<rule id>` row per catalogue rule
+/// and session (value: pending suggestions, 0 included).
+fn csv_with(
+    subjects: &[SubjectSummary],
+    suggested: &[SuggestedCounts],
+) -> Result<String, csv::Error> {
     let mut w = csv::Writer::from_writer(Vec::new());
     w.write_record([
         "subject", "session", "date", "day", "measure", "cue", "value", "n",
     ])?;
-    for s in subjects {
-        for r in &s.rows {
+    for (si, s) in subjects.iter().enumerate() {
+        for (ri, r) in s.rows.iter().enumerate() {
             let mut put = |measure: &str, cue: &str, value: String, n: String| {
                 w.write_record([
                     safe_cell(&s.subject),
@@ -476,6 +585,17 @@ pub fn csv(subjects: &[SubjectSummary]) -> Result<String, csv::Error> {
                 ] {
                     let (v, n) = mean(m);
                     put(measure, "", v, n)?;
+                }
+            }
+            if let Some(counts) = suggested.get(si) {
+                let session = counts.get(ri).map(Vec::as_slice).unwrap_or_default();
+                for rule in &CATALOG {
+                    let n = session
+                        .iter()
+                        .find(|(id, _)| id == rule.id)
+                        .map_or(0, |(_, n)| *n);
+                    let measure = format!("suggested:{}", rule.id);
+                    put(&measure, "", n.to_string(), String::new())?;
                 }
             }
         }
