@@ -351,3 +351,57 @@ fn the_reviewer_status_line_shows_hostile_paths_clean() {
     assert!(frame.contains("NOT SAVED"), "{frame}");
     assert!(controls(&frame).is_empty(), "{:?}", controls(&frame));
 }
+
+/// Valid but extreme numbers: a day-long gap between trials, a reward logged far after its
+/// cue, a huge reward size, a session clock near 1e9 s, 300 units. Every screen draws
+/// without panicking. (3,000 units with a 3,000 s reward delay took 20 s to open in a debug
+/// build: the session view costs units × view bins, and the view spans the longest delay.)
+#[test]
+fn the_reviewer_draws_extreme_but_valid_numbers() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().join("m-extreme/2026-03-02");
+    std::fs::create_dir_all(&dir).unwrap();
+    std::fs::write(
+        dir.join("session.toml"),
+        "subject = \"m\"\ndate = \"2026-03-02\"\n[[cue]]\nname = \"a\"\nreward_delay_s = 1.5\n\
+         [[cue]]\nname = \"b\"\nreward_delay_s = 300\n",
+    )
+    .unwrap();
+    std::fs::write(
+        dir.join("trials.csv"),
+        "trial,cue,cue_s,reward_s,reward_ul\n1,a,0,1.5,1e300\n2,a,86400,,\n\
+         3,b,86500,86800,3\n4,,,999999999,3\n5,a,1000000000,1000000000.0000001,0.000001\n",
+    )
+    .unwrap();
+    let mut spikes = String::from("unit,time_s\n");
+    for u in 0..300 {
+        spikes.push_str(&format!("unit-{u},{}\n", 0.1 + u as f64 * 1e-3));
+    }
+    spikes.push_str("unit-0,999999999.5\n");
+    std::fs::write(dir.join("spikes.csv"), spikes).unwrap();
+    std::fs::write(
+        dir.join("licks.csv"),
+        "time_s\n0\n1.6\n86400.2\n1000000000\n",
+    )
+    .unwrap();
+    std::fs::write(
+        dir.join("photometry.csv"),
+        "time_s,signal,control\n0,1e300,-1e300\n0.05,-1e300,1e-300\n1000000000,0,0\n",
+    )
+    .unwrap();
+    let loaded = trialdesk::data::load(&dir).unwrap_or_else(|f| panic!("{f}"));
+    let mut st = app::build_state(
+        loaded.subject,
+        tui_support::options(),
+        Keymap::build(&[]).unwrap(),
+        &ModelSettings::defaults(),
+    );
+    for keys in [
+        "", "j", "j", "j", "j", ".", ",", "a", "a", "a", "2", "3", "4", "1", "G",
+    ] {
+        tui_support::press(&mut st, keys);
+        for (w, h) in [(80, 24), (200, 60), (20, 5)] {
+            let _ = tui_support::frame_text(w, h, &st);
+        }
+    }
+}
