@@ -118,7 +118,8 @@ pub fn main() -> i32 {
     match result {
         Ok(code) => code,
         Err(e) => {
-            eprintln!("trialdesk: {}", e.message);
+            // Messages quote paths and values from the data: no escape sequences through.
+            eprintln!("trialdesk: {}", crate::util::printable(&e.message));
             e.code
         }
     }
