@@ -119,12 +119,12 @@ impl Shard {
     pub fn new(k: usize, n: usize) -> Result<Shard, CohortError> {
         if n == 0 {
             return Err(CohortError::BadShard(format!(
-                "shard {k}/{n}: N must be at least 1"
+                "shard {k}/{n}: N must be at least 1 (expected K/N with 1 <= K <= N)"
             )));
         }
         if k == 0 || k > n {
             return Err(CohortError::BadShard(format!(
-                "shard {k}/{n}: K must be between 1 and N ({n}); array tasks count from 1"
+                "shard {k}/{n}: expected K/N with 1 <= K <= N ({n}); array tasks count from 1"
             )));
         }
         Ok(Shard { k, n })
