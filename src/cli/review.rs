@@ -94,8 +94,19 @@ pub fn run(args: Args) -> CmdResult {
         )));
     }
     let (settings, fit_problem) = ModelSettings::from_subject(&loaded.subject.root);
-    let mut state = app::build_state(loaded.subject, opts, keymap, &settings);
-    if let Some(p) = fit_problem {
+    // A broken suggest.toml should not keep anyone from reviewing: shipped rules, and say so.
+    let (rules, rules_problem) = match crate::suggest::RuleSet::load_user() {
+        Ok((rules, _)) => (rules, None),
+        Err(e) => (
+            crate::suggest::RuleSet::default(),
+            Some(format!("{e}; using the shipped suggestion rules")),
+        ),
+    };
+    let mut state = app::build_state_with_rules(loaded.subject, opts, keymap, &settings, rules);
+    if let Some(p) = rules_problem {
+        state.status.text = p;
+        state.status.tone = Tone::Warn;
+    } else if let Some(p) = fit_problem {
         state.status.text = p;
         state.status.tone = Tone::Warn;
     } else if !loaded.warnings.is_empty() {

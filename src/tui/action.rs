@@ -54,6 +54,14 @@ pub enum Action {
     NoteSession,
     /// Undo your last mark by appending a row that restores the one before it.
     UndoMark,
+    /// Accept the current trial's suggested mark (an ordinary mark, reason = the rule id).
+    AcceptSuggestion,
+    /// Reject the current trial's suggested mark (recorded, so it is not suggested again).
+    RejectSuggestion,
+    /// Accept every pending suggestion of the current trial's rule in this session (asks first).
+    AcceptRuleSuggestions,
+    /// Go to the next trial with a pending suggestion.
+    NextSuggestion,
     /// Re-read the marks journals now (they are also re-read every second).
     RefreshMarks,
     /// Show or hide this help.
@@ -68,9 +76,9 @@ pub enum Action {
     PickerDown,
     /// Pick the n-th reason directly (0-based).
     PickReason(usize),
-    /// Accept the picker's choice or the editor's text.
+    /// Accept the picker's choice, the editor's text, or answer yes to a question.
     Confirm,
-    /// Close the picker, editor or help without doing anything.
+    /// Close the picker, editor, question or help without doing anything.
     Cancel,
     /// Type one character into the editor.
     TypeChar(char),
@@ -111,6 +119,10 @@ pub const BINDABLE: &[(Action, &str)] = &[
     (Action::NoteTrial, "note_trial"),
     (Action::NoteSession, "note_session"),
     (Action::UndoMark, "undo_mark"),
+    (Action::AcceptSuggestion, "accept_suggestion"),
+    (Action::RejectSuggestion, "reject_suggestion"),
+    (Action::AcceptRuleSuggestions, "accept_rule_suggestions"),
+    (Action::NextSuggestion, "next_suggestion"),
     (Action::RefreshMarks, "refresh_marks"),
     (Action::ToggleHelp, "toggle_help"),
     (Action::Quit, "quit"),
@@ -153,6 +165,10 @@ impl Action {
             Action::NoteTrial => "note on this trial",
             Action::NoteSession => "note on the session",
             Action::UndoMark => "undo my last mark",
+            Action::AcceptSuggestion => "accept suggested mark",
+            Action::RejectSuggestion => "reject suggested mark",
+            Action::AcceptRuleSuggestions => "accept all of its rule",
+            Action::NextSuggestion => "next suggested trial",
             Action::RefreshMarks => "re-read marks now",
             Action::ToggleHelp => "this help",
             Action::Quit => "quit",

@@ -4,10 +4,11 @@
 
 use super::action::Action;
 use super::derived::{self, ModelSettings, ModelView, SessionView};
-use super::keymap::{editor_action, picker_action};
+use super::keymap::{confirm_action, editor_action, picker_action};
 use super::state::{Options, Overlay, Screen, SessionMarks, SignalKind, State, Status, Tone};
 use super::{screens, update};
 use crate::data::Subject;
+use crate::suggest::RuleSet;
 use crossterm::event::{self, Event, KeyCode, KeyEvent, KeyEventKind, KeyModifiers};
 use ratatui::backend::Backend;
 use ratatui::Terminal;
@@ -19,14 +20,25 @@ use super::keymap::Keymap;
 /// How often other reviewers' rows are looked for.
 pub const REFRESH_EVERY: Duration = Duration::from_secs(1);
 
-/// Build the reviewer's state for a loaded subject: model run at the given parameters, the
-/// first session's traces, every session's journal. The subject must hold at least one session
-/// (`trialdesk review` says so before getting here).
+/// [`build_state_with_rules`] with the shipped suggestion rules.
 pub fn build_state(
     subject: Subject,
     opts: Options,
     keymap: Keymap,
     settings: &ModelSettings,
+) -> State {
+    build_state_with_rules(subject, opts, keymap, settings, RuleSet::default())
+}
+
+/// Build the reviewer's state for a loaded subject: model run at the given parameters, the
+/// first session's traces and suggested marks, every session's journal. The subject must hold
+/// at least one session (`trialdesk review` says so before getting here).
+pub fn build_state_with_rules(
+    subject: Subject,
+    opts: Options,
+    keymap: Keymap,
+    settings: &ModelSettings,
+    rules: RuleSet,
 ) -> State {
     let obs_opts = settings.obs_options(&subject);
     let model = ModelView::build(&subject, settings, &obs_opts);
@@ -65,12 +77,19 @@ pub fn build_state(
         view,
         obs,
         days: Vec::new(),
+        rules,
+        suggested: vec![None; n],
+        photometry_views: vec![None; n],
         quit: false,
     };
+    if signal == SignalKind::Photometry {
+        state.photometry_views[0] = Some(state.view.clone());
+    }
     for si in 0..n {
         update::reread_journal(&mut state, si);
     }
     update::rebuild_days(&mut state);
+    update::ensure_suggestions(&mut state, 0);
     let trials: usize = state.subject.sessions.iter().map(|s| s.trials.len()).sum();
     state.status.text = format!(
         "{n} session(s), {trials} trials; model: {}",
@@ -87,6 +106,7 @@ pub fn key_to_action(state: &State, key: &KeyEvent) -> Option<Action> {
     match state.overlay {
         Overlay::Picker { .. } => picker_action(key),
         Overlay::Editor { .. } => editor_action(key),
+        Overlay::ConfirmAcceptAll { .. } => confirm_action(key),
         Overlay::Help if key.code == KeyCode::Esc => Some(Action::Cancel),
         Overlay::Help | Overlay::None => state.keymap.lookup(key),
     }

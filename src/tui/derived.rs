@@ -1,5 +1,7 @@
 //! Values the screens draw that take real work, computed when their inputs change (never per
-//! frame): the model run, one session's per-trial activity traces, the days table.
+//! frame): the model run, one session's per-trial activity traces, the days table, and each
+//! session's suggested marks (the rules run once, when the session is first opened; which of
+//! them are still pending is refolded after every mark, a cheap filter).
 //!
 //! The work itself is the core's (`model::run`, `obs::SessionActivity`, `obs::observe`); this
 //! file only decides what to ask for and keeps the answers.
@@ -11,6 +13,7 @@ use crate::marks::MarkState;
 use crate::model::Representation;
 use crate::model::{self, layout_subject, TdParams, TdRun, TrialSpan, POST_S};
 use crate::obs::{self, ObsOptions, SessionActivity, Signal, TrialKind, TrialObs, WindowDeltas};
+use crate::suggest::{self, RuleSet, Suggestion};
 use crate::summary::{self, DayRow, ModelTraces};
 use std::path::Path;
 
@@ -230,6 +233,36 @@ pub fn observe_spans(
         }
     }
     out
+}
+
+/// One session's suggested marks.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct SessionSuggestions {
+    /// Everything the rules found, by trial number then rule (as `suggest_session` orders them).
+    pub all: Vec<Suggestion>,
+    /// Those the journal has not settled (accepted, rejected or excluded anyway); same order.
+    pub pending: Vec<Suggestion>,
+}
+
+impl SessionSuggestions {
+    /// Run the rules over a session and settle them against its marks.
+    pub fn build(session: &Session, rules: &RuleSet, marks: &MarkState) -> Self {
+        let all = suggest::suggest_session(session, rules);
+        let pending = suggest::pending(&all, marks);
+        SessionSuggestions { all, pending }
+    }
+
+    /// Recompute what is pending after the marks changed (no rule is re-run).
+    pub fn settle(&mut self, marks: &MarkState) {
+        self.pending = suggest::pending(&self.all, marks);
+    }
+
+    /// The pending suggestions on one trial (by trial number), in rule order.
+    pub fn for_trial(&self, trial: i64) -> &[Suggestion] {
+        let a = self.pending.partition_point(|s| s.trial < trial);
+        let b = a + self.pending[a..].partition_point(|s| s.trial == trial);
+        &self.pending[a..b]
+    }
 }
 
 /// A run of trials sharing cue and outcome, for the session screen's grouping.

@@ -350,6 +350,15 @@ pub fn picker_action(key: &KeyEvent) -> Option<Action> {
     }
 }
 
+/// Fixed keys of a yes/no question: y answers yes; n or esc answers no.
+pub fn confirm_action(key: &KeyEvent) -> Option<Action> {
+    match key.code {
+        KeyCode::Char('y') | KeyCode::Char('Y') => Some(Action::Confirm),
+        KeyCode::Char('n') | KeyCode::Char('N') | KeyCode::Esc => Some(Action::Cancel),
+        _ => None,
+    }
+}
+
 /// Fixed keys of the one-line note editor: printable characters type themselves.
 pub fn editor_action(key: &KeyEvent) -> Option<Action> {
     let ctrl = key.modifiers.contains(KeyModifiers::CONTROL);
@@ -513,5 +522,16 @@ mod tests {
             editor_action(&key(KeyCode::Char('q'), KeyModifiers::CONTROL)),
             None
         );
+    }
+
+    #[test]
+    fn question_keys() {
+        let k = |c| confirm_action(&key(c, KeyModifiers::NONE));
+        assert_eq!(k(KeyCode::Char('y')), Some(Action::Confirm));
+        assert_eq!(k(KeyCode::Char('n')), Some(Action::Cancel));
+        assert_eq!(k(KeyCode::Esc), Some(Action::Cancel));
+        // Enter is not an answer: accepting many rows takes a deliberate y.
+        assert_eq!(k(KeyCode::Enter), None);
+        assert_eq!(k(KeyCode::Char('j')), None);
     }
 }

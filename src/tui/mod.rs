@@ -14,6 +14,7 @@ pub mod derived;
 pub mod keymap;
 pub mod screens;
 pub mod state;
+pub mod suggestions;
 pub mod terminal;
 pub mod theme;
 pub mod update;

@@ -5,11 +5,12 @@
 //! start ([`ModelView`]), the session's per-trial activity traces when the session, unit or
 //! signal changes ([`SessionView`]), the days table once at start.
 
-use super::derived::{ModelView, SessionView};
+use super::derived::{ModelView, SessionSuggestions, SessionView};
 use super::keymap::Keymap;
 use crate::data::{Session, Subject, Trial};
 use crate::marks::{Journal, MarkKind, MarkRow, MarkState, TrialMark};
 use crate::obs::TrialObs;
+use crate::suggest::{RuleSet, Suggestion};
 use crate::summary::DayRow;
 
 /// Which screen fills the window.
@@ -61,6 +62,8 @@ pub enum Overlay {
         text: String,
         cursor: usize,
     },
+    /// Asking (y/n) before accepting every pending suggestion of one rule in the session.
+    ConfirmAcceptAll { rule: &'static str, count: usize },
 }
 
 /// Which recorded activity the traces and heat rows show.
@@ -166,6 +169,13 @@ pub struct State {
     pub obs: Vec<Option<TrialObs>>,
     /// The days table (`summary::day_rows`), rebuilt when marks change.
     pub days: Vec<DayRow>,
+    /// The suggestion rules in force (shipped defaults with the user's suggest.toml over them).
+    pub rules: RuleSet,
+    /// Per session, its suggested marks; `None` until the session is first opened.
+    pub suggested: Vec<Option<SessionSuggestions>>,
+    /// Per session, its photometry traces once built: preprocessing a long recording is the
+    /// costly part of a view and does not depend on the unit, so it is done once per session.
+    pub photometry_views: Vec<Option<SessionView>>,
     pub quit: bool,
 }
 
@@ -192,6 +202,22 @@ impl State {
             .into_iter()
             .flat_map(|m| m.state.notes.iter())
             .filter(move |r| r.trial == trial_number)
+    }
+
+    /// The pending suggestions on a trial of the current session (by trial number).
+    pub fn suggestions_of(&self, trial_number: i64) -> &[Suggestion] {
+        self.suggested
+            .get(self.session)
+            .and_then(|s| s.as_ref())
+            .map_or(&[], |s| s.for_trial(trial_number))
+    }
+
+    /// All pending suggestions of the current session.
+    pub fn pending_suggestions(&self) -> &[Suggestion] {
+        self.suggested
+            .get(self.session)
+            .and_then(|s| s.as_ref())
+            .map_or(&[], |s| s.pending.as_slice())
     }
 
     /// The chosen unit's id, if one is chosen and the session has spikes.

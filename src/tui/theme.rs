@@ -23,6 +23,8 @@ pub enum Role {
     Current,
     Exclude,
     Suspect,
+    /// A suggested mark, not yet accepted or rejected.
+    Suggest,
     Cue,
     Reward,
     Tone(Tone),
@@ -63,6 +65,7 @@ impl Theme {
             Role::Current => s.add_modifier(Modifier::REVERSED),
             Role::Exclude => c(Color::LightRed).add_modifier(Modifier::BOLD),
             Role::Suspect => c(Color::Yellow),
+            Role::Suggest => c(Color::Magenta),
             Role::Cue => c(Color::Cyan),
             Role::Reward => c(Color::LightGreen),
             Role::Tone(Tone::Info) => s,
@@ -168,6 +171,15 @@ impl Theme {
             Some(MarkKind::Exclude) => (if self.ascii { "X" } else { "✗" }, Role::Exclude),
             Some(MarkKind::Suspect) => ("?", Role::Suspect),
             _ => (" ", Role::Plain),
+        }
+    }
+
+    /// Glyph for a pending suggested mark: a shape no mark uses, so it reads without colour.
+    pub fn suggest_glyph(&self) -> &'static str {
+        if self.ascii {
+            "!"
+        } else {
+            "◇"
         }
     }
 

@@ -5,7 +5,8 @@
 //! (shown, flagged, retried on every refresh) instead of pretending.
 
 use super::action::Action;
-use super::derived::{self, SessionView};
+use super::derived::{self, SessionSuggestions, SessionView};
+use super::suggestions;
 use super::state::{NoteTarget, Overlay, Screen, SignalKind, State, Status, Tone, UndoEntry};
 use crate::marks::{self, MarkKind, MarkRow};
 
@@ -27,6 +28,9 @@ pub fn update(state: &mut State, action: Action) {
     match state.overlay.clone() {
         Overlay::Picker { kind, selected } => return picker(state, kind, selected, action),
         Overlay::Editor { .. } => return editor(state, action),
+        Overlay::ConfirmAcceptAll { rule, count } => {
+            return suggestions::answer(state, rule, count, action)
+        }
         Overlay::Help => {
             if matches!(
                 action,
@@ -93,6 +97,10 @@ pub fn update(state: &mut State, action: Action) {
         }
         Action::NoteSession => open_editor(state, NoteTarget::Session),
         Action::UndoMark => undo(state),
+        Action::AcceptSuggestion => suggestions::accept(state),
+        Action::RejectSuggestion => suggestions::reject(state),
+        Action::AcceptRuleSuggestions => suggestions::ask_accept_all(state),
+        Action::NextSuggestion => suggestions::next(state),
         Action::ToggleHelp => state.overlay = Overlay::Help,
         Action::Quit => state.quit = true,
         // Picker and editor keys mean nothing outside them.
@@ -100,7 +108,7 @@ pub fn update(state: &mut State, action: Action) {
     }
 }
 
-fn info(state: &mut State, text: &str) {
+pub(super) fn info(state: &mut State, text: &str) {
     state.status = Status {
         text: text.to_string(),
         tone: Tone::Info,
@@ -148,9 +156,31 @@ pub fn open_session(state: &mut State, index: usize) {
     }
     rebuild_view(state);
     reread_journal(state, index);
+    ensure_suggestions(state, index);
+}
+
+/// Run the suggestion rules over a session the first time it is opened.
+pub fn ensure_suggestions(state: &mut State, session: usize) {
+    if state.suggested[session].is_none() {
+        let built = SessionSuggestions::build(
+            &state.subject.sessions[session],
+            &state.rules,
+            &state.marks[session].state,
+        );
+        state.suggested[session] = Some(built);
+    }
 }
 
 fn rebuild_view(state: &mut State) {
+    let si = state.session;
+    if state.signal == SignalKind::Photometry {
+        let cached = &mut state.photometry_views[si];
+        let view = cached.get_or_insert_with(|| {
+            SessionView::build(&state.subject.sessions[si], SignalKind::Photometry, None)
+        });
+        state.view = view.clone();
+        return;
+    }
     let unit = state.unit_name().map(str::to_string);
     state.view = SessionView::build(state.current_session(), state.signal, unit.as_deref());
 }
@@ -182,8 +212,10 @@ fn step_unit(state: &mut State, forward: bool) {
         (pos + n) % (n + 1)
     };
     state.unit = pos.checked_sub(1);
-    state.signal = SignalKind::Spikes;
-    rebuild_view(state);
+    // Photometry and lick traces do not depend on the unit: only the raster changes.
+    if state.signal == SignalKind::Spikes {
+        rebuild_view(state);
+    }
 }
 
 fn cycle_signal(state: &mut State) {
@@ -311,7 +343,7 @@ fn new_row(
     }
 }
 
-fn commit_mark(state: &mut State, kind: MarkKind, reason: String, note: String) {
+pub(super) fn commit_mark(state: &mut State, kind: MarkKind, reason: String, note: String) {
     let Some(trial) = state.current_trial().map(|t| t.number) else {
         return;
     };
@@ -329,7 +361,7 @@ fn commit_mark(state: &mut State, kind: MarkKind, reason: String, note: String) 
     save_row(state, state.session, row, &what);
 }
 
-fn past(kind: MarkKind) -> &'static str {
+pub(super) fn past(kind: MarkKind) -> &'static str {
     match kind {
         MarkKind::Exclude => "excluded",
         MarkKind::Suspect => "suspect",
@@ -379,7 +411,7 @@ fn undo(state: &mut State) {
 }
 
 /// Append one row durably; say "saved" only once `marks::append` has returned Ok.
-fn save_row(state: &mut State, session: usize, row: MarkRow, what: &str) {
+pub(super) fn save_row(state: &mut State, session: usize, row: MarkRow, what: &str) {
     let dir = state.subject.sessions[session].dir.clone();
     match marks::append(&dir, &row) {
         Ok(()) => {
@@ -412,6 +444,9 @@ fn refold(state: &mut State, session: usize) {
     };
     if folded != sm.state {
         sm.state = folded;
+        if let Some(sugg) = state.suggested.get_mut(session).and_then(|s| s.as_mut()) {
+            sugg.settle(&state.marks[session].state);
+        }
         // The days table is empty until start-up has read every journal.
         if !state.days.is_empty() {
             rebuild_days(state);

@@ -19,6 +19,7 @@ pub fn lines(state: &State) -> Vec<String> {
     out.push(format!("{:<12} {}", "ctrl-c", "quit (always)"));
     out.push(format!("{:<12} {}", "in picker", "1-9, or up/down + enter"));
     out.push(format!("{:<12} {}", "in editor", "enter saves, esc drops"));
+    out.push(format!("{:<12} {}", "in question", "y yes, n or esc no"));
     out.push(format!(
         "{:<12} {}",
         "events", "C cue, R reward, o omitted,"
@@ -27,10 +28,12 @@ pub fn lines(state: &State) -> Vec<String> {
     let excluded = Theme::from_options(&state.opts)
         .mark_glyph(Some(crate::marks::MarkKind::Exclude))
         .0;
+    let theme = Theme::from_options(&state.opts);
     out.push(format!(
         "{:<12} {excluded} excl. ? suspect + note",
         "margin"
     ));
+    out.push(format!("{:<12} {} suggested mark", "", theme.suggest_glyph()));
     out
 }
 

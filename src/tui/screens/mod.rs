@@ -9,7 +9,7 @@ pub mod trial;
 
 use super::state::{Overlay, Screen, State};
 use super::theme::{Role, Theme};
-use super::widgets::{mark_picker, note_editor, put, status_bar, tabs};
+use super::widgets::{confirm, mark_picker, note_editor, put, status_bar, tabs};
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
 
@@ -57,5 +57,8 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State) {
             text,
             cursor,
         } => note_editor::render(buf, area, state, &theme, target, text, *cursor),
+        Overlay::ConfirmAcceptAll { rule, count } => {
+            confirm::render(buf, area, state, &theme, rule, *count)
+        }
     }
 }

@@ -1,5 +1,6 @@
 //! The session screen: every trial as a row of shaded activity on a shared time axis, grouped
-//! by cue and outcome, marks in the margin, the current trial highlighted.
+//! by cue and outcome, marks and suggestions in the margin, the current trial highlighted and
+//! its pending suggestion spelled out under the rows.
 
 use crate::tui::state::State;
 use crate::tui::theme::{Role, Theme};
@@ -25,20 +26,22 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         ),
     };
     put(buf, area, 1, 0, &title, theme.style(Role::Title));
-    if area.height < 6 {
+    if area.height < 7 {
         return;
     }
-    let rows = Rect::new(area.x, area.y + 1, area.width, area.height - 5);
+    let rows = Rect::new(area.x, area.y + 1, area.width, area.height - 6);
     heat::render(buf, rows, state, theme, &axis, GUTTER);
-    let foot = Rect::new(area.x, area.y + area.height - 4, area.width, 2);
+    let foot = Rect::new(area.x, area.y + area.height - 5, area.width, 2);
     raster::render_events(buf, foot, state, theme, &axis, GUTTER);
+    render_current(buf, area, state, theme, area.height - 3);
     let shades: String = theme.shades().concat();
     let legend = format!(
-        "shade {} = {} .. {}   margin: {} excluded  ? suspect",
+        "shade {} = {} .. {}   margin: {} excluded  ? suspect  {} suggested",
         shades,
         short(view.range.0),
         short(view.range.1),
         theme.mark_glyph(Some(crate::marks::MarkKind::Exclude)).0,
+        theme.suggest_glyph(),
     );
     put(
         buf,
@@ -65,4 +68,38 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         &notes,
         theme.style(Role::Plain),
     );
+}
+
+/// One line on the current trial's pending suggestion (the rule's reason), at row `dy`.
+fn render_current(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme, dy: u16) {
+    let Some(trial) = state.current_trial() else {
+        return;
+    };
+    let pending = state.suggestions_of(trial.number);
+    let (text, role) = match pending.first() {
+        None => (
+            format!(
+                "trial {}: no pending suggestion ({} in this session)",
+                trial.number,
+                state.pending_suggestions().len()
+            ),
+            Role::Dim,
+        ),
+        Some(s) => (
+            format!(
+                "trial {}: {} {}: {}{}",
+                trial.number,
+                theme.suggest_glyph(),
+                s.rule,
+                theme.clean(&s.reason),
+                if pending.len() > 1 {
+                    format!(" (+{} more)", pending.len() - 1)
+                } else {
+                    String::new()
+                }
+            ),
+            Role::Suggest,
+        ),
+    };
+    put(buf, area, 1, dy, &text, theme.style(role));
 }

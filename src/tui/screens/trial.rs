@@ -1,8 +1,10 @@
 //! The trial screen: trial list on the left; on the right the current trial's raster, licks,
 //! events, and the observed activity trace above the model's value and δ for the same trial,
-//! all on one time axis so the columns line up.
+//! all on one time axis so the columns line up. Under the trial's header, its pending
+//! suggested mark with the rule's reason.
 
 use crate::obs::TrialKind;
+use crate::tui::action::Action;
 use crate::tui::state::{SignalKind, State};
 use crate::tui::theme::{Role, Theme};
 use crate::tui::widgets::trace::{self, Trace};
@@ -32,8 +34,8 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
 /// Row heights of the right-hand side for a given height and the raster rows wanted:
 /// (raster, each trace incl. its title). Rows the raster does not need go to the traces.
 fn heights(h: u16, wanted: u16) -> (u16, u16) {
-    // Fixed rows: info, licks, events, seconds, notes.
-    let fixed = 5;
+    // Fixed rows: info, suggestion, licks, events, seconds, notes.
+    let fixed = 6;
     let mut trace_h = match h {
         34.. => 7,
         26.. => 5,
@@ -83,6 +85,8 @@ fn render_detail(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
     };
 
     render_info(buf, row(y, 1), state, theme);
+    y += 1;
+    render_suggestion(buf, row(y, 1), state, theme, trial.number);
     y += 1;
     raster::render(buf, row(y, raster_h), state, theme, &axis, GUTTER);
     y += raster_h;
@@ -175,6 +179,33 @@ fn render_detail(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         };
         put(buf, row(y, 1), 1, 0, &text, theme.style(Role::Dim));
     }
+}
+
+/// The trial's pending suggestion (the first by rule order, with how many more) and its keys.
+fn render_suggestion(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme, trial: i64) {
+    let pending = state.suggestions_of(trial);
+    let Some(first) = pending.first() else {
+        put(buf, area, 1, 0, "suggested: none", theme.style(Role::Dim));
+        return;
+    };
+    let key = |a| {
+        let k = state.keymap.keys_for(a);
+        k.split(", ").next().unwrap_or("").to_string()
+    };
+    let more = match pending.len() {
+        1 => String::new(),
+        n => format!(" (+{} more)", n - 1),
+    };
+    let text = format!(
+        "{} {}: {}{more}  [{} accept {} reject {} all]",
+        theme.suggest_glyph(),
+        first.rule,
+        theme.clean(&first.reason),
+        key(Action::AcceptSuggestion),
+        key(Action::RejectSuggestion),
+        key(Action::AcceptRuleSuggestions),
+    );
+    put(buf, area, 1, 0, &text, theme.style(Role::Suggest));
 }
 
 fn render_info(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {

@@ -1,5 +1,6 @@
 //! Session heat rows: one row per trial, one cell per time column, shaded by the trial's
-//! binned activity; grouped by cue and outcome, marks in the left margin.
+//! binned activity; grouped by cue and outcome, marks in the left margin and pending
+//! suggestions in its last column, next to the row.
 
 use super::{put, TimeAxis};
 use crate::tui::state::State;
@@ -102,6 +103,10 @@ pub fn render(
                 );
                 if current {
                     put(buf, area, 1, dy, theme.pointer(), num_style);
+                }
+                if !state.suggestions_of(trial.number).is_empty() {
+                    let col = gutter.saturating_sub(1);
+                    put(buf, area, col, dy, theme.suggest_glyph(), theme.style(Role::Suggest));
                 }
                 let trace = &state.view.traces[t];
                 let cols = axis.resample_mean(trace, state.view.from_s, state.view.bin_s);

@@ -2,6 +2,7 @@
 //! buffer, and mutates nothing. Shared here: writing clipped text and the time axis that keeps
 //! raster, licks and traces lined up column for column.
 
+pub mod confirm;
 pub mod heat;
 pub mod mark_picker;
 pub mod note_editor;

@@ -1,5 +1,5 @@
-//! The trial list: number, cue, outcome and the standing mark, current trial highlighted,
-//! scrolled to keep it in view.
+//! The trial list: number, cue, outcome, the standing mark (first column) and a pending
+//! suggestion (after the number), current trial highlighted, scrolled to keep it in view.
 
 use super::{fill_row, put};
 use crate::obs::TrialKind;
@@ -30,7 +30,7 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         .trial
         .saturating_sub(rows / 2)
         .min(n.saturating_sub(rows));
-    let cue_w = area.width.saturating_sub(13) as usize;
+    let cue_w = area.width.saturating_sub(14) as usize;
     for (dy, i) in (first..n.min(first + rows)).enumerate() {
         let dy = dy as u16;
         let trial = &session.trials[i];
@@ -46,8 +46,9 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
             cue
         };
         let has_note = state.notes_of(Some(trial.number)).next().is_some();
+        let suggested = !state.suggestions_of(trial.number).is_empty();
         let text = format!(
-            "{:>5} {:<cue_w$} {:<4}{}",
+            "{:>5}  {:<cue_w$} {:<4}{}",
             trial.number,
             cue,
             outcome_tag(TrialKind::of(session, trial)),
@@ -76,6 +77,15 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         } else {
             put(buf, area, 0, dy, glyph, theme.style(role));
             put(buf, area, 1, dy, &text, theme.style(Role::Plain));
+        }
+        if suggested {
+            let style = theme.style(Role::Suggest);
+            let style = if i == state.trial {
+                style.patch(theme.style(Role::Current))
+            } else {
+                style
+            };
+            put(buf, area, 6, dy, theme.suggest_glyph(), style);
         }
     }
 }
