@@ -6,10 +6,11 @@
 
 use super::{CliError, CmdResult};
 use crate::data;
-use crate::fit::{self, dataset, report, saved, FitOptions, Progress, ResampleUnit};
+use crate::fit::{self, dataset, report, saved, sensitivity, FitOptions, Progress, ResampleUnit};
 use crate::marks::{self, MarkState};
 use crate::model::{self, Representation};
 use crate::obs::{self, ObsOptions, Signal};
+use crate::suggest::{pending_for_session, RuleSet, Suggestion};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use std::io::{IsTerminal, Write};
 use std::path::{Path, PathBuf};
@@ -86,6 +87,10 @@ pub struct Args {
     /// Do not write the fitted parameters to <subject folder>/trialdesk-fit.toml
     #[arg(long)]
     pub no_save: bool,
+    /// Skip the sensitivity line (a refit with the trials of pending suggested marks excluded
+    /// too, in memory; nothing is written to marks.csv)
+    #[arg(long)]
+    pub no_sensitivity: bool,
 }
 
 fn parse_window(name: &str, text: &str) -> Result<(f64, f64), CliError> {
@@ -306,6 +311,37 @@ fn write_out(
     Ok(())
 }
 
+/// Pending suggested marks of every session (user rules over the shipped defaults), then the
+/// refit with their trials excluded too. Reads marks.csv, never writes it.
+fn sensitivity_line(
+    subject: &data::Subject,
+    data: &fit::FitData,
+    outcome: &fit::FitOutcome,
+    opts: &FitOptions,
+) -> String {
+    let rules = match RuleSet::load_user() {
+        Ok((rules, _)) => rules,
+        Err(e) => {
+            return format!(
+                "Sensitivity to suggested marks: skipped, the rule file has an error: {e}"
+            )
+        }
+    };
+    let per_session: Vec<Vec<Suggestion>> = subject
+        .sessions
+        .iter()
+        .map(|s| {
+            pending_for_session(s, &rules).unwrap_or_else(|e| {
+                eprintln!("warning: {e} (suggested marks of this session left out of the sensitivity line)");
+                Vec::new()
+            })
+        })
+        .collect();
+    let trials = sensitivity::SuggestedTrials::new(data, &per_session);
+    let result = sensitivity::sensitivity(data, outcome, opts, &trials);
+    sensitivity::line(&result, &trials, outcome, opts.fit_lambda)
+}
+
 /// This invocation as the user would retype it (program name without its folder).
 fn command_line() -> String {
     let mut words: Vec<String> = std::env::args().skip(1).collect();
@@ -359,6 +395,11 @@ pub fn run(args: Args) -> CmdResult {
     bar.finish();
     let outcome = result.map_err(|e| CliError::failed(format!("{}: {e}", args.path.display())))?;
 
+    let sensitivity = if args.no_sensitivity {
+        None
+    } else {
+        Some(sensitivity_line(subject, &data, &outcome, &opts))
+    };
     let ctx = report::ReportContext {
         subject: subject
             .sessions
@@ -367,6 +408,7 @@ pub fn run(args: Args) -> CmdResult {
             .unwrap_or_else(|| subject.root.display().to_string()),
         observations: describe_obs(&obs_opts),
         command: command_line(),
+        sensitivity,
     };
     let mut text = report::text_report(&outcome, &data, &ctx, opts.fit_lambda);
 

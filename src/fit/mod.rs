@@ -19,6 +19,7 @@ pub mod objective;
 pub mod optimise;
 pub mod report;
 pub mod saved;
+pub mod sensitivity;
 pub mod synthetic;
 
 pub use bootstrap::{GammaProfile, Intervals, ResampleUnit};

@@ -158,6 +158,8 @@ pub struct ReportContext {
     pub observations: String,
     /// The command line to suggest with `nice`.
     pub command: String,
+    /// The sensitivity-to-suggested-marks line ([`super::sensitivity::line`]), if computed.
+    pub sensitivity: Option<String>,
 }
 
 /// The plain-text report.
@@ -253,6 +255,9 @@ pub fn text_report(
     }
 
     write_exclusions(&mut s, out, data);
+    if let Some(line) = &ctx.sensitivity {
+        let _ = writeln!(s, "{line}");
+    }
     let _ = writeln!(s);
 
     for w in &out.warnings {
