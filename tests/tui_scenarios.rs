@@ -458,3 +458,22 @@ fn refresh_reaches_through_open_boxes() {
     // The note being typed is untouched.
     assert!(matches!(&st.overlay, Overlay::Editor { text, .. } if text == "half typed"));
 }
+
+#[test]
+fn photometry_traces_are_built_once_per_session() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    press(&mut st, "]a");
+    assert_eq!(st.signal, trialdesk::tui::state::SignalKind::Photometry);
+    assert!(st.photometry_views[1].is_some());
+    // A marker in the cache: seen again only if the view comes from the cache, not a rebuild.
+    st.photometry_views[1].as_mut().unwrap().label = "cached".to_string();
+    // A unit step changes the raster's unit and keeps photometry on screen.
+    press(&mut st, ".");
+    assert_eq!(st.signal, trialdesk::tui::state::SignalKind::Photometry);
+    assert!(st.unit.is_some());
+    // Away to licks and spikes, to the other session and back: still the cached traces.
+    press(&mut st, "aa[]a");
+    assert_eq!(st.signal, trialdesk::tui::state::SignalKind::Photometry);
+    assert_eq!(st.view.label, "cached");
+}

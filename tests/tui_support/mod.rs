@@ -117,3 +117,26 @@ pub fn marks_rows(dir: &Path, session: &str) -> Vec<String> {
         .map(|l| l.rsplit_once(',').map_or(l, |(a, _)| a).to_string())
         .collect()
 }
+
+/// A simulated subject with injected faults (random seed 7, one day of 30 trials, 2 units;
+/// valve failures at 0.2 and baseline licks at 0.1 per trial), written to a temporary folder,
+/// so the suggestion rules have real trials to point at.
+pub fn faulty_subject() -> (tempfile::TempDir, PathBuf) {
+    use trialdesk::simulate::{self, faults::FaultKind, SimConfig};
+    let mut c = SimConfig {
+        seed: 7,
+        ..SimConfig::default()
+    };
+    c.schedule.days = 1;
+    c.schedule.trials_per_day = 30;
+    c.units.count = 2;
+    c.faults.rates = vec![
+        (FaultKind::ValveFailure, 0.2),
+        (FaultKind::BaselineLicks, 0.1),
+    ];
+    let sim = simulate::simulate(&c).unwrap();
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().join("m-041");
+    simulate::write_subject(&sim, &dir, false).unwrap();
+    (tmp, dir)
+}
