@@ -6,9 +6,9 @@
 //!
 //! Properties: nothing panics; a clean folder loads; a folder that fails to load has an
 //! error naming one of its files, at a line that exists; `check` and `load` agree on whether
-//! the data files have errors. Case counts are fixed below (about 1,600 cases in all, a
-//! few seconds in a debug build); byte-level fuzzing of the single readers lives in
-//! check_props.rs and marks_properties.rs.
+//! the data files have errors. Case counts are fixed below (1,964 cases per run: 564 session
+//! folders, 600 rule files, 800 keymap files; about 4 s of CPU in a debug build); byte-level
+//! fuzzing of the single readers lives in check_props.rs and marks_properties.rs.
 
 use proptest::prelude::*;
 use std::path::Path;
