@@ -9,12 +9,14 @@
 
 pub mod cohort;
 pub mod render;
+pub mod suggested;
+
+pub use suggested::suggested_counts;
 
 use crate::data::Subject;
 use crate::marks::{MarkKind, MarkState};
 use crate::model::{TdRun, TrialSpan};
 use crate::obs::{window_delta_sums, ObsOptions, TrialKind, TrialObs};
-use crate::suggest::{counts_by_rule, pending, suggest_session, RuleSet};
 use std::collections::HashMap;
 
 /// A mean and the number of trials it is over (`value` is `None` when n = 0).
@@ -242,26 +244,6 @@ pub fn day_rows(
                     omission: model_omission,
                 }),
             }
-        })
-        .collect()
-}
-
-/// Pending suggested marks of each session of `subject` (same order), per rule in catalogue
-/// order with rules that suggest nothing left out. `marks[i]` is the mark state of
-/// `subject.sessions[i]` (missing entries mean no marks), as for [`day_rows`].
-pub fn suggested_counts(
-    subject: &Subject,
-    marks: &[MarkState],
-    rules: &RuleSet,
-) -> Vec<Vec<(String, usize)>> {
-    let empty = MarkState::default();
-    subject
-        .sessions
-        .iter()
-        .enumerate()
-        .map(|(i, s)| {
-            let marks = marks.get(i).unwrap_or(&empty);
-            counts_by_rule(&pending(&suggest_session(s, rules), marks))
         })
         .collect()
 }

@@ -4,6 +4,7 @@
 //! ([`render_with`]) a further table per subject, and CSV rows `suggested:<rule id>`.
 
 use super::cohort::CohortRow;
+use super::suggested::{by_rule, legend};
 use super::{DayRow, Mean};
 use crate::suggest::CATALOG;
 use crate::util::fmt_f64;
@@ -370,29 +371,6 @@ fn subject_tables(s: &SubjectSummary, suggested: Option<&SuggestedCounts>) -> Ve
         });
     }
     tables
-}
-
-/// `rule n, rule n` or `none`.
-fn by_rule(counts: &[(String, usize)]) -> String {
-    if counts.is_empty() {
-        return "none".into();
-    }
-    let parts: Vec<String> = counts.iter().map(|(r, n)| format!("{r} {n}")).collect();
-    parts.join(", ")
-}
-
-/// One line per rule that suggested anything: its id and description.
-fn legend(counts: &SuggestedCounts) -> Vec<String> {
-    let lines: Vec<String> = CATALOG
-        .iter()
-        .filter(|r| counts.iter().flatten().any(|(id, _)| id == r.id))
-        .map(|r| format!("{}: {}", r.id, r.description))
-        .collect();
-    if lines.is_empty() {
-        vec!["no rule suggests any trial".into()]
-    } else {
-        lines
-    }
 }
 
 fn cohort_table(rows: &[CohortRow]) -> Table {
