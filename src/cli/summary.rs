@@ -69,7 +69,10 @@ anticipatory licks/s; with a saved fit (trialdesk-fit.toml) or --alpha/--gamma, 
 δ summed over the same windows.\n\nA response is the mean activity in a window after the \
 event minus the mean in the baseline before cue onset. Trials marked exclude are counted but \
 their observations are left out of every mean; CSV rows carry the n of each mean. A cohort \
-folder (sub-folders are different animals) adds a table averaged by training day."
+folder (sub-folders are different animals) adds a table averaged by training day.\n\nA \
+last table counts each session's pending suggested marks per rule (the rules of suggest.toml \
+in the trialdesk config folder over the shipped defaults); CSV gives one row per rule, \
+measure suggested:<rule id>, value the count."
 )]
 pub struct Args {
     /// A subject folder, one session folder, or a cohort folder of subject folders
