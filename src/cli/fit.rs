@@ -5,6 +5,7 @@
 //! bar goes to stderr, only on a terminal, and only once the fit has taken more than a second.
 
 use super::{CliError, CmdResult};
+use crate::cohort::Shard;
 use crate::data;
 use crate::fit::{self, dataset, report, saved, sensitivity, FitOptions, Progress, ResampleUnit};
 use crate::marks::{self, MarkState};
@@ -17,6 +18,8 @@ use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::{Duration, Instant};
 
+mod cohort;
+
 #[derive(clap::Args, Debug)]
 #[command(
     after_help = "A fit runs the model hundreds of times and uses every core. Do not run it on a rig \
@@ -25,7 +28,8 @@ Observations of trials marked `exclude` leave the fit, but the model still learn
 trials. Excluding trials after seeing a fit can bias it: compare with --ignore-marks."
 )]
 pub struct Args {
-    /// A subject folder (all its sessions, in date order) or one session folder
+    /// A subject folder (all its sessions, in date order), one session folder, or a cohort
+    /// folder of subject folders (each subject fitted in parallel; tables in --out DIR/<subject>/)
     pub path: PathBuf,
     /// Representation whose parameters are reported and saved: csc, presence or microstimulus
     /// (the comparison table fits all of them and Rescorla–Wagner)
@@ -87,6 +91,10 @@ pub struct Args {
     /// Do not write the fitted parameters to <subject folder>/trialdesk-fit.toml
     #[arg(long)]
     pub no_save: bool,
+    /// Cohort folders only: fit shard K of N (1 <= K <= N) of the subjects sorted by folder
+    /// name, e.g. --shard $SLURM_ARRAY_TASK_ID/10 (see `trialdesk merge --batch-example`)
+    #[arg(long, value_name = "K/N")]
+    pub shard: Option<String>,
     /// Skip the sensitivity line (a refit with the trials of pending suggested marks excluded
     /// too, in memory; nothing is written to marks.csv)
     #[arg(long)]
@@ -349,9 +357,29 @@ fn command_line() -> String {
     words.join(" ")
 }
 
-pub fn run(args: Args) -> CmdResult {
-    let opts = fit_options(&args)?;
-    let loaded = match data::load(&args.path) {
+/// One subject fitted: the full text report, and what a cohort table shows.
+pub(crate) struct SubjectFit {
+    pub text: String,
+    pub outcome: fit::FitOutcome,
+    pub n_sessions: usize,
+    pub n_trials: usize,
+    pub n_excluded: usize,
+    /// The fit is done but `trialdesk-fit.toml` could not be written beside the data.
+    pub save_error: Option<String>,
+}
+
+/// Load, observe, fit and report one subject (or session) folder; writes the tables into
+/// `out_dir` and saves the parameters unless `--no-save`. `announce` prints the low-priority
+/// advice on a terminal (single-subject runs; a cohort run prints it once).
+pub(crate) fn fit_subject(
+    args: &Args,
+    opts: &FitOptions,
+    path: &Path,
+    out_dir: Option<&Path>,
+    progress: &dyn Progress,
+    announce: bool,
+) -> Result<SubjectFit, CliError> {
+    let loaded = match data::load(path) {
         Ok(l) => l,
         Err(failure) => {
             for d in &failure.diagnostics {
@@ -359,7 +387,7 @@ pub fn run(args: Args) -> CmdResult {
             }
             return Err(CliError::failed(format!(
                 "{}: data did not load ({} problem(s) above); nothing fitted",
-                args.path.display(),
+                path.display(),
                 failure.diagnostics.iter().filter(|d| d.is_error()).count()
             )));
         }
@@ -368,7 +396,7 @@ pub fn run(args: Args) -> CmdResult {
         eprintln!("{w}");
     }
     let subject = &loaded.subject;
-    let obs_opts = obs_options(&args, subject)?;
+    let obs_opts = obs_options(args, subject)?;
     let observations =
         obs::observe(subject, &obs_opts).map_err(|e| CliError::failed(e.to_string()))?;
     let marks = read_marks(subject, args.ignore_marks)?;
@@ -381,8 +409,7 @@ pub fn run(args: Args) -> CmdResult {
         args.ignore_marks,
     );
 
-    let bar = Bar::new();
-    if bar.terminal {
+    if announce {
         eprintln!(
             "fitting {} response windows over {} trials; on a rig computer that is acquiring, \
              stop and rerun at low priority: nice -n 19 {}",
@@ -391,14 +418,13 @@ pub fn run(args: Args) -> CmdResult {
             command_line()
         );
     }
-    let result = fit::run_fit(&data, &opts, &bar);
-    bar.finish();
-    let outcome = result.map_err(|e| CliError::failed(format!("{}: {e}", args.path.display())))?;
+    let outcome = fit::run_fit(&data, opts, progress)
+        .map_err(|e| CliError::failed(format!("{}: {e}", path.display())))?;
 
     let sensitivity = if args.no_sensitivity {
         None
     } else {
-        Some(sensitivity_line(subject, &data, &outcome, &opts))
+        Some(sensitivity_line(subject, &data, &outcome, opts))
     };
     let ctx = report::ReportContext {
         subject: subject
@@ -412,7 +438,7 @@ pub fn run(args: Args) -> CmdResult {
     };
     let mut text = report::text_report(&outcome, &data, &ctx, opts.fit_lambda);
 
-    if let Some(dir) = &args.out {
+    if let Some(dir) = out_dir {
         write_out(dir, &outcome, &data, opts.fit_lambda)?;
         text.push_str(&format!(
             "Tables written: {} and {}\n",
@@ -420,6 +446,12 @@ pub fn run(args: Args) -> CmdResult {
             dir.join("trials.csv").display()
         ));
     }
+    let n_excluded = if args.ignore_marks {
+        0
+    } else {
+        data.exclusions.n_trials
+    };
+    let mut save_error = None;
     if !args.no_save {
         let lin = &outcome.best.linear;
         let p = outcome.best.params;
@@ -435,11 +467,7 @@ pub fn run(args: Args) -> CmdResult {
                 reward: lin.baselines[1],
             },
             fitted_at: saved::now_rfc3339(),
-            n_excluded: if args.ignore_marks {
-                0
-            } else {
-                data.exclusions.n_trials
-            },
+            n_excluded,
             ignore_marks: args.ignore_marks,
             lambda_fitted: opts.fit_lambda,
             log_likelihood: Some(outcome.best.log_likelihood),
@@ -453,22 +481,65 @@ pub fn run(args: Args) -> CmdResult {
         match saved::save(&subject.root, &savedfit) {
             Ok(path) => text.push_str(&format!("Fitted parameters saved to {}\n", path.display())),
             Err(e) => {
-                // A read-only data folder must not cost the fit: print the report first.
-                let _ = std::io::stdout().lock().write_all(text.as_bytes());
-                return Err(CliError::failed(format!(
-                    "fit done, but not saved: {e} (the report above is complete; \
+                save_error = Some(format!(
+                    "fit done, but not saved: {e} (the report is complete; \
                      --no-save skips saving beside the data)"
-                )));
+                ))
             }
         }
     }
+    Ok(SubjectFit {
+        text,
+        n_sessions: data.n_sessions(),
+        n_trials: data.spans.len(),
+        n_excluded,
+        outcome,
+        save_error,
+    })
+}
 
+/// Write `text` to stdout; a closed pipe (`| head`) is not an error.
+fn print(text: &str) -> Result<(), CliError> {
     let mut stdout = std::io::stdout().lock();
     match stdout
         .write_all(text.as_bytes())
         .and_then(|_| stdout.flush())
     {
         Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => Err(e.into()),
-        _ => Ok(0),
+        _ => Ok(()),
+    }
+}
+
+pub fn run(args: Args) -> CmdResult {
+    let opts = fit_options(&args)?;
+    let shard = match &args.shard {
+        Some(text) => Some(Shard::parse(text).map_err(|e| CliError::usage(e.to_string()))?),
+        None => None,
+    };
+    if cohort::is_cohort(&args.path) {
+        return cohort::run(&args, &opts, shard.unwrap_or(Shard::ALL));
+    }
+    if shard.is_some() {
+        return Err(CliError::usage(format!(
+            "--shard applies to a cohort folder (a folder of subject folders); {} is a subject \
+             or session folder",
+            args.path.display()
+        )));
+    }
+    let bar = Bar::new();
+    let result = fit_subject(
+        &args,
+        &opts,
+        &args.path,
+        args.out.as_deref(),
+        &bar,
+        bar.terminal,
+    );
+    bar.finish();
+    let fitted = result?;
+    print(&fitted.text)?;
+    match fitted.save_error {
+        Some(e) => Err(CliError::failed(e)),
+        None => Ok(0),
     }
 }
