@@ -132,3 +132,50 @@ fn no_color_draws_without_colours() {
         );
     }
 }
+
+/// Like [`snap`], on the simulated session with faults, where the rules suggest marks.
+fn snap_faulty(name: &str, keys: &str) {
+    let (_tmp, dir) = faulty_subject();
+    let mut st = state(&dir);
+    press(&mut st, keys);
+    for (w, h) in [(80, 24), (120, 40)] {
+        let t = terminal(w, h, &st);
+        insta::assert_snapshot!(format!("{name}_{w}x{h}"), t.backend());
+    }
+}
+
+#[test]
+fn trial_screen_suggested() {
+    snap_faulty("trial_suggested", "f");
+}
+
+#[test]
+fn session_screen_suggested() {
+    snap_faulty("session_suggested", "ff2");
+}
+
+#[test]
+fn accept_all_question() {
+    snap_faulty("accept_all_question", "fY");
+}
+
+#[test]
+fn suggestions_draw_in_ascii_and_at_every_size() {
+    let (_tmp, dir) = faulty_subject();
+    let mut opts = options();
+    opts.ascii = true;
+    let mut st = state_with(
+        &dir,
+        opts,
+        trialdesk::tui::keymap::Keymap::build(&[]).unwrap(),
+    );
+    for keys in ["f", "2", "Y", "n1"] {
+        press(&mut st, keys);
+        assert!(frame_text(80, 24, &st).is_ascii(), "after {keys:?}");
+        for w in (0..=90u16).step_by(7) {
+            for h in (0..=30u16).step_by(5) {
+                let _ = frame_text(w, h, &st);
+            }
+        }
+    }
+}

@@ -71,7 +71,11 @@ fn suggestions_are_computed_when_the_session_opens_and_drawn() {
     // Plain ASCII has its own glyph, distinct from the mark glyphs X and ?.
     let mut opts = options();
     opts.ascii = true;
-    let mut st = state_with(&dir, opts, trialdesk::tui::keymap::Keymap::build(&[]).unwrap());
+    let mut st = state_with(
+        &dir,
+        opts,
+        trialdesk::tui::keymap::Keymap::build(&[]).unwrap(),
+    );
     press(&mut st, "f");
     let frame = frame_text(80, 24, &st);
     assert!(frame.contains(&format!("! {}:", first.rule)), "{frame}");
@@ -221,7 +225,11 @@ fn unwritable_journal_keeps_the_accept_in_memory_and_says_so() {
     let mut st = state(&dir);
     press(&mut st, "fy");
     assert_eq!(st.status.tone, Tone::Error);
-    assert!(st.status.text.starts_with("NOT SAVED"), "{}", st.status.text);
+    assert!(
+        st.status.text.starts_with("NOT SAVED"),
+        "{}",
+        st.status.text
+    );
     assert_eq!(st.marks[0].unsaved.len(), 1);
     assert_eq!(st.mark_of(s.trial).unwrap().reason, s.rule);
     assert!(st.suggestions_of(s.trial).is_empty());

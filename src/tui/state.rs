@@ -63,7 +63,10 @@ pub enum Overlay {
         cursor: usize,
     },
     /// Asking (y/n) before accepting every pending suggestion of one rule in the session.
-    ConfirmAcceptAll { rule: &'static str, count: usize },
+    ConfirmAcceptAll {
+        rule: &'static str,
+        count: usize,
+    },
 }
 
 /// Which recorded activity the traces and heat rows show.

@@ -143,7 +143,7 @@ pub fn next(state: &mut State) {
     let n = trials.len();
     let found = (1..=n).map(|k| (state.trial + k) % n).find_map(|i| {
         let s = state.suggestions_of(trials[i].number).first()?;
-        Some((i, format!("trial {}: suggested {}: {}", s.trial, s.rule, s.reason)))
+        Some((i, format!("trial {}: suggested {}", s.trial, s.rule)))
     });
     match found {
         Some((i, text)) => {

@@ -6,8 +6,8 @@
 
 use super::action::Action;
 use super::derived::{self, SessionSuggestions, SessionView};
-use super::suggestions;
 use super::state::{NoteTarget, Overlay, Screen, SignalKind, State, Status, Tone, UndoEntry};
+use super::suggestions;
 use crate::marks::{self, MarkKind, MarkRow};
 
 /// Trials skipped by `jump_forward` / `jump_back`.

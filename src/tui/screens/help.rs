@@ -33,7 +33,11 @@ pub fn lines(state: &State) -> Vec<String> {
         "{:<12} {excluded} excl. ? suspect + note",
         "margin"
     ));
-    out.push(format!("{:<12} {} suggested mark", "", theme.suggest_glyph()));
+    out.push(format!(
+        "{:<12} {} suggested mark",
+        "",
+        theme.suggest_glyph()
+    ));
     out
 }
 

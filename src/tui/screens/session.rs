@@ -101,5 +101,14 @@ fn render_current(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme, dy
             Role::Suggest,
         ),
     };
+    let room = area.width.saturating_sub(1) as usize;
+    let text = if text.chars().count() > room {
+        text.chars()
+            .take(room.saturating_sub(1))
+            .collect::<String>()
+            + theme.ellipsis()
+    } else {
+        text
+    };
     put(buf, area, 1, dy, &text, theme.style(role));
 }

@@ -196,15 +196,31 @@ fn render_suggestion(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme,
         1 => String::new(),
         n => format!(" (+{} more)", n - 1),
     };
-    let text = format!(
-        "{} {}: {}{more}  [{} accept {} reject {} all]",
+    let mut text = format!(
+        "{} {}: {}{more}",
         theme.suggest_glyph(),
         first.rule,
         theme.clean(&first.reason),
+    );
+    let hint = format!(
+        "  [{} accept {} reject {} all]",
         key(Action::AcceptSuggestion),
         key(Action::RejectSuggestion),
         key(Action::AcceptRuleSuggestions),
     );
+    // The reason matters more than the key hint (help lists the keys): the hint only if both
+    // fit, and a cut reason ends in an ellipsis.
+    let room = area.width.saturating_sub(1) as usize;
+    let len = text.chars().count();
+    if len + hint.chars().count() <= room {
+        text.push_str(&hint);
+    } else if len > room {
+        text = text
+            .chars()
+            .take(room.saturating_sub(1))
+            .collect::<String>()
+            + theme.ellipsis();
+    }
     put(buf, area, 1, 0, &text, theme.style(Role::Suggest));
 }
 

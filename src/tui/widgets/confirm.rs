@@ -16,7 +16,7 @@ pub fn render(
     count: usize,
 ) {
     let w = 52.min(screen.width);
-    let h = 6.min(screen.height);
+    let h = 7.min(screen.height);
     let area = Rect::new(
         screen.x + (screen.width - w) / 2,
         screen.y + (screen.height - h) / 2,
@@ -32,13 +32,14 @@ pub fn render(
     let kind = state.rules.accept_as.as_str();
     let session = theme.clean(&state.current_session().name);
     let lines = [
-        format!(" {count} pending {rule} suggestion(s) in {session}"),
+        format!(" {count} pending {rule} suggestion(s)"),
+        format!(" in session {session}:"),
         format!(" mark them all {kind}, reason {rule}?"),
         String::new(),
         " y accepts all, n or esc keeps them pending".to_string(),
     ];
     for (i, l) in lines.iter().enumerate() {
-        let role = if i == 3 { Role::Dim } else { Role::Plain };
+        let role = if i == 4 { Role::Dim } else { Role::Plain };
         put(buf, inner, 0, i as u16, l, theme.style(role));
     }
 }

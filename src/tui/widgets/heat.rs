@@ -106,7 +106,14 @@ pub fn render(
                 }
                 if !state.suggestions_of(trial.number).is_empty() {
                     let col = gutter.saturating_sub(1);
-                    put(buf, area, col, dy, theme.suggest_glyph(), theme.style(Role::Suggest));
+                    put(
+                        buf,
+                        area,
+                        col,
+                        dy,
+                        theme.suggest_glyph(),
+                        theme.style(Role::Suggest),
+                    );
                 }
                 let trace = &state.view.traces[t];
                 let cols = axis.resample_mean(trace, state.view.from_s, state.view.bin_s);
