@@ -3,6 +3,10 @@
 //! (alternate screen left, shell prompt shown, line discipline restored). Also ends the
 //! reviewer with SIGTERM and SIGHUP and checks the terminal again.
 //!
+//! A second run on a subject simulated with faults (by the binary's own `simulate`) accepts,
+//! rejects and accepts-all suggested marks, and checks the rows on disk and that `check` no
+//! longer counts them as pending.
+//!
 //! Needs tmux. Without it the test prints a notice and passes, unless CI is set (then it fails:
 //! .ci/run installs tmux).
 
@@ -40,6 +44,16 @@ fn copy_dir(from: &Path, to: &Path) {
 
 impl Pane {
     fn start(name: &str) -> Option<Pane> {
+        Pane::start_with(name, |subject| {
+            copy_dir(
+                &Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/tui/m-007"),
+                subject,
+            )
+        })
+    }
+
+    /// A pane with a subject folder made by `make` (given the folder's path).
+    fn start_with(name: &str, make: impl FnOnce(&Path)) -> Option<Pane> {
         if !tmux_present() {
             if std::env::var_os("CI").is_some() {
                 panic!(
@@ -51,10 +65,7 @@ impl Pane {
         }
         let tmp = tempfile::tempdir().unwrap();
         let subject = tmp.path().join("m-007");
-        copy_dir(
-            &Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/tui/m-007"),
-            &subject,
-        );
+        make(&subject);
         let config = tmp.path().join("config");
         std::fs::create_dir_all(config.join("trialdesk")).unwrap();
         std::fs::write(
@@ -277,4 +288,146 @@ fn sigterm_and_sighup_restore_the_terminal() {
     }
     let csv = std::fs::read_to_string(pane.subject.join("2026-03-02/marks.csv")).unwrap();
     assert_eq!(csv.lines().count(), 3, "{csv}");
+}
+
+/// `trialdesk check`'s pending-suggestion count for the subject's one session.
+fn pending_count(subject: &Path) -> usize {
+    let out = Command::new(env!("CARGO_BIN_EXE_trialdesk"))
+        .arg("check")
+        .arg(subject)
+        .output()
+        .unwrap();
+    let text =
+        String::from_utf8_lossy(&out.stdout).into_owned() + &String::from_utf8_lossy(&out.stderr);
+    text.lines()
+        .find_map(|l| {
+            let l = l.trim();
+            l.strip_suffix(" suggestions")
+                .or_else(|| l.strip_suffix(" suggestion"))?
+                .rsplit(' ')
+                .next()?
+                .parse()
+                .ok()
+        })
+        .unwrap_or_else(|| {
+            if text.contains(": none") {
+                0
+            } else {
+                panic!("{text}")
+            }
+        })
+}
+
+/// The trial and rule named by the status line after `next_suggestion`.
+fn suggested_on_screen(screen: &str) -> (i64, String) {
+    let line = screen
+        .lines()
+        .find(|l| l.contains(": suggested "))
+        .unwrap_or_else(|| panic!("no suggestion on screen:\n{screen}"));
+    let (head, rule) = line.split_once(": suggested ").unwrap();
+    let trial = head.trim().trim_start_matches("trial ").parse().unwrap();
+    (trial, rule.split_whitespace().next().unwrap().to_string())
+}
+
+#[test]
+fn accept_reject_and_accept_all_suggestions() {
+    let Some(pane) = Pane::start_with("suggest", |subject| {
+        let ok = Command::new(env!("CARGO_BIN_EXE_trialdesk"))
+            .args([
+                "simulate",
+                "--seed",
+                "7",
+                "--days",
+                "1",
+                "--trials-per-day",
+                "30",
+            ])
+            .args(["--units", "2", "--fault", "valve-failure:0.2"])
+            .args(["--fault", "baseline-licks:0.1"])
+            .arg(subject)
+            .output()
+            .unwrap();
+        assert!(ok.status.success(), "{ok:?}");
+    }) else {
+        return;
+    };
+    let before = pending_count(&pane.subject);
+    assert!(
+        before >= 4,
+        "the faulty fixture should have suggestions: {before}"
+    );
+    pane.launch_reviewer();
+
+    pane.send(&["f"]);
+    let (accepted, rule_a) =
+        suggested_on_screen(&pane.wait_for("a suggestion", |s| s.contains(": suggested ")));
+    pane.send(&["y"]);
+    pane.wait_for("saved accept", |s| {
+        s.contains(&format!("saved: trial {accepted} excluded ({rule_a})"))
+    });
+
+    pane.send(&["f"]);
+    let (rejected, rule_r) = suggested_on_screen(&pane.wait_for("the next suggestion", |s| {
+        s.contains(": suggested ") && !s.contains(&format!("trial {accepted}: suggested"))
+    }));
+    pane.send(&["r"]);
+    pane.wait_for("saved reject", |s| s.contains("suggestion rejected"));
+
+    pane.send(&["f"]);
+    let (_, rule_all) =
+        suggested_on_screen(&pane.wait_for("a third suggestion", |s| s.contains(": suggested ")));
+    pane.send(&["Y"]);
+    pane.wait_for("the accept-all question", |s| s.contains("accept all?"));
+    pane.send(&["y"]);
+    let s = pane.wait_for("saved accept-all", |s| s.contains("trial(s) excluded ("));
+    let n_all: usize = s
+        .lines()
+        .find_map(|l| l.split("saved: ").nth(1)?.split(' ').next()?.parse().ok())
+        .unwrap();
+    pane.send(&["q"]);
+    pane.assert_terminal_back("0");
+
+    let journal = trialdesk::marks::read_journal(&pane.subject.join("2026-03-02")).unwrap();
+    let rows: Vec<_> = journal
+        .rows
+        .iter()
+        .map(|r| {
+            (
+                r.trial.unwrap(),
+                r.mark.as_str(),
+                r.reason.as_str(),
+                r.reviewer.as_str(),
+            )
+        })
+        .collect();
+    assert_eq!(rows.len(), 2 + n_all, "{rows:?}");
+    assert_eq!(
+        rows[0],
+        (accepted, "exclude", rule_a.as_str(), "e2e-reviewer")
+    );
+    let reject_reason = format!("reject:{rule_r}");
+    assert_eq!(
+        rows[1],
+        (rejected, "note", reject_reason.as_str(), "e2e-reviewer")
+    );
+    for r in &rows[2..] {
+        assert_eq!(
+            (r.1, r.2, r.3),
+            ("exclude", rule_all.as_str(), "e2e-reviewer")
+        );
+    }
+    // Accepted, rejected and accepted-all ones are no longer pending; an excluded trial
+    // settles every rule's suggestion on it, so `check` counts at least that many fewer.
+    let loaded = trialdesk::data::load(&pane.subject).unwrap();
+    let pending = trialdesk::suggest::pending_for_session(
+        &loaded.subject.sessions[0],
+        &trialdesk::suggest::RuleSet::default(),
+    )
+    .unwrap();
+    assert!(pending.iter().all(|p| p.trial != accepted
+        && !(p.trial == rejected && p.rule == rule_r)
+        && p.rule != rule_all));
+    let after = pending_count(&pane.subject);
+    assert_eq!(after, pending.len());
+    assert!(after <= before - 2 - n_all, "{before} -> {after}");
 }
