@@ -234,3 +234,19 @@ fn unwritable_journal_keeps_the_accept_in_memory_and_says_so() {
     assert_eq!(st.mark_of(s.trial).unwrap().reason, s.rule);
     assert!(st.suggestions_of(s.trial).is_empty());
 }
+
+#[test]
+fn one_handed_layout_has_the_suggestion_keys() {
+    let (_tmp, dir) = faulty_subject();
+    let all = expected_suggestions(&dir);
+    let keymap = trialdesk::tui::keymap::Keymap::shipped("one_handed").unwrap();
+    let mut st = state_with(&dir, options(), keymap);
+    press(&mut st, "Sv");
+    assert_eq!(st.mark_of(all[0].trial).unwrap().reason, all[0].rule);
+    press(&mut st, "SX");
+    assert_eq!(journal(&dir).len(), 2);
+    assert_eq!(
+        journal(&dir)[1].2,
+        format!("{REJECT_PREFIX}{}", all[1].rule)
+    );
+}
