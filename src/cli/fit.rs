@@ -66,6 +66,14 @@ pub struct Args {
     /// [default: 0.05 for spikes; 0 for photometry]
     #[arg(long)]
     pub latency: Option<f64>,
+    /// Photometry: decay time constant of the sensor kernel, seconds; δ of every bin is weighted
+    /// by the kernel's mean over each window instead of summing the window's bins (0: plain
+    /// sum) [default: 0.6 for photometry, as simulate's sensor; set it to your sensor's]
+    #[arg(long, value_name = "S")]
+    pub sensor_decay: Option<f64>,
+    /// Photometry: rise time constant of the sensor kernel, seconds [default: 0.1]
+    #[arg(long, value_name = "S")]
+    pub sensor_rise: Option<f64>,
     /// Bootstrap replicates for the confidence intervals (0: none)
     #[arg(long, default_value_t = 50)]
     pub bootstrap: usize,
@@ -201,6 +209,37 @@ fn obs_options(args: &Args, subject: &data::Subject) -> Result<ObsOptions, CliEr
         o.latency = l;
     }
     Ok(o)
+}
+
+/// Default sensor kernel for photometry fits: simulate's sensor (rise 0.1 s, decay 0.6 s).
+pub const DEFAULT_SENSOR: (f64, f64) = (0.1, 0.6);
+
+/// The sensor kernel of a photometry fit (`None`: plain window sums).
+fn sensor_kernel(args: &Args, obs: &ObsOptions) -> Result<Option<dataset::SensorKernel>, CliError> {
+    if obs.signal != Signal::Photometry {
+        if args.sensor_decay.is_some() || args.sensor_rise.is_some() {
+            return Err(CliError::usage(
+                "--sensor-decay and --sensor-rise apply to --signal photometry",
+            ));
+        }
+        return Ok(None);
+    }
+    let decay = args.sensor_decay.unwrap_or(DEFAULT_SENSOR.1);
+    if decay == 0.0 {
+        return Ok(None);
+    }
+    let k = dataset::SensorKernel {
+        rise_s: args.sensor_rise.unwrap_or(DEFAULT_SENSOR.0),
+        decay_s: decay,
+        latency_s: obs.latency,
+    };
+    if !k.is_valid() {
+        return Err(CliError::usage(format!(
+            "--sensor-rise {} / --sensor-decay {}: expected 0 < rise < decay seconds (decay 0 turns the kernel off)",
+            k.rise_s, k.decay_s
+        )));
+    }
+    Ok(Some(k))
 }
 
 /// indicatif bar that stays hidden until the job has run for a second, and only on a terminal.
@@ -400,7 +439,8 @@ pub(crate) fn fit_subject(
     let observations =
         obs::observe(subject, &obs_opts).map_err(|e| CliError::failed(e.to_string()))?;
     let marks = read_marks(subject, args.ignore_marks)?;
-    let data = dataset::build(
+    let kernel = sensor_kernel(args, &obs_opts)?;
+    let mut data = dataset::build(
         subject,
         &observations,
         &obs_opts,
@@ -408,6 +448,9 @@ pub(crate) fn fit_subject(
         &marks,
         args.ignore_marks,
     );
+    if let Some(k) = kernel {
+        data = dataset::with_sensor_kernel(data, k, &obs_opts);
+    }
 
     if announce {
         eprintln!(
@@ -432,7 +475,16 @@ pub(crate) fn fit_subject(
             .first()
             .map(|s| s.meta.subject.clone())
             .unwrap_or_else(|| subject.root.display().to_string()),
-        observations: describe_obs(&obs_opts),
+        observations: match kernel {
+            Some(k) => format!(
+                "{}; δ weighted by a sensor kernel (rise {} s, decay {} s) averaged over each \
+                 window, so the gain is the peak response per unit δ",
+                describe_obs(&obs_opts),
+                k.rise_s,
+                k.decay_s
+            ),
+            None => describe_obs(&obs_opts),
+        },
         command: command_line(),
         sensitivity,
     };

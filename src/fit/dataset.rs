@@ -77,6 +77,9 @@ pub struct FitData {
     pub trial_numbers: Vec<i64>,
     pub points: Vec<ObsPoint>,
     pub exclusions: Exclusions,
+    /// Photometry: per point, δ weights under the sensor kernel ([`with_sensor_kernel`]); the
+    /// predictor is then Σ w_k·δ_k instead of the plain sum over the window's bins.
+    pub weighted: Option<Vec<WeightedWindow>>,
 }
 
 impl FitData {
@@ -214,5 +217,89 @@ pub fn build(
         dt,
         points,
         exclusions,
+        weighted: None,
     }
+}
+
+/// A sensor's impulse response h(u) = exp(−u/decay) − exp(−u/rise) for u ≥ 0 (scaled to peak
+/// 1), starting `latency_s` after the δ — the difference-of-exponentials shape that
+/// `simulate` convolves δ with (methods.md §6 sensor kinetics).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SensorKernel {
+    pub rise_s: f64,
+    pub decay_s: f64,
+    pub latency_s: f64,
+}
+
+impl SensorKernel {
+    /// ∫₀ᵘ h, unscaled (closed form).
+    fn integral(&self, u: f64) -> f64 {
+        if u <= 0.0 {
+            return 0.0;
+        }
+        let (r, d) = (self.rise_s, self.decay_s);
+        d * (1.0 - (-u / d).exp()) - r * (1.0 - (-u / r).exp())
+    }
+
+    fn peak(&self) -> f64 {
+        let (r, d) = (self.rise_s, self.decay_s);
+        let t = (d / r).ln() * r * d / (d - r);
+        (-t / d).exp() - (-t / r).exp()
+    }
+
+    /// Mean over the window [a, b] (seconds after the event) of the response, peak 1, to a
+    /// unit δ at `s` seconds after the event.
+    pub fn window_weight(&self, s: f64, (a, b): (f64, f64)) -> f64 {
+        let lag = s + self.latency_s;
+        (self.integral(b - lag) - self.integral(a - lag)) / ((b - a) * self.peak())
+    }
+
+    /// `rise < decay`, both positive and finite.
+    pub fn is_valid(&self) -> bool {
+        self.rise_s > 0.0
+            && self.decay_s.is_finite()
+            && self.rise_s < self.decay_s
+            && self.latency_s.is_finite()
+    }
+}
+
+/// δ weights of one point: bins `first_bin..first_bin + weights.len()` of its span.
+#[derive(Debug, Clone, PartialEq)]
+pub struct WeightedWindow {
+    pub first_bin: u32,
+    pub weights: Vec<f64>,
+}
+
+/// `data` with every point's predictor weighted by `kernel`: δ of bin k (at k·dt after the
+/// alignment time, as `simulate` places it) counts with the kernel's mean over the point's
+/// window, so δ just before an event that the sensor carries into the window is counted, and
+/// δ late in the window counts less. The event is taken at the start of its bin. The gain
+/// then means peak response per unit δ. Trial spans end 1 s after the reward, so responses
+/// carried over into the next trial's baseline are not modelled.
+pub fn with_sensor_kernel(mut data: FitData, kernel: SensorKernel, obs: &ObsOptions) -> FitData {
+    let weighted = data
+        .points
+        .iter()
+        .map(|p| {
+            let span = &data.spans[p.span];
+            let (cue, reward) = event_bins(span);
+            let (event, window) = match p.kind {
+                WindowKind::Cue => (cue, obs.cue_window),
+                WindowKind::Reward => (reward, obs.reward_window),
+            };
+            let event = event.unwrap_or(0) as f64;
+            let w: Vec<f64> = (0..span.n_bins)
+                .map(|k| kernel.window_weight((k as f64 - event) * data.dt, window))
+                .collect();
+            // Bins whose response has died out or not yet begun add nothing.
+            let first = w.iter().position(|&x| x > 1e-9).unwrap_or(w.len());
+            let end = w.iter().rposition(|&x| x > 1e-9).map_or(first, |i| i + 1);
+            WeightedWindow {
+                first_bin: first as u32,
+                weights: w[first..end].to_vec(),
+            }
+        })
+        .collect();
+    data.weighted = Some(weighted);
+    data
 }

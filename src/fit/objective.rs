@@ -259,6 +259,18 @@ impl<'a> Problem<'a> {
                     representation: repr,
                 };
                 let run = td::run_in(space, &data.spans, &params);
+                if let Some(weighted) = &data.weighted {
+                    return data
+                        .points
+                        .iter()
+                        .zip(weighted)
+                        .map(|(pt, w)| {
+                            let d = run.trial_delta(pt.span);
+                            let d = d.get(w.first_bin as usize..).unwrap_or(&[]);
+                            w.weights.iter().zip(d).map(|(a, b)| a * b).sum()
+                        })
+                        .collect();
+                }
                 data.points
                     .iter()
                     .map(|pt| {
