@@ -268,6 +268,13 @@ impl Bar {
     fn finish(&self) {
         self.bar.finish_and_clear();
     }
+    /// Draw from now on (a cohort run: the first subject may take minutes to tick).
+    fn show_now(&self) {
+        if self.terminal && !self.shown.swap(true, Ordering::Relaxed) {
+            self.bar.set_draw_target(ProgressDrawTarget::stderr());
+            self.bar.enable_steady_tick(Duration::from_millis(500));
+        }
+    }
 }
 
 impl Progress for Bar {

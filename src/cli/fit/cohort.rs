@@ -31,6 +31,7 @@ pub(super) fn run(args: &Args, opts: &FitOptions, which: Shard) -> CmdResult {
             super::command_line()
         );
     }
+    bar.show_now();
     let run = core::run_cohort(&args.path, which, &bar, |subject: &Path| {
         let name = subject
             .file_name()
