@@ -260,14 +260,13 @@ fn huge_config_files_are_refused_within_memory() {
         let dir = Path::new(&dir);
         let keymap = trialdesk::cli::review::keymap_for(Some(dir), None);
         let e = keymap
-            .err()
-            .expect("a 4 GB keymap must be refused")
+            .expect_err("a huge keymap must be refused")
             .to_string();
-        assert!(e.contains("keymap.toml"), "{e}");
-        let e = trialdesk::tui::config::load(dir).expect_err("4 GB config.toml");
-        assert!(e.contains("config.toml"), "{e}");
-        let e = trialdesk::suggest::config::RuleSet::load_from(dir).expect_err("4 GB suggest.toml");
-        assert!(e.contains("suggest.toml"), "{e}");
+        assert!(e.contains("keymap.toml") && e.contains("too large"), "{e}");
+        let e = trialdesk::tui::config::load(dir).expect_err("huge config.toml");
+        assert!(e.contains("config.toml") && e.contains("too large"), "{e}");
+        let e = trialdesk::suggest::config::RuleSet::load_from(dir).expect_err("huge suggest.toml");
+        assert!(e.contains("suggest.toml") && e.contains("too large"), "{e}");
         println!("child: all refused: {e}");
         return;
     }
