@@ -116,7 +116,22 @@ pub fn reviewer_name() -> String {
         .filter_map(|k| std::env::var(k).ok())
         .map(|v| v.trim().to_string())
         .find(|v| !v.is_empty())
+        .or_else(account_name)
         .unwrap_or_else(|| "unknown".to_string())
+}
+
+/// The login name of the process's user from /etc/passwd, for shells (tmux, cron, sudo -i)
+/// that set neither USER nor LOGNAME.
+fn account_name() -> Option<String> {
+    use std::os::unix::fs::MetadataExt;
+    let uid = std::fs::metadata("/proc/self").ok()?.uid();
+    let passwd = std::fs::read_to_string("/etc/passwd").ok()?;
+    passwd.lines().find_map(|line| {
+        let mut fields = line.split(':');
+        let name = fields.next()?;
+        let id: u32 = fields.nth(1)?.parse().ok()?;
+        (id == uid && !name.is_empty()).then(|| name.to_string())
+    })
 }
 
 /// What has to be written before the new row so that it starts a record of its own.
@@ -319,5 +334,18 @@ fn sync_dir(dir: &Path) -> Result<(), MarksError> {
             Ok(())
         }
         Err(e) => Err(MarksError::io(dir, e)),
+    }
+}
+
+#[cfg(test)]
+mod account_tests {
+    #[test]
+    fn account_name_matches_the_process_owner() {
+        // Any Linux test host has /etc/passwd with an entry for the running user.
+        let name = super::account_name().expect("an /etc/passwd entry for this uid");
+        let home_owner = std::process::Command::new("id").arg("-un").output();
+        if let Ok(out) = home_owner {
+            assert_eq!(name, String::from_utf8_lossy(&out.stdout).trim());
+        }
     }
 }
