@@ -372,6 +372,7 @@ fn sensitivity_line(
     data: &fit::FitData,
     outcome: &fit::FitOutcome,
     opts: &FitOptions,
+    progress: &dyn Progress,
 ) -> String {
     let rules = match RuleSet::load_user() {
         Ok((rules, _)) => rules,
@@ -392,7 +393,7 @@ fn sensitivity_line(
         })
         .collect();
     let trials = sensitivity::SuggestedTrials::new(data, &per_session);
-    let result = sensitivity::sensitivity(data, outcome, opts, &trials);
+    let result = sensitivity::sensitivity(data, outcome, opts, &trials, progress);
     sensitivity::line(&result, &trials, outcome, opts.fit_lambda)
 }
 
@@ -474,7 +475,7 @@ pub(crate) fn fit_subject(
     let sensitivity = if args.no_sensitivity {
         None
     } else {
-        Some(sensitivity_line(subject, &data, &outcome, opts))
+        Some(sensitivity_line(subject, &data, &outcome, opts, progress))
     };
     let ctx = report::ReportContext {
         subject: subject

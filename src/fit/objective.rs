@@ -329,6 +329,56 @@ mod tests {
         assert_eq!(logit(1.0), Z_BOUND);
     }
 
+    /// Weights of one on exactly the window's bins reproduce the plain window sum, and a
+    /// weight on a bin outside the window brings that bin's δ in.
+    #[test]
+    fn weighted_predictor_generalises_the_window_sum() {
+        use crate::fit::dataset::WeightedWindow;
+        use crate::fit::synthetic::{fit_data, SyntheticSpec};
+        let (_, data) = fit_data(&SyntheticSpec {
+            sessions: 2,
+            trials_per_session: 30,
+            ..Default::default()
+        });
+        let p = LearnParams {
+            alpha: 0.1,
+            gamma: 0.98,
+            lambda: 0.0,
+        };
+        let model = ModelSpec::Td(Representation::Csc);
+        let plain = Problem::new(&data, model, false, 0.0).predictors(&p);
+        let mut ones = data.clone();
+        ones.weighted = Some(
+            data.points
+                .iter()
+                .map(|pt| WeightedWindow {
+                    first_bin: pt.first_bin,
+                    weights: vec![1.0; (pt.end_bin - pt.first_bin) as usize],
+                })
+                .collect(),
+        );
+        let same = Problem::new(&ones, model, false, 0.0).predictors(&p);
+        for (a, b) in plain.iter().zip(&same) {
+            assert!((a - b).abs() <= 1e-12 * a.abs().max(1.0), "{a} vs {b}");
+        }
+        // One bin earlier: the reward window of a rewarded trial now includes the bin before.
+        let mut wider = ones.clone();
+        for (w, pt) in wider
+            .weighted
+            .as_mut()
+            .unwrap()
+            .iter_mut()
+            .zip(&data.points)
+        {
+            if pt.first_bin > 0 {
+                w.first_bin -= 1;
+                w.weights.push(1.0);
+            }
+        }
+        let moved = Problem::new(&wider, model, false, 0.0).predictors(&p);
+        assert!(plain.iter().zip(&moved).any(|(a, b)| (a - b).abs() > 1e-9));
+    }
+
     /// lnL of n residuals at σ̂² = RSS/n (closed form): n = 2, RSS = 2 gives −(ln 2π + 1).
     #[test]
     fn gaussian_loglik_closed_form() {

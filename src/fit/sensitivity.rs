@@ -9,7 +9,7 @@
 
 use super::optimise::{self, FitResult};
 use super::report::num;
-use super::{validate, FitData, FitError, FitOptions, FitOutcome, NoProgress, Problem};
+use super::{validate, FitData, FitError, FitOptions, FitOutcome, Problem, Progress};
 use crate::suggest::{counts_by_rule, Suggestion};
 use std::collections::BTreeSet;
 
@@ -87,6 +87,7 @@ pub fn sensitivity(
     outcome: &FitOutcome,
     opts: &FitOptions,
     trials: &SuggestedTrials,
+    progress: &dyn Progress,
 ) -> Sensitivity {
     if trials.is_empty() {
         return Sensitivity::NoSuggestions;
@@ -101,7 +102,8 @@ pub fn sensitivity(
         Err(error) => return Sensitivity::Failed { n_trials, error },
     };
     let problem = Problem::new(&reduced, outcome.model, opts.fit_lambda, opts.lambda);
-    let fresh = optimise::fit_multistart(&problem, &included, &opts.search, &NoProgress);
+    progress.phase("sensitivity refit", opts.search.budget(&problem) as u64);
+    let fresh = optimise::fit_multistart(&problem, &included, &opts.search, progress);
     let warm = optimise::refine(
         &problem,
         &included,
