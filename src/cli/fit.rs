@@ -12,13 +12,13 @@ use crate::marks::{self, MarkState};
 use crate::model::{self, Representation};
 use crate::obs::{self, ObsOptions, Signal};
 use crate::suggest::{pending_for_session, RuleSet, Suggestion};
-use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
-use std::io::{IsTerminal, Write};
+use std::io::Write;
 use std::path::{Path, PathBuf};
-use std::sync::atomic::{AtomicBool, Ordering};
-use std::time::{Duration, Instant};
 
+mod bar;
 mod cohort;
+
+use bar::Bar;
 
 #[derive(clap::Args, Debug)]
 #[command(
@@ -240,62 +240,6 @@ fn sensor_kernel(args: &Args, obs: &ObsOptions) -> Result<Option<dataset::Sensor
         )));
     }
     Ok(Some(k))
-}
-
-/// indicatif bar that stays hidden until the job has run for a second, and only on a terminal.
-struct Bar {
-    bar: ProgressBar,
-    start: Instant,
-    terminal: bool,
-    shown: AtomicBool,
-}
-
-impl Bar {
-    fn new() -> Self {
-        let bar = ProgressBar::with_draw_target(None, ProgressDrawTarget::hidden());
-        if let Ok(style) =
-            ProgressStyle::with_template("{msg:>18} [{bar:30}] {pos}/{len} {elapsed}")
-        {
-            bar.set_style(style.progress_chars("=> "));
-        }
-        Bar {
-            bar,
-            start: Instant::now(),
-            terminal: std::io::stderr().is_terminal(),
-            shown: AtomicBool::new(false),
-        }
-    }
-    fn finish(&self) {
-        self.bar.finish_and_clear();
-    }
-    /// Draw from now on (a cohort run: the first subject may take minutes to tick).
-    fn show_now(&self) {
-        if self.terminal && !self.shown.swap(true, Ordering::Relaxed) {
-            self.bar.set_draw_target(ProgressDrawTarget::stderr());
-            self.bar.enable_steady_tick(Duration::from_millis(500));
-        }
-    }
-}
-
-impl Progress for Bar {
-    fn phase(&self, name: &str, total: u64) {
-        self.bar.set_message(name.to_string());
-        if total > 0 {
-            self.bar.set_length(total);
-        } else {
-            self.bar.unset_length();
-        }
-        self.bar.set_position(0);
-    }
-    fn tick(&self) {
-        self.bar.inc(1);
-        if self.terminal
-            && self.start.elapsed() > Duration::from_secs(1)
-            && !self.shown.swap(true, Ordering::Relaxed)
-        {
-            self.bar.set_draw_target(ProgressDrawTarget::stderr());
-        }
-    }
 }
 
 /// Standing marks of every session; unreadable journals stop the fit unless marks are ignored.
