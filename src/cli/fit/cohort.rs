@@ -22,6 +22,12 @@ pub(super) fn is_cohort(path: &Path) -> bool {
 }
 
 pub(super) fn run(args: &Args, opts: &FitOptions, which: Shard) -> CmdResult {
+    if which.n > 1 && args.out.is_none() {
+        eprintln!(
+            "warning: --shard {which} without --out: the tables are not written, so there is \
+             nothing for `trialdesk merge` to join"
+        );
+    }
     let bar = Bar::new();
     if bar.terminal {
         eprintln!(
