@@ -311,7 +311,7 @@ fn optional_file<T>(
 
 /// Turn cue names into indices into `meta.cues` (the reader has already reported, and left
 /// out, rows naming an undeclared cue).
-fn match_cues(meta: &SessionMeta, raw: &[RawTrial]) -> Vec<Trial> {
+pub(crate) fn match_cues(meta: &SessionMeta, raw: &[RawTrial]) -> Vec<Trial> {
     raw.iter()
         .filter_map(|r| {
             let cue = match &r.cue {

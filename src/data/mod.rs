@@ -7,6 +7,7 @@
 mod consistency;
 pub mod csvio;
 pub mod diag;
+pub mod follow;
 pub mod load;
 pub mod meta;
 pub mod number;
