@@ -4,6 +4,7 @@
 use super::{CliError, CmdResult};
 use crate::data;
 use crate::tui::derived::ModelSettings;
+use crate::tui::follow::Follower;
 use crate::tui::keymap::{Keymap, SHIPPED};
 use crate::tui::state::{Options, Tone, DEFAULT_REASONS};
 use crate::tui::{app, config, terminal};
@@ -28,6 +29,9 @@ pub struct Args {
     /// Name for the reviewer column (default: config.toml's reviewer, else the login name)
     #[arg(long, value_name = "NAME")]
     pub reviewer: Option<String>,
+    /// Show rows the rig appends to the last session while it records (polled every second)
+    #[arg(long)]
+    pub follow: bool,
 }
 
 fn read_layer(path: &Path) -> Result<(String, String), CliError> {
@@ -102,7 +106,19 @@ pub fn run(args: Args) -> CmdResult {
             Some(format!("{e}; using the shipped suggestion rules")),
         ),
     };
+    let follow_settings = args.follow.then(|| settings.clone());
     let mut state = app::build_state_with_rules(loaded.subject, opts, keymap, &settings, rules);
+    // The newest session in training order is the one being recorded.
+    let follower = match follow_settings {
+        Some(settings) => {
+            let last = state.subject.sessions.len() - 1;
+            crate::tui::update::open_session(&mut state, last);
+            let f = Follower::start(last, &state.subject.sessions[last], settings)
+                .map_err(|e| CliError::failed(format!("--follow: {e}")))?;
+            Some(f)
+        }
+        None => None,
+    };
     if let Some(p) = rules_problem {
         state.status.text = p;
         state.status.tone = Tone::Warn;
@@ -117,9 +133,14 @@ pub fn run(args: Args) -> CmdResult {
         );
         state.status.tone = Tone::Warn;
     }
+    if let Some(f) = &follower {
+        // Shown last: while recording, the caution matters more than older warnings.
+        state.status.text = f.status_text();
+        state.status.tone = Tone::Warn;
+    }
     let stop = terminal::watch_signals()?;
     let (mut term, guard) = terminal::enter()?;
-    let result = app::run_loop(&mut term, &mut state, &stop);
+    let result = app::run_loop_following(&mut term, &mut state, &stop, follower);
     drop(term);
     drop(guard);
     result.map_err(CliError::failed)?;

@@ -1,9 +1,11 @@
-//! The event loop: keys → actions → `update`, redraw, and a journal refresh every second.
+//! The event loop: keys → actions → `update`, redraw, and a journal refresh (and, with
+//! `--follow`, a poll of the recording session) every second.
 //! It routes and nothing more; what an action means lives in `update`, how things look in
 //! `screens`.
 
 use super::action::Action;
 use super::derived::{self, ModelSettings, ModelView, SessionView};
+use super::follow::Follower;
 use super::keymap::{confirm_action, editor_action, picker_action};
 use super::state::{Options, Overlay, Screen, SessionMarks, SignalKind, State, Status, Tone};
 use super::{screens, update};
@@ -137,6 +139,19 @@ pub fn run_loop<B: Backend>(
 where
     B::Error: std::fmt::Display,
 {
+    run_loop_following(terminal, state, stop, None)
+}
+
+/// [`run_loop`], also polling a session being recorded on every refresh (`--follow`).
+pub fn run_loop_following<B: Backend>(
+    terminal: &mut Terminal<B>,
+    state: &mut State,
+    stop: &AtomicBool,
+    mut follower: Option<Follower>,
+) -> Result<(), String>
+where
+    B::Error: std::fmt::Display,
+{
     let err = |e: &dyn std::fmt::Display| format!("terminal: {e}");
     draw(terminal, state).map_err(|e| err(&e))?;
     let mut last_refresh = Instant::now();
@@ -162,6 +177,9 @@ where
         }
         if last_refresh.elapsed() >= REFRESH_EVERY {
             update::update(state, Action::RefreshMarks);
+            if let Some(f) = follower.as_mut() {
+                f.poll_into(state);
+            }
             last_refresh = Instant::now();
             dirty = true;
         }

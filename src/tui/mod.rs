@@ -11,6 +11,7 @@ pub mod action;
 pub mod app;
 pub mod config;
 pub mod derived;
+pub mod follow;
 pub mod keymap;
 pub mod screens;
 pub mod state;

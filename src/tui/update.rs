@@ -527,3 +527,60 @@ fn refresh(state: &mut State) {
         );
     }
 }
+
+/// Rows the rig appended to a session being followed (`--follow`): the one message that is
+/// not a key. Appends them, then rebuilds what depends on that session: its traces and
+/// suggestions always; the model pass, observations and days table only when trials arrived.
+pub fn append_recorded(
+    state: &mut State,
+    session: usize,
+    rows: crate::data::follow::NewRows,
+    settings: &derived::ModelSettings,
+) {
+    let s = &mut state.subject.sessions[session];
+    let new_trials = rows.trials.len();
+    s.trials.extend(rows.trials);
+    if !rows.spikes.is_empty() {
+        let spikes = s.spikes.get_or_insert_with(Default::default);
+        for (unit, t) in rows.spikes {
+            let u = match spikes.units.iter().position(|n| *n == unit) {
+                Some(u) => u,
+                // At the end: the chosen unit's index stays valid.
+                None => {
+                    spikes.units.push(unit);
+                    spikes.times.push(Vec::new());
+                    spikes.units.len() - 1
+                }
+            };
+            insert_sorted(&mut spikes.times[u], t);
+        }
+    }
+    if !rows.licks.is_empty() {
+        let licks = s.licks.get_or_insert_with(Vec::new);
+        for t in rows.licks {
+            insert_sorted(licks, t);
+        }
+    }
+    if new_trials > 0 {
+        let opts = state.model.obs_opts.clone();
+        state.model = derived::ModelView::build(&state.subject, settings, &opts);
+        state.obs = derived::observe_spans(&state.subject, &state.model, &opts);
+        state.photometry_views[session] = None;
+        rebuild_days(state);
+    }
+    state.suggested[session] = None;
+    if session == state.session {
+        rebuild_view(state);
+        ensure_suggestions(state, session);
+    }
+}
+
+/// Rows arrive nearly in order: a push, or an insert near the end.
+fn insert_sorted(v: &mut Vec<f64>, t: f64) {
+    if v.last().is_none_or(|&l| l <= t) {
+        v.push(t);
+    } else {
+        let at = v.partition_point(|&x| x <= t);
+        v.insert(at, t);
+    }
+}

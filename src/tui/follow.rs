@@ -1,0 +1,98 @@
+//! `review --follow`: watch one session's table files while the rig records, and hand what
+//! arrives to [`update::append_recorded`] — the loop polls, `update` changes the state.
+
+use super::derived::ModelSettings;
+use super::state::{State, Status, Tone};
+use super::update;
+use crate::data::follow::{Polled, TableKind, Tail};
+use crate::data::Session;
+
+/// Said wherever following is shown: a fit is heavy and the rig's machine is recording.
+pub const FIT_CAUTION: &str = "do not run fits on this rig while it records";
+
+/// The tails of the session being followed, and what has arrived so far.
+#[derive(Debug)]
+pub struct Follower {
+    /// Index of the followed session in `State::subject.sessions`.
+    pub session: usize,
+    tails: Vec<Tail>,
+    settings: ModelSettings,
+    /// Trials appended since following began.
+    pub new_trials: usize,
+    /// Set once a file shrank or was replaced: following stops, the reviewer must reopen.
+    pub stopped: Option<String>,
+}
+
+impl Follower {
+    /// Follow `session` (index `index`) from the current end of its trials, spikes and licks
+    /// files. A file missing now is not picked up later (the rig writes all three from the
+    /// start); a header that cannot be read is an error.
+    pub fn start(index: usize, session: &Session, settings: ModelSettings) -> Result<Self, String> {
+        let mut tails = Vec::new();
+        for kind in [TableKind::Trials, TableKind::Spikes, TableKind::Licks] {
+            match Tail::at_end(&session.dir, kind, &session.meta) {
+                Ok(Some(t)) => tails.push(t),
+                Ok(None) => {}
+                Err(d) => return Err(d.to_string()),
+            }
+        }
+        Ok(Follower {
+            session: index,
+            tails,
+            settings,
+            new_trials: 0,
+            stopped: None,
+        })
+    }
+
+    /// Poll every tail once and apply what arrived. Returns whether anything changed.
+    pub fn poll_into(&mut self, state: &mut State) -> bool {
+        if self.stopped.is_some() {
+            return false;
+        }
+        let mut arrived = crate::data::follow::NewRows::default();
+        for tail in &mut self.tails {
+            match tail.poll() {
+                Polled::Unchanged => {}
+                Polled::Rows(r) => {
+                    arrived.trials.extend(r.trials);
+                    arrived.spikes.extend(r.spikes);
+                    arrived.licks.extend(r.licks);
+                    arrived.diagnostics.extend(r.diagnostics);
+                }
+                Polled::Reload(why) => {
+                    let text = format!("following stopped: {why}; reopen the session to reload");
+                    state.status = Status {
+                        text: text.clone(),
+                        tone: Tone::Error,
+                    };
+                    self.stopped = Some(text);
+                    return true;
+                }
+            }
+        }
+        if arrived.is_empty() {
+            return false;
+        }
+        self.new_trials += arrived.trials.len();
+        let problems = arrived.diagnostics.len();
+        let first_problem = arrived.diagnostics.first().map(|d| d.to_string());
+        update::append_recorded(state, self.session, arrived, &self.settings);
+        state.status = match first_problem {
+            Some(p) => Status {
+                text: format!("following: {problems} bad row(s) left out, first: {p}"),
+                tone: Tone::Warn,
+            },
+            None => Status {
+                text: self.status_text(),
+                tone: Tone::Info,
+            },
+        };
+        true
+    }
+
+    /// "following: N new trials — caution".
+    pub fn status_text(&self) -> String {
+        format!("following: {} new trials — {FIT_CAUTION}", self.new_trials)
+    }
+}

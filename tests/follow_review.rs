@@ -1,0 +1,92 @@
+//! `review --follow` through the reviewer's own API: rows the rig appends reach the trial
+//! list, the traces and the model, once, and a replaced file stops following.
+
+mod tui_support;
+
+use std::fs::OpenOptions;
+use std::io::Write;
+use std::path::Path;
+use trialdesk::tui::derived::ModelSettings;
+use trialdesk::tui::follow::{Follower, FIT_CAUTION};
+use trialdesk::tui::{update, Action};
+
+fn append(path: &Path, text: &str) {
+    let mut f = OpenOptions::new().append(true).open(path).unwrap();
+    f.write_all(text.as_bytes()).unwrap();
+}
+
+#[test]
+fn appended_trials_show_up_in_the_trial_list() {
+    let (_tmp, dir) = tui_support::fixture_copy();
+    let mut st = tui_support::state(&dir);
+    let last = st.subject.sessions.len() - 1;
+    update::open_session(&mut st, last);
+    let session_dir = st.subject.sessions[last].dir.clone();
+    let before = st.subject.sessions[last].trials.len();
+    let licks_before = st.subject.sessions[last].licks.as_ref().map_or(0, Vec::len);
+    let mut f =
+        Follower::start(last, &st.subject.sessions[last], ModelSettings::defaults()).unwrap();
+    assert!(!f.poll_into(&mut st), "nothing appended yet");
+
+    append(
+        &session_dir.join("trials.csv"),
+        "13,tone-hi,81.000,82.500,4\n14,light,9",
+    );
+    append(&session_dir.join("licks.csv"), "82.6\n82.7\n");
+    assert!(f.poll_into(&mut st));
+    let numbers: Vec<i64> = st.subject.sessions[last]
+        .trials
+        .iter()
+        .map(|t| t.number)
+        .collect();
+    assert_eq!(numbers.len(), before + 1);
+    assert_eq!(*numbers.last().unwrap(), 13, "the torn trial 14 waits");
+    assert_eq!(
+        st.subject.sessions[last].licks.as_ref().map_or(0, Vec::len),
+        licks_before + 2
+    );
+    assert!(
+        st.status.text.contains("following: 1 new trials"),
+        "{}",
+        st.status.text
+    );
+    assert!(st.status.text.contains(FIT_CAUTION));
+
+    append(&session_dir.join("trials.csv"), "1.000,,\n");
+    assert!(f.poll_into(&mut st));
+    assert!(!f.poll_into(&mut st), "rows arrive once");
+    assert_eq!(st.subject.sessions[last].trials.len(), before + 2);
+    assert!(
+        st.status.text.contains("following: 2 new trials"),
+        "{}",
+        st.status.text
+    );
+
+    // The new trials are reachable like any other: traces, model span, last-trial key.
+    update::update(&mut st, Action::LastTrial);
+    assert_eq!(st.current_trial().map(|t| t.number), Some(14));
+    assert_eq!(st.view.traces.len(), before + 2);
+    assert!(st.span_of(before).is_some(), "trial 13 has a model span");
+}
+
+#[test]
+fn a_replaced_file_stops_following_with_a_message() {
+    let (_tmp, dir) = tui_support::fixture_copy();
+    let mut st = tui_support::state(&dir);
+    let last = st.subject.sessions.len() - 1;
+    let session_dir = st.subject.sessions[last].dir.clone();
+    let mut f =
+        Follower::start(last, &st.subject.sessions[last], ModelSettings::defaults()).unwrap();
+    let trials = session_dir.join("trials.csv");
+    let copy = session_dir.join("trials.new");
+    std::fs::copy(&trials, &copy).unwrap();
+    std::fs::rename(&copy, &trials).unwrap();
+    assert!(f.poll_into(&mut st));
+    assert!(
+        st.status.text.contains("following stopped"),
+        "{}",
+        st.status.text
+    );
+    assert!(f.stopped.is_some());
+    assert!(!f.poll_into(&mut st));
+}
