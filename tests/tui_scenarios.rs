@@ -363,6 +363,8 @@ fn saved_fit_parameters_are_used_and_labelled() {
         cue_window_s: None,
         reward_window_s: None,
         baseline_window_s: None,
+        sensor_rise_s: None,
+        sensor_decay_s: None,
     };
     save(&dir, &fit).unwrap();
     let (settings, problem) = ModelSettings::from_subject(&dir);

@@ -481,6 +481,8 @@ pub(crate) fn fit_subject(
             cue_window_s: Some([obs_opts.cue_window.0, obs_opts.cue_window.1]),
             reward_window_s: Some([obs_opts.reward_window.0, obs_opts.reward_window.1]),
             baseline_window_s: Some([obs_opts.baseline.0, obs_opts.baseline.1]),
+            sensor_rise_s: kernel.map(|k| k.rise_s),
+            sensor_decay_s: kernel.map(|k| k.decay_s),
         };
         match saved::save(&subject.root, &savedfit) {
             Ok(path) => text.push_str(&format!("Fitted parameters saved to {}\n", path.display())),

@@ -8,12 +8,11 @@ use super::summary::{ObsArgs, SignalArg};
 use super::{CliError, CmdResult};
 use crate::data::{self, Session, Subject};
 use crate::fit::dataset;
-use crate::fit::saved::{load_saved, SavedFit};
+use crate::fit::saved::{fitted_window_deltas, load_saved, SavedFit};
 use crate::marks::{read_journal, MarkKind, MarkState};
 use crate::model::{self, layout_subject, Representation, TdParams};
 use crate::obs::{
-    alignment_time, observe_lenient, window_delta_sums, ObsOptions, SessionActivity, Signal,
-    TrialKind, TrialObs,
+    alignment_time, observe_lenient, ObsOptions, SessionActivity, Signal, TrialKind, TrialObs,
 };
 use crate::plots::{self, fit_trials, HeatMap, TrialCurves};
 use crate::summary::{day_rows, ModelTraces};
@@ -305,11 +304,13 @@ pub fn run(args: Args) -> CmdResult {
         let run = model::run(&spans, subject.cue_names().len(), &p);
         (spans, run, p)
     });
+    let kernel = saved.as_ref().and_then(|f| f.sensor_kernel(&opts));
     let traces = model_run.as_ref().map(|(spans, run, p)| ModelTraces {
         spans,
         run,
         dt: p.dt,
         opts: &opts,
+        kernel,
     });
     let days = day_rows(&subject, &obs, &marks, traces);
     let excluded = |o: &TrialObs| {
@@ -327,7 +328,8 @@ pub fn run(args: Args) -> CmdResult {
         kept.iter()
             .map(|o| {
                 let &i = index.get(&(o.session, o.trial))?;
-                Some(window_delta_sums(
+                Some(fitted_window_deltas(
+                    kernel,
                     &spans[i],
                     run.trial_delta(i),
                     &opts,
@@ -348,13 +350,9 @@ pub fn run(args: Args) -> CmdResult {
     match (&saved, &model_run) {
         (Some(fit), Some((_, _, p))) => {
             let data = dataset::build(&subject, &obs, &opts, p.dt, &marks, false);
-            let run = model::run(&data.spans, data.n_cues, p);
-            let predicted = fit_trials::predictions(
-                &data,
-                &run,
-                fit.gain,
-                [fit.baselines.cue, fit.baselines.reward],
-            );
+            let data = fit.fit_data(data, &opts);
+            // Representation already checked by `model_params`.
+            let predicted = fit.predictions(&data).unwrap_or_default();
             let rows = fit_trials::rows_from(&data, &predicted);
             let title = format!(
                 "{name}, {} α={:.4} γ={:.4} λ={:.3} (saved {})",

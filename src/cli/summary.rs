@@ -261,6 +261,7 @@ fn summarise(
         run: r,
         dt: *dt,
         opts: &opts,
+        kernel: saved.as_ref().and_then(|f| f.sensor_kernel(&opts)),
     });
     let rows = day_rows(&subject, &obs, &marks, traces);
     let name = subject

@@ -1,6 +1,10 @@
 //! The fitted parameters kept in the subject folder (`trialdesk-fit.toml`), where the reviewer
 //! and `summary` find them.
 
+use super::dataset::{self, FitData, SensorKernel};
+use super::{LearnParams, ModelSpec, Problem};
+use crate::model::{Representation, TrialSpan};
+use crate::obs::{event_bins, window_delta_sums, ObsOptions, Signal, WindowDeltas};
 use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
 
@@ -52,6 +56,92 @@ pub struct SavedFit {
     pub reward_window_s: Option<[f64; 2]>,
     #[serde(default)]
     pub baseline_window_s: Option<[f64; 2]>,
+    /// Photometry sensor kernel the fit weighted δ by (absent: plain window sums, as in files
+    /// written before kernels existed).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sensor_rise_s: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sensor_decay_s: Option<f64>,
+}
+
+impl SavedFit {
+    /// The sensor kernel of this fit, starting `obs.latency` after the δ as in the fit; `None`
+    /// for a plain-sum fit or an unusable pair of time constants.
+    pub fn sensor_kernel(&self, obs: &ObsOptions) -> Option<SensorKernel> {
+        if obs.signal != Signal::Photometry {
+            return None;
+        }
+        let k = SensorKernel {
+            rise_s: self.sensor_rise_s?,
+            decay_s: self.sensor_decay_s?,
+            latency_s: obs.latency,
+        };
+        k.is_valid().then_some(k)
+    }
+
+    /// `data` (built at this fit's `dt`) weighted the way the fit weighted it.
+    pub fn fit_data(&self, data: FitData, obs: &ObsOptions) -> FitData {
+        match self.sensor_kernel(obs) {
+            Some(k) => dataset::with_sensor_kernel(data, k, obs),
+            None => data,
+        }
+    }
+
+    /// Prediction of every point of `data` (already passed through [`SavedFit::fit_data`]):
+    /// window baseline + gain × predictor, the predictor from the fitter's own
+    /// [`Problem::predictors`]; NaN where the window's baseline was not fitted. `None` for an
+    /// unknown representation.
+    pub fn predictions(&self, data: &FitData) -> Option<Vec<f64>> {
+        let model = match self.representation.as_str() {
+            "rescorla-wagner" => ModelSpec::RescorlaWagner,
+            r => ModelSpec::Td(Representation::parse(r)?),
+        };
+        let params = LearnParams {
+            alpha: self.alpha,
+            gamma: self.gamma,
+            lambda: self.lambda,
+        };
+        let x = Problem::new(data, model, false, self.lambda).predictors(&params);
+        let baselines = [self.baselines.cue, self.baselines.reward];
+        Some(
+            data.points
+                .iter()
+                .zip(x)
+                .map(|(p, x)| baselines[p.kind.index()].map_or(f64::NAN, |b| b + self.gain * x))
+                .collect(),
+        )
+    }
+}
+
+/// The model δ of one trial's cue and reward windows as a fit with `kernel` saw them: plain
+/// sums ([`window_delta_sums`]) without one, else Σ w_k·δ_k with the weights of
+/// [`SensorKernel::window_weight`] placed as [`dataset::with_sensor_kernel`] places them (δ of
+/// bin k at k·dt after the event bin).
+pub fn fitted_window_deltas(
+    kernel: Option<SensorKernel>,
+    span: &TrialSpan,
+    delta: &[f64],
+    obs: &ObsOptions,
+    dt: f64,
+) -> WindowDeltas {
+    let Some(k) = kernel else {
+        return window_delta_sums(span, delta, obs, dt);
+    };
+    let weighted = |event: Option<usize>, window: (f64, f64)| -> Option<f64> {
+        let event = event? as f64;
+        Some(
+            delta
+                .iter()
+                .enumerate()
+                .map(|(i, d)| k.window_weight((i as f64 - event) * dt, window) * d)
+                .sum(),
+        )
+    };
+    let (cue, reward) = event_bins(span);
+    WindowDeltas {
+        cue: weighted(cue, obs.cue_window),
+        reward: weighted(reward, obs.reward_window),
+    }
 }
 
 #[derive(Debug, thiserror::Error)]

@@ -14,9 +14,11 @@ pub mod suggested;
 pub use suggested::suggested_counts;
 
 use crate::data::Subject;
+use crate::fit::dataset::SensorKernel;
+use crate::fit::saved::fitted_window_deltas;
 use crate::marks::{MarkKind, MarkState};
 use crate::model::{TdRun, TrialSpan};
-use crate::obs::{window_delta_sums, ObsOptions, TrialKind, TrialObs};
+use crate::obs::{ObsOptions, TrialKind, TrialObs};
 use std::collections::HashMap;
 
 /// A mean and the number of trials it is over (`value` is `None` when n = 0).
@@ -104,6 +106,8 @@ pub struct ModelTraces<'a> {
     pub run: &'a TdRun,
     pub dt: f64,
     pub opts: &'a ObsOptions,
+    /// The saved fit's sensor kernel: window δ weighted as the fit weighted it.
+    pub kernel: Option<SensorKernel>,
 }
 
 /// One row per session in training order. `marks[i]` is the mark state of
@@ -169,7 +173,8 @@ pub fn day_rows(
                 .map(|o| {
                     let m = model?;
                     let &i = span_index.get(&(o.session, o.trial))?;
-                    Some(window_delta_sums(
+                    Some(fitted_window_deltas(
+                        m.kernel,
                         &m.spans[i],
                         m.run.trial_delta(i),
                         m.opts,

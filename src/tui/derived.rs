@@ -8,7 +8,9 @@
 
 use super::state::SignalKind;
 use crate::data::{Session, Subject};
-use crate::fit::{self, saved::SavedFit, saved::SAVED_FIT_FILE};
+use crate::fit;
+use crate::fit::dataset::SensorKernel;
+use crate::fit::saved::{fitted_window_deltas, SavedFit, SAVED_FIT_FILE};
 use crate::marks::MarkState;
 use crate::model::Representation;
 use crate::model::{self, layout_subject, TdParams, TdRun, TrialSpan, POST_S};
@@ -168,6 +170,8 @@ pub struct ModelView {
     pub window_deltas: Vec<WindowDeltas>,
     /// The observation windows those sums use.
     pub obs_opts: ObsOptions,
+    /// The saved fit's sensor kernel (photometry): window δ weighted as the fit weighted it.
+    pub kernel: Option<SensorKernel>,
 }
 
 impl ModelView {
@@ -183,10 +187,11 @@ impl ModelView {
         for (i, s) in spans.iter().enumerate() {
             span_of[s.session][s.trial] = Some(i);
         }
+        let kernel = settings.saved.as_ref().and_then(|f| f.sensor_kernel(obs));
         let window_deltas = spans
             .iter()
             .enumerate()
-            .map(|(i, s)| obs::window_delta_sums(s, run.trial_delta(i), obs, params.dt))
+            .map(|(i, s)| fitted_window_deltas(kernel, s, run.trial_delta(i), obs, params.dt))
             .collect();
         ModelView {
             params,
@@ -198,6 +203,7 @@ impl ModelView {
             span_of,
             window_deltas,
             obs_opts: obs.clone(),
+            kernel,
         }
     }
 }
@@ -432,6 +438,7 @@ pub fn day_table(
             run: &model.run,
             dt: model.params.dt,
             opts: &model.obs_opts,
+            kernel: model.kernel,
         }),
     )
 }
