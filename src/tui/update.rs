@@ -529,8 +529,9 @@ fn refresh(state: &mut State) {
 }
 
 /// Rows the rig appended to a session being followed (`--follow`): the one message that is
-/// not a key. Appends them, then rebuilds what depends on that session: its traces and
-/// suggestions always; the model pass, observations and days table only when trials arrived.
+/// not a key. Appends them, then rebuilds what depends on them: that session's traces and
+/// suggestions when a trial's window is touched; the model pass, observations and days table
+/// only when trials arrived.
 pub fn append_recorded(
     state: &mut State,
     session: usize,
@@ -539,6 +540,15 @@ pub fn append_recorded(
 ) {
     let s = &mut state.subject.sessions[session];
     let new_trials = rows.trials.len();
+    // Traces and suggestions look at windows around trials: rows after the last trial's window
+    // change neither until the next trial arrives, which rebuilds both.
+    let reach = s
+        .trials
+        .last()
+        .and_then(|t| t.cue_s.or(t.reward_s))
+        .map_or(f64::INFINITY, |at| at + state.view.to_s);
+    let touches =
+        rows.licks.iter().any(|&t| t <= reach) || rows.spikes.iter().any(|&(_, t)| t <= reach);
     s.trials.extend(rows.trials);
     if !rows.spikes.is_empty() {
         let spikes = s.spikes.get_or_insert_with(Default::default);
@@ -567,6 +577,9 @@ pub fn append_recorded(
         state.obs = derived::observe_spans(&state.subject, &state.model, &opts);
         state.photometry_views[session] = None;
         rebuild_days(state);
+    }
+    if new_trials == 0 && !touches {
+        return;
     }
     state.suggested[session] = None;
     if session == state.session {
