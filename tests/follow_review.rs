@@ -90,3 +90,40 @@ fn a_replaced_file_stops_following_with_a_message() {
     assert!(f.stopped.is_some());
     assert!(!f.poll_into(&mut st));
 }
+
+#[test]
+fn spikes_in_the_last_trial_window_redraw_its_trace_and_later_ones_wait() {
+    let (_tmp, dir) = tui_support::fixture_copy();
+    let mut st = tui_support::state(&dir);
+    // The first session has spikes; follow it as if it were still recording.
+    let session_dir = st.subject.sessions[0].dir.clone();
+    let mut f = Follower::start(0, &st.subject.sessions[0], ModelSettings::defaults()).unwrap();
+    let last = st.subject.sessions[0].trials.len() - 1;
+    let cue = st.subject.sessions[0].trials[last].cue_s.unwrap();
+    let spikes_before = |st: &trialdesk::tui::State| {
+        st.subject.sessions[0]
+            .spikes
+            .as_ref()
+            .map_or(0, |s| s.times.iter().map(Vec::len).sum::<usize>())
+    };
+    let n0 = spikes_before(&st);
+
+    // Far after the last trial's window: stored, trace unchanged until the next trial.
+    let trace = st.view.traces[last].clone();
+    append(
+        &session_dir.join("spikes.csv"),
+        &format!("u1,{}\n", cue + 500.0),
+    );
+    assert!(f.poll_into(&mut st));
+    assert_eq!(spikes_before(&st), n0 + 1);
+    assert_eq!(st.view.traces[last], trace);
+
+    // Inside it: the trace is rebuilt with the new spikes.
+    let burst: String = (0..20)
+        .map(|i| format!("u1,{}\n", cue + 0.2 + i as f64 * 0.001))
+        .collect();
+    append(&session_dir.join("spikes.csv"), &burst);
+    assert!(f.poll_into(&mut st));
+    assert_eq!(spikes_before(&st), n0 + 21);
+    assert_ne!(st.view.traces[last], trace);
+}
