@@ -4,7 +4,7 @@
 //! Thin shell: load → observations → marks → day rows (and a model pass at the saved fit's
 //! parameters) → `crate::plots` → files in `--out` only.
 
-use super::summary::{ObsArgs, SignalArg};
+use super::summary::{obs_options, ObsArgs};
 use super::{CliError, CmdResult};
 use crate::data::{self, Session, Subject};
 use crate::fit::dataset;
@@ -48,65 +48,6 @@ pub struct Args {
 
 fn warn(msg: impl std::fmt::Display) {
     eprintln!("trialdesk: warning: {msg}");
-}
-
-fn obs_options(
-    subject: &Subject,
-    a: &ObsArgs,
-    saved: Option<&SavedFit>,
-) -> Result<ObsOptions, CliError> {
-    let signal = match a.signal {
-        SignalArg::Spikes => Signal::Spikes {
-            unit: a.unit.clone(),
-        },
-        SignalArg::Photometry => Signal::Photometry,
-        SignalArg::Auto
-            if a.unit.is_some() || subject.sessions.iter().any(|s| s.spikes.is_some()) =>
-        {
-            Signal::Spikes {
-                unit: a.unit.clone(),
-            }
-        }
-        SignalArg::Auto if subject.sessions.iter().any(|s| s.photometry.is_some()) => {
-            Signal::Photometry
-        }
-        SignalArg::Auto => {
-            return Err(CliError::failed(format!(
-                "{}: nothing to draw: no session has spikes.csv or photometry.csv",
-                subject.root.display()
-            )))
-        }
-    };
-    if a.unit.is_some() && signal == Signal::Photometry {
-        return Err(CliError::usage("--unit applies to spikes, not photometry"));
-    }
-    let base = match signal {
-        Signal::Photometry => ObsOptions::photometry(),
-        _ => ObsOptions::default(),
-    };
-    let pair = |v: Option<[f64; 2]>| v.map(|[x, y]| (x, y));
-    let opts = ObsOptions {
-        cue_window: a
-            .cue_window
-            .or(pair(saved.and_then(|s| s.cue_window_s)))
-            .unwrap_or(base.cue_window),
-        reward_window: a
-            .reward_window
-            .or(pair(saved.and_then(|s| s.reward_window_s)))
-            .unwrap_or(base.reward_window),
-        baseline: a
-            .baseline
-            .or(pair(saved.and_then(|s| s.baseline_window_s)))
-            .unwrap_or(base.baseline),
-        latency: a
-            .latency
-            .or(saved.and_then(|s| s.latency_s))
-            .unwrap_or(base.latency),
-        signal,
-    };
-    opts.validate()
-        .map_err(|e| CliError::usage(e.to_string()))?;
-    Ok(opts)
 }
 
 /// Standing marks per session; an unreadable journal is warned about and read as no marks

@@ -279,7 +279,9 @@ fn summarise(
     ))
 }
 
-fn obs_options(
+/// The observation options in force: command-line windows, else the saved fit's, else the
+/// signal's defaults (shared by `summary` and `plot` so both measure the same responses).
+pub(super) fn obs_options(
     subject: &Subject,
     a: &ObsArgs,
     saved: Option<&SavedFit>,
@@ -298,7 +300,7 @@ fn obs_options(
                 Signal::Photometry
             } else {
                 return Err(CliError::failed(format!(
-                    "{}: no activity to summarise: no session has spikes.csv or photometry.csv",
+                    "{}: no activity to measure: no session has spikes.csv or photometry.csv",
                     subject.root.display()
                 )));
             }
