@@ -270,6 +270,21 @@ pub struct WeightedWindow {
     pub weights: Vec<f64>,
 }
 
+/// Weight of each bin's δ in a window after `event_bin`: the sensor kernel's mean over the
+/// window for an impulse in that bin. The fitter and every rebuild from a saved fit use this.
+pub fn kernel_weights(
+    kernel: SensorKernel,
+    span: &TrialSpan,
+    event_bin: usize,
+    window: (f64, f64),
+    dt: f64,
+) -> Vec<f64> {
+    let event = event_bin as f64;
+    (0..span.n_bins)
+        .map(|k| kernel.window_weight((k as f64 - event) * dt, window))
+        .collect()
+}
+
 /// `data` with every point's predictor weighted by `kernel`: δ of bin k (at k·dt after the
 /// alignment time, as `simulate` places it) counts with the kernel's mean over the point's
 /// window, so δ just before an event that the sensor carries into the window is counted, and
@@ -287,10 +302,7 @@ pub fn with_sensor_kernel(mut data: FitData, kernel: SensorKernel, obs: &ObsOpti
                 WindowKind::Cue => (cue, obs.cue_window),
                 WindowKind::Reward => (reward, obs.reward_window),
             };
-            let event = event.unwrap_or(0) as f64;
-            let w: Vec<f64> = (0..span.n_bins)
-                .map(|k| kernel.window_weight((k as f64 - event) * data.dt, window))
-                .collect();
+            let w = kernel_weights(kernel, span, event.unwrap_or(0), window, data.dt);
             // Bins whose response has died out or not yet begun add nothing.
             let first = w.iter().position(|&x| x > 1e-9).unwrap_or(w.len());
             let end = w.iter().rposition(|&x| x > 1e-9).map_or(first, |i| i + 1);

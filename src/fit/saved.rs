@@ -128,14 +128,8 @@ pub fn fitted_window_deltas(
         return window_delta_sums(span, delta, obs, dt);
     };
     let weighted = |event: Option<usize>, window: (f64, f64)| -> Option<f64> {
-        let event = event? as f64;
-        Some(
-            delta
-                .iter()
-                .enumerate()
-                .map(|(i, d)| k.window_weight((i as f64 - event) * dt, window) * d)
-                .sum(),
-        )
+        let w = dataset::kernel_weights(k, span, event?, window, dt);
+        Some(w.iter().zip(delta).map(|(w, d)| w * d).sum())
     };
     let (cue, reward) = event_bins(span);
     WindowDeltas {
