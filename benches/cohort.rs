@@ -16,28 +16,16 @@
 //! subject), peak 15 MB. One subject's fit already runs its starts and bootstrap replicates
 //! in parallel, so spreading subjects over the same 2 threads gains little beyond that.
 
+#[path = "support/mod.rs"]
+mod support;
+use support::{cpu_s, vm_hwm_mb};
+
 use std::path::Path;
 use std::time::Instant;
 use trialdesk::cohort::{run_cohort, Shard};
 use trialdesk::fit::{dataset, run_fit, FitOptions, NoProgress};
 use trialdesk::obs::{observe, ObsOptions};
 use trialdesk::simulate::{simulate, write_subject, SimConfig};
-
-fn vm_hwm_mb() -> Option<f64> {
-    let s = std::fs::read_to_string("/proc/self/status").ok()?;
-    let line = s.lines().find(|l| l.starts_with("VmHWM:"))?;
-    let kb: f64 = line.split_whitespace().nth(1)?.parse().ok()?;
-    Some(kb / 1024.0)
-}
-
-/// User + system CPU seconds of this process (/proc/self/stat, ticks of 1/100 s).
-fn cpu_s() -> f64 {
-    let s = std::fs::read_to_string("/proc/self/stat").unwrap_or_default();
-    let rest = s.rsplit_once(')').map(|x| x.1).unwrap_or("");
-    let f: Vec<&str> = rest.split_whitespace().collect();
-    let tick = |i: usize| f.get(i).and_then(|v| v.parse::<f64>().ok()).unwrap_or(0.0);
-    (tick(11) + tick(12)) / 100.0
-}
 
 /// What `trialdesk fit` does for one subject folder, minus printing and saving.
 fn fit_subject(path: &Path, opts: &FitOptions) -> Result<f64, String> {

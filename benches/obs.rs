@@ -2,6 +2,10 @@
 //! 300 reviewer trace rows. Prints figures; peak memory from /proc/self/status (VmHWM).
 //! Run: `cargo bench --bench obs`.
 
+#[path = "support/mod.rs"]
+mod support;
+use support::vm_hwm_mb;
+
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use std::time::Instant;
@@ -72,13 +76,6 @@ fn best_of<T>(reps: usize, mut f: impl FnMut() -> T) -> (f64, T) {
         out = Some(v);
     }
     (best * 1e3, out.unwrap())
-}
-
-fn vm_hwm_mb() -> Option<f64> {
-    let s = std::fs::read_to_string("/proc/self/status").ok()?;
-    let line = s.lines().find(|l| l.starts_with("VmHWM:"))?;
-    let kb: f64 = line.split_whitespace().nth(1)?.parse().ok()?;
-    Some(kb / 1024.0)
 }
 
 fn main() {
