@@ -5,6 +5,7 @@ use super::{CliError, CmdResult};
 use crate::data;
 use crate::tui::derived::ModelSettings;
 use crate::tui::follow::Follower;
+use crate::tui::input::TtyInput;
 use crate::tui::keymap::{Keymap, SHIPPED};
 use crate::tui::state::{Options, Tone, DEFAULT_REASONS};
 use crate::tui::{app, config, terminal};
@@ -139,13 +140,26 @@ pub fn run(args: Args) -> CmdResult {
         state.status.tone = Tone::Warn;
     }
     let stop = terminal::watch_signals()?;
+    let mut input = TtyInput::stdin()?;
     let (mut term, guard) = terminal::enter()?;
-    let result = app::run_loop_following(&mut term, &mut state, &stop, follower);
+    let result = app::run_loop(&mut term, &mut input, &mut state, &stop, follower);
     drop(term);
     drop(guard);
-    result.map_err(CliError::failed)?;
-    // One last try for rows whose append failed while reviewing.
-    crate::tui::update::update(&mut state, crate::tui::Action::RefreshMarks);
+    // Whatever ended the loop (quit, a signal, a terminal that went away), marks not yet in
+    // marks.csv are written now, before any error is reported.
+    let rescued = rescue_unsaved(&mut state);
+    match (result, rescued) {
+        (Ok(()), None) => Ok(0),
+        (Ok(()), Some(lines)) => Err(CliError::failed(lines)),
+        (Err(e), None) => Err(CliError::failed(e)),
+        (Err(e), Some(lines)) => Err(CliError::failed(format!("{e}\n{lines}"))),
+    }
+}
+
+/// One last try for rows whose append failed while reviewing; rows that still cannot go into
+/// their session's marks.csv are saved elsewhere. Returns the lines that tell the user where.
+fn rescue_unsaved(state: &mut crate::tui::state::State) -> Option<String> {
+    crate::tui::update::update(state, crate::tui::Action::RefreshMarks);
     let unsaved: usize = state.marks.iter().map(|m| m.unsaved.len()).sum();
     if unsaved > 0 {
         let base = directories::ProjectDirs::from("", "", "trialdesk")
@@ -154,7 +168,7 @@ pub fn run(args: Args) -> CmdResult {
         let mut lines = vec![format!(
             "{unsaved} mark row(s) could not be written to the data folder's marks.csv:"
         )];
-        for (session, result) in save_unsaved_elsewhere(&state, &base) {
+        for (session, result) in save_unsaved_elsewhere(state, &base) {
             lines.push(match result {
                 Ok(file) => format!(
                     "  {}: kept in {} (same columns: append its rows, without the header, \
@@ -169,9 +183,9 @@ pub fn run(args: Args) -> CmdResult {
                 ),
             });
         }
-        return Err(CliError::failed(lines.join("\n")));
+        return Some(lines.join("\n"));
     }
-    Ok(0)
+    None
 }
 
 /// Journal rows that could not be appended in their session folder (read-only, full disk),

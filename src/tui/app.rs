@@ -6,12 +6,13 @@
 use super::action::Action;
 use super::derived::{self, ModelSettings, ModelView, SessionView};
 use super::follow::Follower;
+use super::input::{Input, TtyInput};
 use super::keymap::{confirm_action, editor_action, picker_action};
 use super::state::{Options, Overlay, Screen, SessionMarks, SignalKind, State, Status, Tone};
 use super::{screens, update};
 use crate::data::Subject;
 use crate::suggest::RuleSet;
-use crossterm::event::{self, Event, KeyCode, KeyEvent, KeyEventKind, KeyModifiers};
+use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
 use ratatui::backend::Backend;
 use ratatui::Terminal;
 use std::sync::atomic::{AtomicBool, Ordering};
@@ -130,21 +131,12 @@ pub fn draw<B: Backend>(terminal: &mut Terminal<B>, state: &State) -> Result<(),
     Ok(())
 }
 
-/// Run until quit or until `stop` is raised (SIGTERM/SIGHUP).
+/// Run until quit, until `stop` is raised (SIGTERM/SIGHUP), or until the terminal goes away
+/// (its input hangs up, ends or fails; drawing fails). Waits for input at most a quarter of a
+/// second at a time, so the stop flag is seen promptly, and never retries a failing terminal.
 pub fn run_loop<B: Backend>(
     terminal: &mut Terminal<B>,
-    state: &mut State,
-    stop: &AtomicBool,
-) -> Result<(), String>
-where
-    B::Error: std::fmt::Display,
-{
-    run_loop_following(terminal, state, stop, None)
-}
-
-/// [`run_loop`], also polling a session being recorded on every refresh (`--follow`).
-pub fn run_loop_following<B: Backend>(
-    terminal: &mut Terminal<B>,
+    input: &mut TtyInput,
     state: &mut State,
     stop: &AtomicBool,
     mut follower: Option<Follower>,
@@ -160,20 +152,18 @@ where
             .saturating_sub(last_refresh.elapsed())
             .min(Duration::from_millis(250));
         let mut dirty = false;
-        match event::poll(wait) {
-            Ok(true) => match event::read() {
-                Ok(Event::Key(key)) if key.kind != KeyEventKind::Release => {
-                    handle_key(state, &key);
-                    dirty = true;
+        match input.wait(wait).map_err(|e| e.to_string())? {
+            Input::Keys(keys) => {
+                for key in &keys {
+                    handle_key(state, key);
+                    if state.quit {
+                        break;
+                    }
                 }
-                Ok(Event::Resize(..)) => dirty = true,
-                Ok(_) => {}
-                Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
-                Err(e) => return Err(err(&e)),
-            },
-            Ok(false) => {}
-            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
-            Err(e) => return Err(err(&e)),
+                dirty = true;
+            }
+            Input::Resized => dirty = true,
+            Input::Nothing => {}
         }
         if last_refresh.elapsed() >= REFRESH_EVERY {
             update::update(state, Action::RefreshMarks);
@@ -183,7 +173,7 @@ where
             last_refresh = Instant::now();
             dirty = true;
         }
-        if dirty && !state.quit {
+        if dirty && !state.quit && !stop.load(Ordering::Relaxed) {
             draw(terminal, state).map_err(|e| err(&e))?;
         }
     }

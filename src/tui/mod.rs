@@ -12,6 +12,7 @@ pub mod app;
 pub mod config;
 pub mod derived;
 pub mod follow;
+pub mod input;
 pub mod keymap;
 pub mod screens;
 pub mod state;
