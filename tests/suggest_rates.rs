@@ -163,17 +163,23 @@ fn late_first_lick_rule() {
         &[FaultKind::LateFirstLick],
         Eligible::Rewarded,
     );
-    assert!(s.injected >= 30);
-    assert!(s.hit_rate() >= 0.95, "hit {}", s.hit_rate());
-    // The simulator's own first-lick latency is 0.05 s + exponential(mean 0.1 s), so a clean
-    // trial exceeds Qian's 250 ms with probability exp(-2) = 0.135 (closed form): those are
-    // real late licks, correctly flagged, but they count as false alarms against the injected
-    // truth. Binomial band around 0.135 for ~400 clean trials: ± 0.06.
-    assert!(
-        (s.fa_rate() - (-2.0f64).exp()).abs() < 0.06,
-        "fa {}",
-        s.fa_rate()
+    eprintln!(
+        "late_first_lick: hit {:.3} ({} injected), false alarms {:.4} ({} clean)",
+        s.hit_rate(),
+        s.injected,
+        s.fa_rate(),
+        s.clean
     );
+    // Injected: no lick for 0.4-1.2 s after the reward. The simulator's own first lick comes
+    // 0.05 s + exponential(mean 0.1 s) after it, so the injected gaps overlap the clean tail:
+    // even a known-distribution limit with < 2 % false alarms (0.44 s, closed form) misses
+    // ~5 %. Estimated per type from 10-40 trials (median + 5 robust SDs), a Monte Carlo study
+    // (tests/fixtures/suggest/late_lick_limits.py) gives false alarms 0.8-1.7 % and hits
+    // 0.73-0.83; uncued rewards here (~6 a session, under min_trials) are not judged at all,
+    // which lowers the overall hit rate further (measured 0.67).
+    assert!(s.injected >= 30);
+    assert!(s.hit_rate() >= 0.6, "hit {}", s.hit_rate());
+    assert!(s.fa_rate() <= 0.02, "fa {}", s.fa_rate());
 }
 
 #[test]
@@ -260,24 +266,42 @@ fn signal_clipped_rule() {
     assert!(s.fa_rate() <= 0.01, "fa {}", s.fa_rate());
 }
 
-/// Every rule on a clean subject (no faults, photometry with bleaching, 6 units): the
-/// false-alarm floor a reviewer sees on good data.
+/// Every rule on clean subjects (no faults, photometry with bleaching, 6 units; three seeds,
+/// one with a larger share of uncued rewards): the false-alarm floor a reviewer sees on good
+/// data. The target is under 2 % for every rule; the figures are printed.
 #[test]
 fn clean_subject_false_alarms() {
-    let mut c = with_photometry(config(19, 4, &[]));
-    c.units.count = 6;
-    let sim = simulate(&c).unwrap();
-    for (rule, e, bound) in [
-        ("baseline_licks", Eligible::All, 0.01),
-        ("no_consumption", Eligible::Rewarded, 0.01),
-        ("late_first_lick", Eligible::Rewarded, 0.2),
-        ("reward_too_soon", Eligible::Rewarded, 0.0),
-        ("unit_drift", Eligible::All, 0.02),
-        ("control_motion", Eligible::All, 0.01),
-        ("control_fit_poor", Eligible::All, 0.0),
-        ("signal_clipped", Eligible::All, 0.0),
-    ] {
-        let s = score(&sim, rule, &[], e);
-        assert!(s.fa_rate() <= bound, "{rule}: {}", s.fa_rate());
+    let rules = [
+        ("baseline_licks", Eligible::All),
+        ("no_consumption", Eligible::Rewarded),
+        ("late_first_lick", Eligible::Rewarded),
+        ("reward_too_soon", Eligible::Rewarded),
+        ("unit_drift", Eligible::All),
+        ("control_motion", Eligible::All),
+        ("control_fit_poor", Eligible::All),
+        ("signal_clipped", Eligible::All),
+    ];
+    let mut totals = vec![(0usize, 0usize); rules.len()];
+    for (seed, uncued) in [(19, None), (20, None), (21, Some(0.25))] {
+        let mut c = with_photometry(config(seed, 4, &[]));
+        c.units.count = 6;
+        if let Some(p) = uncued {
+            c.schedule.uncued_fraction = p;
+        }
+        let sim = simulate(&c).unwrap();
+        for (i, (rule, e)) in rules.iter().enumerate() {
+            let s = score(&sim, rule, &[], *e);
+            totals[i].0 += s.false_alarms;
+            totals[i].1 += s.clean;
+        }
+    }
+    for ((rule, _), (fa, n)) in rules.iter().zip(&totals) {
+        let rate = *fa as f64 / (*n).max(1) as f64;
+        eprintln!("clean subjects: {rule}: {fa} of {n} trials flagged ({rate:.4})");
+        assert!(*n >= 300, "{rule}: only {n} eligible trials");
+        assert!(
+            rate < 0.02,
+            "{rule}: false-alarm rate {rate:.4} (target < 0.02)"
+        );
     }
 }

@@ -336,7 +336,7 @@ fn sensitivity_line(
             })
         })
         .collect();
-    let trials = sensitivity::SuggestedTrials::new(data, &per_session);
+    let trials = sensitivity::SuggestedTrials::new(data, &per_session, &subject.cue_names());
     let result = sensitivity::sensitivity(data, outcome, opts, &trials, progress);
     sensitivity::line(&result, &trials, outcome, opts.fit_lambda)
 }

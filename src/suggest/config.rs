@@ -117,7 +117,7 @@ rule_params!(
 rule_params!(
     /// `late_first_lick`.
     LateFirstLick, LateFirstLickPatch, "late_first_lick" {
-    max_latency_s: f64 as Positive, give_up_s: f64 as Positive,
+    max_latency_s: f64 as Positive, k: f64 as Positive, min_trials: u32 as Count, give_up_s: f64 as Positive,
 });
 rule_params!(
     /// `reward_too_soon`.

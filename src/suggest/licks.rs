@@ -1,11 +1,14 @@
-//! The lick rules: baseline licks, no consumption, late first lick, reward too soon.
+//! The lick rules: baseline licks, no consumption, late first lick (relative to the trial
+//! type's own latencies), reward too soon.
 //!
 //! All work on the sorted lick times with binary searches, so a session costs
 //! O(trials · log licks).
 
+use super::config::LateFirstLick;
 use super::{align, num, RuleSet, Suggestion};
 use crate::data::Session;
 use crate::obs::activity::count_in;
+use std::collections::BTreeMap;
 
 /// `licks` is `None` when the session has no licks.csv: only `reward_too_soon` applies then.
 pub(super) fn suggest(
@@ -16,7 +19,6 @@ pub(super) fn suggest(
 ) {
     let bl = &rules.baseline_licks;
     let nc = &rules.no_consumption;
-    let late = &rules.late_first_lick;
     let soon = &rules.reward_too_soon;
     let mut previous_reward: Option<(i64, f64)> = None;
     for trial in &session.trials {
@@ -53,23 +55,6 @@ pub(super) fn suggest(
                 });
             }
         }
-        if let (true, Some(licks)) = (late.enabled, licks) {
-            let first = licks.partition_point(|&t| t < r);
-            if let Some(&t) = licks.get(first) {
-                let latency = t - r;
-                if latency > late.max_latency_s && latency <= late.give_up_s {
-                    out.push(Suggestion {
-                        trial: trial.number,
-                        rule: "late_first_lick",
-                        reason: format!(
-                            "first lick {} s after the reward (limit {} s)",
-                            num(latency, 3),
-                            num(late.max_latency_s, 3)
-                        ),
-                    });
-                }
-            }
-        }
         if let (true, Some((prev_trial, prev))) = (soon.enabled, previous_reward) {
             let gap = r - prev;
             if gap < soon.min_interval_s {
@@ -85,5 +70,72 @@ pub(super) fn suggest(
             }
         }
         previous_reward = Some((trial.number, r));
+    }
+    if let (true, Some(licks)) = (rules.late_first_lick.enabled, licks) {
+        late_first_lick(session, licks, &rules.late_first_lick, out);
+    }
+}
+
+/// First-lick latency after each delivered reward (within `give_up_s`), judged against the
+/// latencies of the session's other rewarded trials of the same type.
+fn late_first_lick(
+    session: &Session,
+    licks: &[f64],
+    late: &LateFirstLick,
+    out: &mut Vec<Suggestion>,
+) {
+    // (trial number, latency) per trial type: the cue index, None for uncued rewards.
+    let mut by_type: BTreeMap<Option<usize>, Vec<(i64, f64)>> = BTreeMap::new();
+    for trial in &session.trials {
+        let Some(r) = trial.reward_s.filter(|_| trial.reward_ul > 0.0) else {
+            continue;
+        };
+        let first = licks.partition_point(|&t| t < r);
+        if let Some(&t) = licks.get(first).filter(|&&t| t - r <= late.give_up_s) {
+            by_type
+                .entry(trial.cue)
+                .or_default()
+                .push((trial.number, t - r));
+        }
+    }
+    for (cue, rows) in by_type {
+        if rows.len() < late.min_trials as usize {
+            continue;
+        }
+        let mut lat: Vec<f64> = rows.iter().map(|&(_, l)| l).collect();
+        let median = median_of(&mut lat);
+        let mut dev: Vec<f64> = lat.iter().map(|l| (l - median).abs()).collect();
+        // 1.4826·MAD estimates a normal SD (common practice); floored so identical latencies
+        // do not make every other trial an outlier.
+        let spread = (1.4826 * median_of(&mut dev)).max(0.01);
+        let limit = late.max_latency_s.max(median + late.k * spread);
+        let kind = match cue.and_then(|c| session.meta.cues.get(c)) {
+            Some(c) => c.name.as_str(),
+            None => "uncued",
+        };
+        for (trial, latency) in rows {
+            if latency > limit {
+                out.push(Suggestion {
+                    trial,
+                    rule: "late_first_lick",
+                    reason: format!(
+                        "first lick {} s after the reward; {kind} trials' median {} s (limit {} s)",
+                        num(latency, 3),
+                        num(median, 3),
+                        num(limit, 3)
+                    ),
+                });
+            }
+        }
+    }
+}
+
+fn median_of(v: &mut [f64]) -> f64 {
+    v.sort_by(f64::total_cmp);
+    let n = v.len();
+    if n % 2 == 1 {
+        v[n / 2]
+    } else {
+        0.5 * (v[n / 2 - 1] + v[n / 2])
     }
 }

@@ -59,8 +59,9 @@ pub const CATALOG: [RuleInfo; 8] = [
     },
     RuleInfo {
         id: "late_first_lick",
-        description: "first lick after the reward later than the limit",
-        source: "Qian et al. 2025 kept only trials whose first lick came < 250 ms after reward",
+        description: "first lick after the reward late for its trial type (cue or uncued)",
+        source: "Qian et al. 2025 kept only trials whose first lick came < 250 ms after reward; \
+                 judged per trial type against its median + k robust SDs (our default)",
     },
     RuleInfo {
         id: "reward_too_soon",

@@ -131,22 +131,52 @@ fn zero_volume_rewards_are_not_judged() {
 }
 
 #[test]
-fn late_first_lick_limit_and_give_up() {
-    let mut s = session(4, |_| true);
-    let r = |i: usize| 11.5 + 20.0 * i as f64;
+fn late_first_lick_judges_each_trial_type_by_its_own_latencies() {
+    // Trials 1-11 cued; 12-22 uncued rewards (no cue, reward at the same clock times).
+    let mut s = session(22, |_| true);
+    for t in &mut s.trials[11..] {
+        t.cue = None;
+        t.cue_s = None;
+    }
+    let cued = [
+        0.08, 0.09, 0.10, 0.11, 0.12, 0.13, 0.14, 0.15, 0.3, 0.9, 2.5,
+    ];
+    let uncued = [
+        0.40, 0.42, 0.44, 0.46, 0.48, 0.50, 0.52, 0.54, 0.56, 0.58, 1.5,
+    ];
     let mut licks = Vec::new();
-    for (i, latency) in [(0, 0.0), (1, 0.25), (2, 0.3), (3, 2.5)] {
-        licks.extend((0..15).map(|k| r(i) + latency + k as f64 / 7.0));
+    for (t, latency) in s.trials.iter().zip(cued.iter().chain(&uncued)) {
+        let r = t.reward_s.unwrap();
+        licks.extend((0..15).map(|k| r + latency + k as f64 / 7.0));
     }
     s.licks = Some(licks);
     let got = only(&s, &RuleSet::default(), "late_first_lick");
-    // 0 and exactly 0.25 s pass; 0.3 s is late; 2.5 s is past give_up_s (no_consumption's).
-    assert_eq!(trials(&got), [3]);
-    assert_eq!(got[0].1, "first lick 0.3 s after the reward (limit 0.25 s)");
+    // Cued: median 0.125 s, MAD 0.025 s, limit 0.125 + 5·1.4826·0.025 = 0.310 s, so 0.3 s
+    // (above the 250 ms floor) is within its type's spread and 0.9 s is late; 2.5 s is past
+    // give_up_s (no_consumption's). Uncued: median 0.5 s, MAD 0.06 s, limit 0.945 s: the
+    // naturally slower collection of unpredicted rewards (0.40-0.58 s) is not flagged, 1.5 s is.
+    assert_eq!(trials(&got), [10, 22]);
+    assert_eq!(
+        got[0].1,
+        "first lick 0.9 s after the reward; tone-hi trials' median 0.125 s (limit 0.31 s)"
+    );
+    assert_eq!(
+        got[1].1,
+        "first lick 1.5 s after the reward; uncued trials' median 0.5 s (limit 0.945 s)"
+    );
     assert_eq!(
         trials(&only(&s, &RuleSet::default(), "no_consumption")),
-        [4]
+        [11]
     );
+    // Too few trials of a type to know its latencies: not judged.
+    let mut few = session(4, |_| true);
+    few.licks = Some(
+        few.trials
+            .iter()
+            .flat_map(|t| (0..15).map(move |k| t.reward_s.unwrap() + 1.0 + k as f64 / 7.0))
+            .collect(),
+    );
+    assert!(only(&few, &RuleSet::default(), "late_first_lick").is_empty());
 }
 
 #[test]
