@@ -1,9 +1,11 @@
 //! Photometry fits with δ weighted by the sensor kernel (`fit::dataset::with_sensor_kernel`,
 //! `trialdesk fit --sensor-decay`). With the plain window sum, α from the simulator's default
 //! sensor (rise 0.1 s, decay 0.6 s) comes out about half the truth (tests/photometry_recovery.rs
-//! explains why); with the kernel it must meet that file's stated target: α within 25 %, τ
-//! within 30 %, on the same three simulated subjects (4 days × 80 trials, CSC, λ 0.9, 20 %
-//! bleaching, motion dips), through ΔF/F and the photometry windows.
+//! explains why); with the kernel and the photometry defaults (latency 50 ms, the simulated
+//! sensor's onset) α must be within 10 % and τ within 20 %, on the same three simulated
+//! subjects (4 days × 80 trials, CSC, λ 0.9, 20 % bleaching, motion dips), through ΔF/F and the
+//! photometry windows. Measured: α +0.7, +1.9, +0.4 %; τ +0.5, +1.9, −12.8 % (with latency 0,
+//! before the default matched the sensor, α was 3–6 % low).
 
 use trialdesk::fit::bootstrap::tau_s;
 use trialdesk::fit::dataset::{self, SensorKernel};
@@ -85,8 +87,8 @@ fn kernel_weighted_fit_recovers_alpha_from_a_realistic_sensor() {
     for (seed, alpha, gamma) in [(11, 0.03, 0.98), (12, 0.06, 0.95), (13, 0.02, 0.97)] {
         let (a, tau, gain, plain) = recover(seed, alpha, gamma);
         assert!(gain.abs() < 0.07, "seed {seed}: gain error {gain:+.3}");
-        assert!(a.abs() < 0.25, "seed {seed}: α error {a:+.3}");
-        assert!(tau.abs() < 0.3, "seed {seed}: τ error {tau:+.3}");
+        assert!(a.abs() < 0.10, "seed {seed}: α error {a:+.3}");
+        assert!(tau.abs() < 0.2, "seed {seed}: τ error {tau:+.3}");
         assert!(
             a.abs() < plain.abs(),
             "seed {seed}: no better than the plain sum"
@@ -188,6 +190,9 @@ fn cli_applies_the_kernel_to_photometry_only() {
         text.contains("sensor kernel (rise 0.1 s, decay 0.6 s)"),
         "{text}"
     );
+    // The report names how ΔF/F was made, as `summary` does, and the latency in force.
+    assert!(text.contains("; ΔF/F: ") && text.contains("IRLS"), "{text}");
+    assert!(text.contains("0.05 s earlier (latency)"), "{text}");
     let without = fit(&["--signal", "photometry", "--sensor-decay", "0"]);
     assert!(without.status.success());
     assert!(!String::from_utf8_lossy(&without.stdout).contains("sensor kernel"));

@@ -26,8 +26,10 @@
 //! slope 1.01). A longer response latency only narrows it (α error with latency 0 / 0.15 /
 //! 0.25 / 0.35 s: −57/−44/−34/−25 % for seed 11, −50/−35/−26/−17 % for seed 12; a throwaway
 //! sweep, not kept). The fitter's kernel-weighted predictor (`fit --sensor-decay`,
-//! `fit::dataset::with_sensor_kernel`) removes it: `tests/fit_sensor_kernel.rs` holds α within
-//! 25 % on the same realistic sensor.
+//! `fit::dataset::with_sensor_kernel`, the default for photometry) removes it:
+//! `tests/fit_sensor_kernel.rs` holds α within 10 % on the same realistic sensor, and checks
+//! that the plain sum does worse. No test here pins the plain sum's bias: it is a known
+//! shortcoming of an option, not a result to keep.
 
 use trialdesk::fit::bootstrap::tau_s;
 use trialdesk::fit::{dataset, run_fit, FitOptions, NoProgress};
@@ -179,22 +181,6 @@ fn recovers_parameters_with_a_fast_sensor() {
         assert!(a.abs() < 0.2, "seed {}: α error {a:+.3}", t.seed);
         assert!(tau.abs() < 0.15, "seed {}: τ error {tau:+.3}", t.seed);
         assert!(gain.abs() < 0.05, "seed {}: gain error {gain:+.3}", t.seed);
-    }
-}
-
-/// The simulator's default sensor: the gain is recovered (within 5 %; measured ≤ 2.5 %), α is
-/// biased low by about half with the plain window sum (see the module overview). The α bounds pin that bias: if a
-/// change moves α out of them, look at this test and `tests/fit_sensor_kernel.rs`.
-#[test]
-fn realistic_sensor_gain_recovered_alpha_biased_low() {
-    for t in &SUBJECTS {
-        let (a, _, gain) = recover(t, Sensor::Default);
-        assert!(gain.abs() < 0.05, "seed {}: gain error {gain:+.3}", t.seed);
-        assert!(
-            (-0.7..-0.3).contains(&a),
-            "seed {}: α error {a:+.3} left the known-bias range",
-            t.seed
-        );
     }
 }
 

@@ -63,7 +63,7 @@ pub struct Args {
     #[arg(long, value_name = "START,END", allow_hyphen_values = true)]
     pub baseline_window: Option<String>,
     /// Response latency: windows are mapped onto model bins shifted back by it, seconds
-    /// [default: 0.05 for spikes; 0 for photometry]
+    /// [default: 0.05, as the simulated sensor's onset]
     #[arg(long)]
     pub latency: Option<f64>,
     /// Photometry: decay time constant of the sensor kernel, seconds; δ of every bin is weighted
@@ -271,11 +271,18 @@ fn read_marks(subject: &data::Subject, ignore_marks: bool) -> Result<Vec<MarkSta
     Ok(out)
 }
 
-fn describe_obs(o: &ObsOptions) -> String {
+/// The observation options in words; for photometry also how ΔF/F was made per session.
+fn describe_obs(o: &ObsOptions, subject: &data::Subject) -> String {
+    let method = match o.signal {
+        Signal::Photometry => crate::obs::photometry::photometry_methods(subject)
+            .map(|m| format!("; ΔF/F: {m}"))
+            .unwrap_or_default(),
+        _ => String::new(),
+    };
     format!(
         "{}; cue window [{}, {}] s, reward window [{}, {}] s after the event (the expected \
          time on omissions), baseline [{}, {}] s from cue onset; windows mapped onto model bins \
-         {} s earlier (latency)",
+         {} s earlier (latency){method}",
         o.signal.label(),
         o.cue_window.0,
         o.cue_window.1,
@@ -431,11 +438,11 @@ pub(crate) fn fit_subject(
             Some(k) => format!(
                 "{}; δ weighted by a sensor kernel (rise {} s, decay {} s) averaged over each \
                  window, so the gain is the peak response per unit δ",
-                describe_obs(&obs_opts),
+                describe_obs(&obs_opts, subject),
                 k.rise_s,
                 k.decay_s
             ),
-            None => describe_obs(&obs_opts),
+            None => describe_obs(&obs_opts, subject),
         },
         command: command_line(),
         sensitivity,
