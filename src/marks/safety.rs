@@ -85,3 +85,45 @@ pub(crate) fn open_error(path: &Path, e: std::io::Error) -> MarksError {
         MarksError::io(path, e)
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use crate::marks::{append, read_journal, MarkKind, MarkRow};
+
+    fn row() -> MarkRow {
+        MarkRow {
+            trial: Some(1),
+            mark: MarkKind::Exclude,
+            reason: "artifact".into(),
+            note: String::new(),
+            reviewer: "t".into(),
+            at: "2026-03-02T10:00:00Z".into(),
+        }
+    }
+
+    #[test]
+    fn a_dangling_link_is_refused_and_its_target_not_created() {
+        let tmp = tempfile::tempdir().unwrap();
+        let target = tmp.path().join("elsewhere.csv");
+        std::os::unix::fs::symlink(&target, tmp.path().join("marks.csv")).unwrap();
+        let e = append(tmp.path(), &row()).unwrap_err().to_string();
+        assert!(e.contains("marks.csv: is a symbolic link to"), "{e}");
+        assert!(e.contains("remove the link"), "{e}");
+        assert!(!target.exists());
+        let e = read_journal(tmp.path()).unwrap_err().to_string();
+        assert!(e.contains("symbolic link"), "{e}");
+    }
+
+    #[test]
+    fn a_journal_with_another_name_is_refused_until_it_has_its_own_file() {
+        let tmp = tempfile::tempdir().unwrap();
+        append(tmp.path(), &row()).unwrap();
+        let other = tmp.path().join("copy-elsewhere.csv");
+        std::fs::hard_link(tmp.path().join("marks.csv"), &other).unwrap();
+        let e = append(tmp.path(), &row()).unwrap_err().to_string();
+        assert!(e.contains("has 2 names (hard links)"), "{e}");
+        std::fs::remove_file(&other).unwrap();
+        append(tmp.path(), &row()).unwrap();
+        assert_eq!(read_journal(tmp.path()).unwrap().rows.len(), 2);
+    }
+}

@@ -71,6 +71,9 @@ where
             "is a folder; give a file name to write",
         ));
     }
+    if is_stream(path, old.as_ref()) {
+        return write_stream(path, write);
+    }
     let (tmp, file) = create_temp(dir, &name.to_string_lossy())?;
     let result = (|| {
         // A replaced regular file keeps its permissions (a link's target is not looked at).
@@ -89,6 +92,44 @@ where
         return Err(WriteError::io(path, e));
     }
     sync_dir(dir).map_err(|e| WriteError::io(path, e))
+}
+
+/// Whether `path` is something to write into rather than replace: a character device or a
+/// FIFO (`--out /dev/null`, a named pipe), or any path under /dev (but /dev/shm) or /proc (`/dev/stdout` is a
+/// link to `/proc/self/fd/1`). Renaming over those would destroy a device node or a system
+/// link, for root even /dev/null itself. A link elsewhere that points at a device is still
+/// replaced: that is how a planted link would reach a disk.
+fn is_stream(path: &Path, entry: Option<&std::fs::Metadata>) -> bool {
+    use std::os::unix::fs::FileTypeExt;
+    if let Some(t) = entry.map(|m| m.file_type()) {
+        if t.is_char_device() || t.is_fifo() {
+            return true;
+        }
+    }
+    let absolute = std::path::absolute(path).unwrap_or_else(|_| path.to_path_buf());
+    // /dev/shm is an ordinary (shared, world-writable) folder of files.
+    (absolute.starts_with("/dev") && !absolute.starts_with("/dev/shm"))
+        || absolute.starts_with("/proc")
+}
+
+/// Write into a device, FIFO or system path as it stands (never created, never renamed).
+fn write_stream<F>(path: &Path, write: F) -> Result<(), WriteError>
+where
+    F: FnOnce(&mut BufWriter<File>) -> io::Result<()>,
+{
+    let result = (|| {
+        use std::os::unix::fs::FileTypeExt;
+        let file = OpenOptions::new().write(true).open(path)?;
+        if file.metadata()?.file_type().is_block_device() {
+            return Err(io::Error::other(
+                "is a block device (a disk); trialdesk does not write tables to disks",
+            ));
+        }
+        let mut w = BufWriter::new(file);
+        write(&mut w)?;
+        w.flush()
+    })();
+    result.map_err(|e| WriteError::io(path, e))
 }
 
 /// The folder a relative or absolute file path lives in (`.` for a bare name).
@@ -215,6 +256,28 @@ mod tests {
         assert_eq!(std::fs::read_to_string(&out).unwrap(), "before");
         let names: Vec<_> = std::fs::read_dir(tmp.path()).unwrap().collect();
         assert_eq!(names.len(), 1, "temporary file left behind");
+    }
+
+    #[test]
+    fn devices_and_fifos_are_written_into_not_replaced() {
+        use std::os::unix::fs::FileTypeExt;
+        replace_file(Path::new("/dev/null"), b"gone\n").unwrap();
+        let t = std::fs::symlink_metadata("/dev/null").unwrap().file_type();
+        assert!(t.is_char_device(), "/dev/null was replaced");
+        let tmp = tempfile::tempdir().unwrap();
+        let fifo = tmp.path().join("pipe");
+        let made = std::process::Command::new("mkfifo").arg(&fifo).status();
+        assert!(made.unwrap().success());
+        let reader = {
+            let fifo = fifo.clone();
+            std::thread::spawn(move || std::fs::read_to_string(fifo).unwrap())
+        };
+        replace_file(&fifo, b"through the pipe").unwrap();
+        assert_eq!(reader.join().unwrap(), "through the pipe");
+        assert!(std::fs::symlink_metadata(&fifo)
+            .unwrap()
+            .file_type()
+            .is_fifo());
     }
 
     #[test]

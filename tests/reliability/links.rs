@@ -85,7 +85,8 @@ fn ok(args: &[&str]) {
 pub fn run(figures: &mut Figures) {
     let replaced = outputs_replace_links();
     figures.push(format!(
-        "outputs behind links: {replaced} replaced, 0 written through"
+        "outputs behind links: {replaced} replaced, 0 written through; /dev/null and \
+         /dev/stdout written into and left in place"
     ));
     let refused = journals_refused();
     figures.push(format!(
@@ -187,6 +188,18 @@ fn outputs_replace_links() -> usize {
             n += 1;
         }
     }
+
+    // Devices are written into, never replaced (as root a rename would remove /dev/null).
+    for dev in ["/dev/null", "/dev/stdout"] {
+        ok(&["summary", &s, "--format", "csv", "--out", dev]);
+    }
+    use std::os::unix::fs::FileTypeExt;
+    let null = std::fs::symlink_metadata("/dev/null").unwrap().file_type();
+    assert!(null.is_char_device(), "/dev/null was replaced");
+    assert!(std::fs::symlink_metadata("/dev/stdout")
+        .unwrap()
+        .file_type()
+        .is_symlink());
 
     // A hard link in --out keeps its other name's content.
     let out = lab.root.join("hard.csv");
