@@ -60,7 +60,7 @@ pub fn append(session_dir: &Path, row: &MarkRow) -> Result<(), MarksError> {
     // must not depend on a directory entry that is not yet on disk.
     let result = write_locked(&mut file, &path, &line, &row.reviewer).and_then(|created| {
         if created {
-            sync_dir(session_dir)
+            crate::safe_write::sync_dir(session_dir).map_err(|e| MarksError::io(session_dir, e))
         } else {
             Ok(())
         }
@@ -324,28 +324,6 @@ fn header_end(file: &mut File, path: &Path, len: u64) -> Result<HeaderEnd, Marks
         ));
     }
     Ok(HeaderEnd::At((lead + nl + 1) as u64))
-}
-
-/// Make a newly created file's directory entry durable.
-fn sync_dir(dir: &Path) -> Result<(), MarksError> {
-    let dir = if dir.as_os_str().is_empty() {
-        Path::new(".")
-    } else {
-        dir
-    };
-    match File::open(dir).and_then(|d| d.sync_all()) {
-        Ok(()) => Ok(()),
-        // Some file systems cannot sync a directory; the data itself is synced.
-        Err(e)
-            if matches!(
-                e.kind(),
-                std::io::ErrorKind::InvalidInput | std::io::ErrorKind::Unsupported
-            ) =>
-        {
-            Ok(())
-        }
-        Err(e) => Err(MarksError::io(dir, e)),
-    }
 }
 
 #[cfg(test)]
