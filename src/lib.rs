@@ -14,6 +14,7 @@ pub mod model;
 pub mod obs;
 pub mod photometry;
 pub mod plots;
+pub mod safe_write;
 pub mod simulate;
 pub mod suggest;
 pub mod summary;

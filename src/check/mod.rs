@@ -108,7 +108,8 @@ pub fn rules_diagnostic(file: &Path, error: &str) -> Diagnostic {
 /// Marks journal problems; `session` (when it loaded) lets marks be matched to trials.
 fn check_marks(dir: &Path, session: Option<&Session>, out: &mut Vec<Diagnostic>) {
     let path = dir.join(marks::MARKS_FILE);
-    if !path.exists() {
+    // Not `exists()`: that follows links, and a dangling marks.csv link must be reported.
+    if std::fs::symlink_metadata(&path).is_err() {
         return;
     }
     let journal = match marks::read_journal(dir) {

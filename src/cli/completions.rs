@@ -51,6 +51,17 @@ pub fn man_page() -> Result<Vec<u8>, std::io::Error> {
     Ok(buf)
 }
 
+/// One page per command and subcommand (as `clap_mangen::generate_to` lays them out), each
+/// written with [`crate::safe_write::replace_with`].
+fn write_pages(cmd: &clap::Command, dir: &std::path::Path) -> Result<(), CliError> {
+    for sub in cmd.get_subcommands().filter(|s| !s.is_hide_set()) {
+        write_pages(sub, dir)?;
+    }
+    let man = clap_mangen::Man::new(cmd.clone());
+    crate::safe_write::replace_with(&dir.join(man.get_filename()), |w| man.render(w))
+        .map_err(|e| CliError::failed(e.to_string()))
+}
+
 pub fn run(args: Args) -> CmdResult {
     to_stdout(&completion_script(args.shell))
 }
@@ -59,11 +70,10 @@ pub fn run_man(args: ManArgs) -> CmdResult {
     match args.out {
         None => to_stdout(&man_page()?),
         Some(dir) => {
-            std::fs::create_dir_all(&dir).map_err(|e| {
-                CliError::failed(format!("{}: cannot create folder: {e}", dir.display()))
-            })?;
-            clap_mangen::generate_to(super::Cli::command(), &dir)
-                .map_err(|e| CliError::failed(format!("{}: cannot write: {e}", dir.display())))?;
+            crate::safe_write::create_dirs(&dir).map_err(|e| CliError::failed(e.to_string()))?;
+            let mut cmd = super::Cli::command().disable_help_subcommand(true);
+            cmd.build();
+            write_pages(&cmd, &dir)?;
             eprintln!(
                 "wrote {} (and one page per command beside it)",
                 dir.join("trialdesk.1").display()

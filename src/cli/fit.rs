@@ -300,19 +300,18 @@ fn write_out(
     data: &fit::FitData,
     lambda_fitted: bool,
 ) -> Result<(), CliError> {
-    std::fs::create_dir_all(dir)
-        .map_err(|e| CliError::failed(format!("{}: cannot create folder: {e}", dir.display())))?;
+    crate::safe_write::create_dirs(dir).map_err(|e| CliError::failed(e.to_string()))?;
     let params_path = dir.join("params.csv");
     let mut buf = Vec::new();
     report::write_params_csv(&mut buf, &report::param_rows(out, data, lambda_fitted))?;
-    std::fs::write(&params_path, buf)
-        .map_err(|e| CliError::failed(format!("{}: cannot write: {e}", params_path.display())))?;
+    crate::safe_write::replace_file(&params_path, &buf)
+        .map_err(|e| CliError::failed(e.to_string()))?;
     let trials_path = dir.join("trials.csv");
     let mut buf = Vec::new();
     report::write_trials_csv(&mut buf, data, &out.predicted)
         .map_err(|e| CliError::failed(format!("{}: cannot write: {e}", trials_path.display())))?;
-    std::fs::write(&trials_path, buf)
-        .map_err(|e| CliError::failed(format!("{}: cannot write: {e}", trials_path.display())))?;
+    crate::safe_write::replace_file(&trials_path, &buf)
+        .map_err(|e| CliError::failed(e.to_string()))?;
     Ok(())
 }
 

@@ -94,11 +94,8 @@ pub fn run(args: Args) -> CmdResult {
         })
         .collect();
     if let Some(file) = &args.csv {
-        let mut out = std::fs::File::create(file)
-            .map_err(|e| CliError::failed(format!("{}: cannot write: {e}", file.display())))?;
-        write_csv(&mut out, &lines)
-            .and_then(|_| out.sync_all())
-            .map_err(|e| CliError::failed(format!("{}: cannot write: {e}", file.display())))?;
+        crate::safe_write::replace_with(file, |w| write_csv(w, &lines))
+            .map_err(|e| CliError::failed(e.to_string()))?;
         eprintln!("wrote {} row(s) to {}", lines.len(), file.display());
     }
     let stdout = std::io::stdout();

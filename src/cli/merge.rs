@@ -66,8 +66,8 @@ pub fn run(args: Args) -> CmdResult {
     let text = merge::to_csv(&merged).map_err(|e| CliError::failed(e.to_string()))?;
     match &args.out {
         Some(path) => {
-            std::fs::write(path, text)
-                .map_err(|e| CliError::failed(format!("{}: cannot write: {e}", path.display())))?;
+            crate::safe_write::replace_file(path, text.as_bytes())
+                .map_err(|e| CliError::failed(e.to_string()))?;
             eprintln!(
                 "merged {} of {} subject(s), {} row(s) into {}",
                 merged.subjects.len(),

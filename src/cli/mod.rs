@@ -94,7 +94,18 @@ pub type CmdResult = Result<i32, CliError>;
 
 /// Entry point of the binary; returns the process exit code.
 pub fn main() -> i32 {
-    let cli = match Cli::try_parse() {
+    run_args(std::env::args_os())
+}
+
+/// Run one command line (`args` starts with the program name) in this process and return its
+/// exit code; the binary's `main`, and tests that run thousands of commands (the reliability
+/// suite's fuzzer), share it.
+pub fn run_args<I, T>(args: I) -> i32
+where
+    I: IntoIterator<Item = T>,
+    T: Into<std::ffi::OsString> + Clone,
+{
+    let cli = match Cli::try_parse_from(args) {
         Ok(cli) => cli,
         Err(e) => {
             let code = if e.use_stderr() { 2 } else { 0 };

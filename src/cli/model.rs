@@ -113,13 +113,14 @@ pub fn run(args: Args) -> CmdResult {
     }
     let traces = model::run(&spans, subject.cue_names().len(), &params);
 
-    let sink: Box<dyn Write> = if args.out.as_os_str() == "-" {
-        Box::new(std::io::stdout().lock())
-    } else {
-        let file = std::fs::File::create(&args.out)
-            .map_err(|e| CliError::failed(format!("{}: cannot create: {e}", args.out.display())))?;
-        Box::new(file)
-    };
+    if args.out.as_os_str() != "-" {
+        crate::safe_write::replace_with(&args.out, |w| {
+            write_traces(Box::new(w), subject, &spans, &traces, params.dt)
+        })
+        .map_err(|e| CliError::failed(e.to_string()))?;
+        return Ok(0);
+    }
+    let sink: Box<dyn Write> = Box::new(std::io::stdout().lock());
     match write_traces(sink, subject, &spans, &traces, params.dt) {
         Ok(()) => Ok(0),
         // `trialdesk model ... --out - | head` is not a failure.
@@ -129,7 +130,7 @@ pub fn run(args: Args) -> CmdResult {
 }
 
 fn write_traces(
-    sink: Box<dyn Write>,
+    sink: Box<dyn Write + '_>,
     subject: &data::Subject,
     spans: &[model::TrialSpan],
     traces: &model::TdRun,

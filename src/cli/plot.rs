@@ -162,8 +162,8 @@ fn write_svg(
     written: &mut Vec<PathBuf>,
 ) -> Result<(), CliError> {
     let path = dir.join(name);
-    std::fs::write(&path, svg)
-        .map_err(|e| CliError::failed(format!("{}: cannot write: {e}", path.display())))?;
+    crate::safe_write::replace_file(&path, svg.as_bytes())
+        .map_err(|e| CliError::failed(e.to_string()))?;
     written.push(path);
     Ok(())
 }
@@ -228,9 +228,7 @@ pub fn run(args: Args) -> CmdResult {
         }
     }
 
-    std::fs::create_dir_all(&args.out).map_err(|e| {
-        CliError::failed(format!("{}: cannot create folder: {e}", args.out.display()))
-    })?;
+    crate::safe_write::create_dirs(&args.out).map_err(|e| CliError::failed(e.to_string()))?;
     let name = subject
         .sessions
         .first()

@@ -207,14 +207,17 @@ pub fn save_unsaved_elsewhere(
             "{}-{stamp}",
             session.name.replace(['/', '\\'], "_")
         ));
-        let result = std::fs::create_dir_all(&dir)
-            .map_err(|e| format!("{}: {e}", dir.display()))
-            .and_then(|_| {
-                for row in &m.unsaved {
-                    crate::marks::append(&dir, row).map_err(|e| e.to_string())?;
-                }
-                Ok(dir.join(crate::marks::MARKS_FILE))
-            });
+        let file = dir.join(crate::marks::MARKS_FILE);
+        // A folder of its own, written whole: the base may be a shared temporary folder, so
+        // nothing there is followed or appended to (`safe_write`).
+        let result = crate::marks::journal_text(&m.unsaved)
+            .map_err(|e| e.to_string())
+            .and_then(|text| {
+                crate::safe_write::create_dirs(&dir)
+                    .and_then(|_| crate::safe_write::replace_file(&file, text.as_bytes()))
+                    .map_err(|e| e.to_string())
+            })
+            .map(|_| file);
         out.push((session.dir.clone(), result));
     }
     out

@@ -169,8 +169,8 @@ pub fn run(args: Args) -> CmdResult {
         _ => crate::util::printable(&text).into_owned(),
     };
     match &args.out {
-        Some(path) => std::fs::write(path, text)
-            .map_err(|e| CliError::failed(format!("{}: {e}", path.display())))?,
+        Some(path) => crate::safe_write::replace_file(path, text.as_bytes())
+            .map_err(|e| CliError::failed(e.to_string()))?,
         None => {
             let mut out = std::io::stdout().lock();
             match out.write_all(text.as_bytes()).and_then(|_| out.flush()) {

@@ -147,6 +147,8 @@ pub enum SavedFitError {
     },
     #[error("{path}: not a valid saved fit: {message}")]
     Parse { path: PathBuf, message: String },
+    #[error(transparent)]
+    Write(#[from] crate::safe_write::WriteError),
 }
 
 pub fn saved_path(subject_root: &Path) -> PathBuf {
@@ -169,8 +171,8 @@ pub fn load_saved(subject_root: &Path) -> Option<Result<SavedFit, SavedFitError>
     )
 }
 
-/// Write the fit next to the sessions, replacing the previous one atomically (write to a
-/// temporary file, then rename) so a reader never sees half a file.
+/// Write the fit next to the sessions, replacing the previous one atomically
+/// ([`crate::safe_write::replace_file`]) so a reader never sees half a file.
 pub fn save(subject_root: &Path, fit: &SavedFit) -> Result<PathBuf, SavedFitError> {
     let path = saved_path(subject_root);
     let text = toml::to_string(fit).map_err(|e| SavedFitError::Parse {
@@ -181,13 +183,7 @@ pub fn save(subject_root: &Path, fit: &SavedFit) -> Result<PathBuf, SavedFitErro
         "# Written by `trialdesk fit`; rerunning the fit replaces it. gamma and lambda are per\n\
          # model bin of width dt seconds.\n{text}"
     );
-    let tmp = subject_root.join(format!(".{SAVED_FIT_FILE}.tmp"));
-    let io = |source| SavedFitError::Io {
-        path: path.clone(),
-        source,
-    };
-    std::fs::write(&tmp, body).map_err(io)?;
-    std::fs::rename(&tmp, &path).map_err(io)?;
+    crate::safe_write::replace_file(&path, body.as_bytes())?;
     Ok(path)
 }
 

@@ -6,10 +6,12 @@ use super::read::{
     fingerprint, identity, is_header_prefix, lock_within, parse_row, valid_at, Columns, COLUMNS,
     HEADER_LINE, MAX_JOURNAL_BYTES,
 };
+use super::safety;
 use super::{MarkKind, MarkRow, MarksError, MARKS_FILE, TORN_LINE_REASON};
 use std::collections::BTreeMap;
 use std::fs::{File, OpenOptions};
 use std::io::{Read, Seek, SeekFrom, Write};
+use std::os::unix::fs::OpenOptionsExt;
 use std::path::Path;
 use std::sync::Mutex;
 
@@ -36,17 +38,17 @@ const WRITE_LOCK_WAIT: std::time::Duration = std::time::Duration::from_secs(10);
 pub fn append(session_dir: &Path, row: &MarkRow) -> Result<(), MarksError> {
     let path = session_dir.join(MARKS_FILE);
     let line = encode_row(row).map_err(|m| MarksError::invalid(&path, m))?;
-    if let Ok(m) = std::fs::metadata(&path) {
-        if !m.is_file() {
-            return Err(MarksError::invalid(&path, "not a regular file"));
-        }
-    }
+    safety::check_entry(&path)?;
     let mut file = OpenOptions::new()
         .read(true)
         .append(true)
         .create(true)
+        .custom_flags(safety::OPEN_FLAGS)
         .open(&path)
-        .map_err(|e| MarksError::io(&path, e))?;
+        .map_err(|e| safety::open_error(&path, e))?;
+    // The entry may have changed between the look and the open: check what was opened.
+    let opened = file.metadata().map_err(|e| MarksError::io(&path, e))?;
+    safety::check_meta(&path, &opened)?;
     lock_within(&file, &path, WRITE_LOCK_WAIT, false).map_err(|e| match e {
         MarksError::Invalid { path, message } => MarksError::Invalid {
             path,
@@ -58,7 +60,7 @@ pub fn append(session_dir: &Path, row: &MarkRow) -> Result<(), MarksError> {
     // must not depend on a directory entry that is not yet on disk.
     let result = write_locked(&mut file, &path, &line, &row.reviewer).and_then(|created| {
         if created {
-            sync_dir(session_dir)
+            crate::safe_write::sync_dir(session_dir).map_err(|e| MarksError::io(session_dir, e))
         } else {
             Ok(())
         }
@@ -101,6 +103,15 @@ pub fn encode_row(row: &MarkRow) -> Result<String, String> {
     }
     out.push('\n');
     Ok(out)
+}
+
+/// A whole journal (header and `rows`) as text, for writing a new file in one piece.
+pub fn journal_text(rows: &[MarkRow]) -> Result<String, String> {
+    let mut text = HEADER_LINE.to_string();
+    for row in rows {
+        text.push_str(&encode_row(row)?);
+    }
+    Ok(text)
 }
 
 /// The current time as RFC 3339 UTC with milliseconds (`2026-03-02T09:30:00.123Z`).
@@ -313,28 +324,6 @@ fn header_end(file: &mut File, path: &Path, len: u64) -> Result<HeaderEnd, Marks
         ));
     }
     Ok(HeaderEnd::At((lead + nl + 1) as u64))
-}
-
-/// Make a newly created file's directory entry durable.
-fn sync_dir(dir: &Path) -> Result<(), MarksError> {
-    let dir = if dir.as_os_str().is_empty() {
-        Path::new(".")
-    } else {
-        dir
-    };
-    match File::open(dir).and_then(|d| d.sync_all()) {
-        Ok(()) => Ok(()),
-        // Some file systems cannot sync a directory; the data itself is synced.
-        Err(e)
-            if matches!(
-                e.kind(),
-                std::io::ErrorKind::InvalidInput | std::io::ErrorKind::Unsupported
-            ) =>
-        {
-            Ok(())
-        }
-        Err(e) => Err(MarksError::io(dir, e)),
-    }
 }
 
 #[cfg(test)]

@@ -41,8 +41,9 @@
 mod append;
 mod csvline;
 mod read;
+mod safety;
 
-pub use append::{append, encode_row, now_rfc3339, reviewer_name};
+pub use append::{append, encode_row, journal_text, now_rfc3339, reviewer_name};
 pub use csvline::MAX_RECORD_BYTES;
 pub use read::{read_journal, MAX_JOURNAL_BYTES};
 

@@ -5,6 +5,7 @@ use super::csvline::{is_blank, parse_fields, RawRecord, Records, MAX_RECORD_BYTE
 use super::{Journal, MarkKind, MarkRow, MarksError, MARKS_FILE};
 use std::fs::{File, TryLockError};
 use std::io::{Read, Seek, SeekFrom};
+use std::os::unix::fs::OpenOptionsExt;
 use std::path::Path;
 use std::time::Duration;
 
@@ -74,27 +75,24 @@ impl Journal {
     /// the start and the count is of all its rows. On error the journal is left as it was.
     pub fn refresh(&mut self) -> Result<usize, MarksError> {
         let path = self.path.clone();
-        match std::fs::metadata(&path) {
-            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
-                *self = Journal {
-                    path,
-                    ..Journal::default()
-                };
-                return Ok(0);
-            }
-            Err(e) => return Err(MarksError::io(&path, e)),
-            // A FIFO or device named marks.csv would block or never end.
-            Ok(m) if !m.is_file() => {
-                return Err(MarksError::invalid(&path, "not a regular file"));
-            }
-            Ok(_) => {}
+        if super::safety::check_entry(&path)?.is_none() {
+            *self = Journal {
+                path,
+                ..Journal::default()
+            };
+            return Ok(0);
         }
-        let mut file = File::open(&path).map_err(|e| MarksError::io(&path, e))?;
+        let mut file = std::fs::OpenOptions::new()
+            .read(true)
+            .custom_flags(super::safety::OPEN_FLAGS | libc::O_NONBLOCK)
+            .open(&path)
+            .map_err(|e| super::safety::open_error(&path, e))?;
         // Best effort: without the lock (a file system without locks, or a writer stuck
         // holding it) the read may see a write in progress, reported as a torn tail and
         // picked up whole by the next refresh. Waiting forever would freeze the reviewer.
         let _ = lock_within(&file, &path, READ_LOCK_WAIT, true);
         let meta = file.metadata().map_err(|e| MarksError::io(&path, e))?;
+        super::safety::check_meta(&path, &meta)?;
         let len = meta.len();
         if len > MAX_JOURNAL_BYTES {
             return Err(MarksError::invalid(

@@ -25,6 +25,8 @@ pub enum WriteError {
         #[source]
         source: io::Error,
     },
+    #[error(transparent)]
+    Write(#[from] crate::safe_write::WriteError),
 }
 
 fn io_at(path: &Path) -> impl FnOnce(io::Error) -> WriteError + '_ {
@@ -60,10 +62,10 @@ pub fn write_subject(sim: &Simulated, out: &Path, force: bool) -> Result<(), Wri
             clear_simulated(out)?;
         }
     }
-    fs::create_dir_all(out).map_err(io_at(out))?;
+    crate::safe_write::create_dirs(out)?;
     for session in &sim.subject.sessions {
         let dir = out.join(&session.name);
-        fs::create_dir_all(&dir).map_err(io_at(&dir))?;
+        crate::safe_write::create_dirs(&dir)?;
         write_session(session, &dir)?;
     }
     if sim.config.faults.any() {
@@ -80,7 +82,10 @@ pub fn write_subject(sim: &Simulated, out: &Path, force: bool) -> Result<(), Wri
         })?;
     }
     let path = out.join("truth.toml");
-    fs::write(&path, Truth::of(sim).to_toml()).map_err(io_at(&path))
+    Ok(crate::safe_write::replace_file(
+        &path,
+        Truth::of(sim).to_toml().as_bytes(),
+    )?)
 }
 
 /// Injected faults, one row per trial (`trial` empty for a whole-session fault), written
@@ -146,7 +151,7 @@ fn write_session(session: &Session, dir: &Path) -> Result<(), WriteError> {
     })
     .expect("plain tables serialise");
     let path = dir.join("session.toml");
-    fs::write(&path, toml_text).map_err(io_at(&path))?;
+    crate::safe_write::replace_file(&path, toml_text.as_bytes())?;
 
     let opt = |x: Option<f64>| x.map(fmt_f64).unwrap_or_default();
     write_csv(&dir.join("trials.csv"), |w| {
@@ -210,8 +215,5 @@ fn write_csv(
     path: &Path,
     body: impl FnOnce(&mut BufWriter<fs::File>) -> io::Result<()>,
 ) -> Result<(), WriteError> {
-    let file = fs::File::create(path).map_err(io_at(path))?;
-    let mut w = BufWriter::new(file);
-    body(&mut w).map_err(io_at(path))?;
-    w.flush().map_err(io_at(path))
+    Ok(crate::safe_write::replace_with(path, body)?)
 }

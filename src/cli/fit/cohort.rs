@@ -48,8 +48,8 @@ pub(super) fn run(args: &Args, opts: &FitOptions, which: Shard) -> CmdResult {
         if let Some(dir) = &out_dir {
             // The full report beside the tables: the table below is only the headline.
             let path = dir.join("report.txt");
-            std::fs::write(&path, &fitted.text)
-                .map_err(|e| CliError::failed(format!("{}: cannot write: {e}", path.display())))?;
+            crate::safe_write::replace_file(&path, fitted.text.as_bytes())
+                .map_err(|e| CliError::failed(e.to_string()))?;
         }
         Ok::<SubjectFit, CliError>(fitted)
     });
