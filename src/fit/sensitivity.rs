@@ -9,7 +9,7 @@
 
 use super::optimise::{self, FitResult};
 use super::report::num;
-use super::{validate, FitData, FitError, FitOptions, FitOutcome, Problem, Progress};
+use super::{validate, FitData, FitError, FitOptions, FitOutcome, Progress};
 use crate::suggest::{counts_by_rule, Suggestion};
 use std::collections::BTreeSet;
 
@@ -101,7 +101,7 @@ pub fn sensitivity(
         Ok(i) => i,
         Err(error) => return Sensitivity::Failed { n_trials, error },
     };
-    let problem = Problem::new(&reduced, outcome.model, opts.fit_lambda, opts.lambda);
+    let problem = opts.problem(&reduced, outcome.model);
     progress.phase("sensitivity refit", opts.search.budget(&problem) as u64);
     let fresh = optimise::fit_multistart(&problem, &included, &opts.search, progress);
     let warm = optimise::refine(
