@@ -87,6 +87,7 @@ fn fit_writes_tables_report_and_saved_fit() {
             "alpha",
             "gamma",
             "tau_s",
+            "lambda",
             "gain",
             "baseline_cue",
             "baseline_reward"

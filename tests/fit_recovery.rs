@@ -15,6 +15,9 @@ use trialdesk::model::Representation;
 fn quick_opts(spec: &SyntheticSpec) -> FitOptions {
     FitOptions {
         representation: spec.representation,
+        // λ fixed at the generating value: these checks are about α and γ (the default,
+        // fitted λ, is checked by tests/fit_defaults.rs).
+        lambda: Some(spec.lambda),
         bootstrap: 0,
         compare: false,
         ..Default::default()
@@ -94,6 +97,7 @@ fn bootstrap_intervals_cover_truth() {
     };
     let (_, data) = fit_data(&spec);
     let opts = FitOptions {
+        lambda: Some(spec.lambda),
         bootstrap: 16,
         compare: false,
         ..Default::default()
@@ -121,6 +125,7 @@ fn comparison_prefers_the_generating_model() {
     };
     let (_, data) = fit_data(&spec);
     let opts = FitOptions {
+        lambda: Some(spec.lambda),
         bootstrap: 0,
         ..Default::default()
     };
@@ -153,6 +158,7 @@ fn flat_gamma_is_flagged_and_its_interval_withheld() {
     };
     let (_, data) = fit_data(&spec);
     let opts = FitOptions {
+        lambda: Some(spec.lambda),
         bootstrap: 4,
         compare: false,
         ..Default::default()

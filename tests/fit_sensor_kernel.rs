@@ -60,7 +60,7 @@ fn recover(seed: u64, alpha: f64, gamma: f64) -> (f64, f64, f64, f64) {
     let weighted = dataset::with_sensor_kernel(plain.clone(), k, &obs_opts);
     let opts = FitOptions {
         representation: Representation::Csc,
-        lambda: c.td.lambda,
+        lambda: Some(c.td.lambda),
         bootstrap: 0,
         compare: false,
         ..Default::default()

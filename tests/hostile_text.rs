@@ -38,6 +38,7 @@ fn hostile_subject() -> (tempfile::TempDir, PathBuf) {
     let o = Command::new(BIN)
         .args(["simulate", subject.to_str().unwrap()])
         .args(["--seed", "3", "--days", "2", "--trials-per-day", "40"])
+        .args(["--subject", "m-041"])
         .output()
         .unwrap();
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));

@@ -27,9 +27,15 @@ type Row = (String, i64, usize, f64, f64, f64);
 fn read_rows(text: &str) -> Vec<Row> {
     let mut rdr = csv::Reader::from_reader(text.as_bytes());
     let header: Vec<String> = rdr.headers().unwrap().iter().map(String::from).collect();
+    // The brief's six columns first; `trialdesk model` adds the trial description after them
+    // (the numpy reference writes only the six).
     assert_eq!(
-        header,
+        header[..6],
         ["session", "trial", "bin", "time_s", "value", "delta"]
+    );
+    assert!(
+        header.len() == 6 || header[6..] == ["cue", "trial_type", "outcome", "aligned_to"],
+        "{header:?}"
     );
     rdr.records()
         .map(|r| {
@@ -222,8 +228,14 @@ fn bad_arguments_exit_2_with_a_clear_message() {
         assert!(err.contains(message), "{args:?}: {err}");
         assert!(o.stdout.is_empty());
     }
-    // Missing required options: clap's usage error, also exit 2.
+    // Neither --alpha/--gamma nor a saved fit: a usage error that says both ways out.
     let o = trialdesk(&["model", s, "--out", "-"]);
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{err}");
+    assert!(err.contains("no saved fit at"), "{err}");
+    assert!(err.contains("trialdesk-fit.toml"), "{err}");
+    // Only one of the pair: clap's usage error.
+    let o = trialdesk(&["model", s, "--alpha", "0.1", "--out", "-"]);
     assert_eq!(o.status.code(), Some(2));
 }
 
@@ -246,4 +258,176 @@ fn data_that_does_not_load_exits_1() {
     assert_eq!(o.status.code(), Some(1), "{err}");
     assert!(err.contains("no-such-subject"), "{err}");
     assert!(!out.exists(), "nothing written on failure");
+}
+
+/// Copy of the fixture subject in a temporary folder (so a saved fit can be put beside it).
+fn fixture_copy(dir: &Path) -> PathBuf {
+    fn copy(from: &Path, to: &Path) {
+        std::fs::create_dir_all(to).unwrap();
+        for e in std::fs::read_dir(from).unwrap() {
+            let p = e.unwrap().path();
+            let target = to.join(p.file_name().unwrap());
+            if p.is_dir() {
+                copy(&p, &target);
+            } else {
+                std::fs::copy(&p, &target).unwrap();
+            }
+        }
+    }
+    let to = dir.join("subject");
+    copy(&fixtures().join("subject"), &to);
+    to
+}
+
+fn saved_fit(alpha: f64) -> trialdesk::fit::saved::SavedFit {
+    use trialdesk::fit::saved::{Baselines, SavedFit};
+    SavedFit {
+        alpha,
+        gamma: 0.95,
+        lambda: 0.9,
+        dt: 0.05,
+        representation: "microstimulus".into(),
+        gain: 2.0,
+        baselines: Baselines::default(),
+        fitted_at: "2026-03-10T08:00:00Z".into(),
+        n_excluded: 0,
+        ignore_marks: false,
+        lambda_fitted: true,
+        log_likelihood: None,
+        n_observations: None,
+        unit: None,
+        latency_s: None,
+        cue_window_s: None,
+        reward_window_s: None,
+        baseline_window_s: None,
+        sensor_rise_s: None,
+        sensor_decay_s: None,
+    }
+}
+
+/// Without --alpha/--gamma the saved fit gives every parameter, stderr says so, and the traces
+/// are the ones the same parameters give on the command line (the numpy-checked path).
+#[test]
+fn saved_fit_supplies_the_parameters() {
+    let dir = tempfile::tempdir().unwrap();
+    let subject = fixture_copy(dir.path());
+    trialdesk::fit::saved::save(&subject, &saved_fit(0.3)).unwrap();
+    let s = subject.to_str().unwrap();
+    let from_saved = trialdesk(&["model", s, "--out", "-"]);
+    let err = String::from_utf8_lossy(&from_saved.stderr);
+    assert!(from_saved.status.success(), "{err}");
+    assert!(err.contains("parameters from the saved fit"), "{err}");
+    assert!(err.contains("trialdesk-fit.toml"), "{err}");
+    assert!(
+        err.contains("microstimulus alpha=0.3 gamma=0.95 lambda=0.9"),
+        "{err}"
+    );
+    let given = trialdesk(&[
+        "model",
+        s,
+        "--alpha",
+        "0.3",
+        "--gamma",
+        "0.95",
+        "--lambda",
+        "0.9",
+        "--representation",
+        "microstimulus",
+        "--out",
+        "-",
+    ]);
+    assert!(given.status.success());
+    assert_eq!(from_saved.stdout, given.stdout);
+    // A session folder finds its subject's saved fit.
+    let one = trialdesk(&[
+        "model",
+        subject.join("z-first").to_str().unwrap(),
+        "--out",
+        "-",
+    ]);
+    assert!(
+        one.status.success(),
+        "{}",
+        String::from_utf8_lossy(&one.stderr)
+    );
+    // Options that belong to --alpha/--gamma are refused with a saved fit.
+    let mixed = trialdesk(&["model", s, "--lambda", "0", "--out", "-"]);
+    assert_eq!(mixed.status.code(), Some(2));
+}
+
+/// A saved fit outside the model's ranges is refused, naming the file and the field.
+#[test]
+fn invalid_saved_fit_is_refused_with_file_and_field() {
+    let dir = tempfile::tempdir().unwrap();
+    let subject = fixture_copy(dir.path());
+    trialdesk::fit::saved::save(&subject, &saved_fit(1.5)).unwrap();
+    let o = trialdesk(&["model", subject.to_str().unwrap(), "--out", "-"]);
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(1), "{err}");
+    assert!(
+        err.contains("trialdesk-fit.toml: field `alpha`: 1.5 is out of range"),
+        "{err}"
+    );
+    assert!(o.stdout.is_empty());
+}
+
+/// Each bin row says what trial it belongs to and what bin 0 is aligned to; time_s is exact.
+#[test]
+fn rows_describe_their_trial_and_alignment() {
+    let subject = fixtures().join("subject");
+    let o = trialdesk(&[
+        "model",
+        subject.to_str().unwrap(),
+        "--alpha",
+        "0.1",
+        "--gamma",
+        "0.9",
+        "--out",
+        "-",
+    ]);
+    assert!(o.status.success());
+    let text = String::from_utf8(o.stdout).unwrap();
+    let mut rdr = csv::Reader::from_reader(text.as_bytes());
+    let rows: Vec<csv::StringRecord> = rdr.records().map(|r| r.unwrap()).collect();
+    let first = |session: &str, trial: &str| {
+        rows.iter()
+            .find(|r| &r[0] == session && &r[1] == trial)
+            .unwrap_or_else(|| panic!("{session} {trial}"))
+    };
+    // Fixture z-first/trials.csv: 1 tone-hi rewarded, 2 tone-lo (no reward_delay_s),
+    // 4 uncued reward, 5 tone-hi without its reward.
+    let desc = |r: &csv::StringRecord| {
+        (
+            r[6].to_string(),
+            r[7].to_string(),
+            r[8].to_string(),
+            r[9].to_string(),
+        )
+    };
+    let s = |a: &str, b: &str, c: &str, d: &str| {
+        (a.to_string(), b.to_string(), c.to_string(), d.to_string())
+    };
+    assert_eq!(
+        desc(first("z-first", "1")),
+        s("tone-hi", "cs_plus", "reward", "cue_onset")
+    );
+    assert_eq!(
+        desc(first("z-first", "2")),
+        s("tone-lo", "cs_minus", "none", "cue_onset")
+    );
+    assert_eq!(
+        desc(first("z-first", "4")),
+        s("", "uncued", "reward", "reward")
+    );
+    assert_eq!(
+        desc(first("z-first", "5")),
+        s("tone-hi", "cs_plus", "omission", "cue_onset")
+    );
+    // time_s = bin × 0.05 written exactly (3 × 0.05 is 0.15000000000000002 in binary).
+    for r in &rows {
+        let bin: u64 = r[2].parse().unwrap();
+        let want = format!("{}.{:02}", bin * 5 / 100, bin * 5 % 100);
+        let want = want.trim_end_matches('0').trim_end_matches('.');
+        assert_eq!(&r[3], want, "bin {bin}");
+    }
 }

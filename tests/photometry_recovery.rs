@@ -117,7 +117,7 @@ fn recover(t: &Truth, sensor: Sensor) -> (f64, f64, f64) {
     let data = dataset::build(subject, &obs, &obs_opts, c.td.dt, &[], false);
     let opts = FitOptions {
         representation: Representation::Csc,
-        lambda: c.td.lambda,
+        lambda: Some(c.td.lambda),
         bootstrap: 0,
         compare: false,
         ..Default::default()

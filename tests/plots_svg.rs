@@ -211,12 +211,17 @@ fn heatmap_has_one_rect_per_cell_and_clean_row_labels() {
         rows,
         from_s: -1.0,
         bin_s: 0.25,
-        events: vec![(0.0, "cue".into()), (1.5, "reward <expected>".into())],
+        groups: vec![("rewarded".into(), 7)],
+        row_events: (0..7)
+            .map(|_| vec![(0.0, "cue".into()), (1.5, "reward <expected>".into())])
+            .collect(),
         unit: "spikes/s".into(),
     };
     let empty = HeatMap {
         rows: Vec::new(),
         row_labels: Vec::new(),
+        row_events: Vec::new(),
+        groups: Vec::new(),
         ..map.clone()
     };
     let base = count(&parse(&plots::heatmap(&empty).unwrap()), "rect");
@@ -232,4 +237,57 @@ fn heatmap_has_one_rect_per_cell_and_clean_row_labels() {
         7 + 2,
         "seven row labels, the caption and the title"
     );
+}
+
+/// Day axes: tick labels are whole days, each at most once along an axis (half-day ticks
+/// rounded to whole numbers used to print "1 2 2 2 3 4 4").
+#[test]
+fn day_axis_ticks_are_whole_distinct_days() {
+    for n in [2usize, 5, 7, 8, 14] {
+        let days: Vec<DayRow> = (1..=n).map(|d| day(d, "tone-hi", true)).collect();
+        let svg = plots::day_curves("m-1", &days, "spikes/s").unwrap();
+        let doc = parse(&svg);
+        // Tick labels of one x axis share a y coordinate; the two panels sit side by side.
+        let width: f64 = doc
+            .root_element()
+            .attribute("width")
+            .and_then(|v| v.parse().ok())
+            .unwrap();
+        let mut rows: std::collections::BTreeMap<(i64, bool), Vec<String>> = Default::default();
+        for t in doc.descendants().filter(|n| n.tag_name().name() == "text") {
+            let y: f64 = t
+                .attribute("y")
+                .and_then(|v| v.parse().ok())
+                .unwrap_or(f64::NAN);
+            let x: f64 = t
+                .attribute("x")
+                .and_then(|v| v.parse().ok())
+                .unwrap_or(f64::NAN);
+            let text = t.text().unwrap_or("").trim().to_string();
+            if !text.is_empty() && y.is_finite() && x.is_finite() {
+                rows.entry((y.round() as i64, x < width / 2.0))
+                    .or_default()
+                    .push(text);
+            }
+        }
+        let axes: Vec<&Vec<String>> = rows.values().filter(|v| v.len() >= 2).collect();
+        assert!(!axes.is_empty(), "{n} days: no x axis found");
+        for labels in axes {
+            // Only rows of plain numbers are tick rows.
+            if !labels.iter().all(|l| l.parse::<f64>().is_ok()) {
+                continue;
+            }
+            let mut seen = std::collections::HashSet::new();
+            for l in labels {
+                assert!(
+                    !l.contains('.'),
+                    "{n} days: tick label {l} is not a whole day"
+                );
+                assert!(
+                    seen.insert(l.clone()),
+                    "{n} days: tick {l} twice in {labels:?}"
+                );
+            }
+        }
+    }
 }

@@ -64,7 +64,8 @@ fn demo_data_is_reproduced_byte_for_byte() {
     let (out, args) = readme_command();
     let shipped = repo(&out);
     let tmp = tempfile::tempdir().unwrap();
-    let fresh = tmp.path().join("subject");
+    // The same folder name as the shipped copy: simulate names the subject after it.
+    let fresh = tmp.path().join(shipped.file_name().unwrap());
     let args: Vec<&str> = args.iter().map(String::as_str).collect();
     let o = simulate(&fresh, &args);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
@@ -109,7 +110,10 @@ fn demo_data_is_under_five_megabytes() {
     assert!(total < 5_000_000, "demo subject is {total} bytes");
 }
 
-const SMALL: [&str; 6] = [
+/// A small subject; the id is fixed so that folders of different names hold the same bytes.
+const SMALL: [&str; 8] = [
+    "--subject",
+    "m-1",
     "--days",
     "2",
     "--trials-per-day",
@@ -145,7 +149,7 @@ fn photometry_switch_leaves_other_outputs_unchanged() {
     let on = tmp.path().join("on");
     let off = tmp.path().join("off");
     assert!(simulate(&on, &SMALL).status.success());
-    assert!(simulate(&off, &SMALL[..4]).status.success());
+    assert!(simulate(&off, &SMALL[..6]).status.success());
     let (on, off) = (tree(&on), tree(&off));
     for (name, bytes) in &off {
         if name != "truth.toml" {
@@ -250,14 +254,7 @@ fn photometry_subject_with_artifacts_checks_clean() {
     let tmp = tempfile::tempdir().unwrap();
     let out = tmp.path().join("m-042");
     let mut args = SMALL.to_vec();
-    args.extend([
-        "--bleaching",
-        "0.3:900",
-        "--motion",
-        "1:0.2:1",
-        "--subject",
-        "m-042",
-    ]);
+    args.extend(["--bleaching", "0.3:900", "--motion", "1:0.2:1"]);
     assert!(simulate(&out, &args).status.success());
     let o = bin().arg("check").arg(&out).output().unwrap();
     assert_eq!(
@@ -281,4 +278,78 @@ fn demo_data_checks_clean() {
         String::from_utf8_lossy(&o.stdout),
         String::from_utf8_lossy(&o.stderr)
     );
+}
+
+/// The subject is named after OUT's folder unless --subject says otherwise, so subjects
+/// simulated side by side with the same dates stay apart: `summary`, `fit` and `plot` take
+/// the cohort folder, and only a true duplicate (same subject, same session name) is refused,
+/// naming both folders.
+#[test]
+fn subjects_are_named_after_their_folder_and_share_dates_in_a_cohort() {
+    let tmp = tempfile::tempdir().unwrap();
+    let cohort = tmp.path().join("cohort");
+    for (name, seed) in [("m-a", "1"), ("m-b", "2")] {
+        let o = simulate(
+            &cohort.join(name),
+            &["--seed", seed, "--days", "2", "--trials-per-day", "30"],
+        );
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    }
+    let meta = std::fs::read_to_string(cohort.join("m-b/2026-03-02/session.toml")).unwrap();
+    assert!(meta.contains("subject = \"m-b\""), "{meta}");
+    let o = simulate(
+        &tmp.path().join("x"),
+        &["--subject", "m-9", "--days", "1", "--trials-per-day", "20"],
+    );
+    assert!(o.status.success());
+    let meta = std::fs::read_to_string(tmp.path().join("x/2026-03-02/session.toml")).unwrap();
+    assert!(meta.contains("subject = \"m-9\""), "{meta}");
+
+    let run = |args: &[&str]| bin().args(args).output().unwrap();
+    let c = cohort.to_str().unwrap();
+    let o = run(&["summary", c]);
+    assert!(
+        o.status.success(),
+        "summary: {}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let o = run(&["fit", c, "--bootstrap", "0", "--no-compare", "--no-save"]);
+    assert!(
+        o.status.success(),
+        "fit: {}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let plots = tmp.path().join("plots");
+    let o = run(&["plot", c, "--out", plots.to_str().unwrap()]);
+    assert!(
+        o.status.success(),
+        "plot: {}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    assert!(plots.join("m-a/heatmap_2026-03-02.svg").is_file());
+    assert!(plots.join("m-b/heatmap_2026-03-02.svg").is_file());
+
+    // A true duplicate: one subject holding two folders of the same name.
+    let dup = tmp.path().join("dup");
+    for d in ["one", "two"] {
+        let from = cohort.join("m-a/2026-03-02");
+        let to = dup.join(d).join("2026-03-02");
+        std::fs::create_dir_all(&to).unwrap();
+        for f in std::fs::read_dir(&from).unwrap() {
+            let f = f.unwrap().path();
+            std::fs::copy(&f, to.join(f.file_name().unwrap())).unwrap();
+        }
+    }
+    let o = run(&["check", dup.to_str().unwrap()]);
+    let err = format!(
+        "{}{}",
+        String::from_utf8_lossy(&o.stdout),
+        String::from_utf8_lossy(&o.stderr)
+    );
+    assert_eq!(o.status.code(), Some(1), "{err}");
+    assert!(
+        err.contains("session name `2026-03-02` is also used by"),
+        "{err}"
+    );
+    assert!(err.contains("one") && err.contains("two"), "{err}");
 }

@@ -33,16 +33,17 @@ pub struct Args {
     pub path: PathBuf,
     /// Representation whose parameters are reported and saved: csc, presence or microstimulus
     /// (the comparison table fits all of them and Rescorla–Wagner)
-    #[arg(long, default_value = "csc")]
+    #[arg(long, default_value = model::defaults::REPRESENTATION_NAME)]
     pub representation: String,
     /// Model bin width, seconds
     #[arg(long, default_value_t = model::DEFAULT_DT)]
     pub dt: f64,
-    /// Eligibility-trace decay λ per bin, held fixed unless --fit-lambda
-    #[arg(long, default_value_t = 0.0)]
-    pub lambda: f64,
-    /// Fit λ as well (bounded to (0, 1))
-    #[arg(long)]
+    /// Fix the eligibility-trace decay λ per bin at L instead of fitting it [default: λ is
+    /// fitted, in (0, 1), for the reported model and for every model of the comparison]
+    #[arg(long, value_name = "L")]
+    pub lambda: Option<f64>,
+    /// Accepted for compatibility and ignored: λ is fitted by default (--lambda L fixes it)
+    #[arg(long, conflicts_with = "lambda")]
     pub fit_lambda: bool,
     /// Activity to fit: spikes or photometry [default: spikes when the first session has
     /// spikes.csv, otherwise photometry]
@@ -137,10 +138,9 @@ fn fit_options(args: &Args) -> Result<FitOptions, CliError> {
             args.dt
         )));
     }
-    if !(0.0..=1.0).contains(&args.lambda) {
+    if let Some(l) = args.lambda.filter(|l| !(0.0..=1.0).contains(l)) {
         return Err(CliError::usage(format!(
-            "--lambda {} is out of range (expected 0 <= lambda <= 1)",
-            args.lambda
+            "--lambda {l} is out of range (expected 0 <= lambda <= 1)"
         )));
     }
     let resample = ResampleUnit::parse(&args.bootstrap_by).ok_or_else(|| {
@@ -151,7 +151,6 @@ fn fit_options(args: &Args) -> Result<FitOptions, CliError> {
     })?;
     Ok(FitOptions {
         representation,
-        fit_lambda: args.fit_lambda,
         lambda: args.lambda,
         bootstrap: args.bootstrap,
         resample,
@@ -344,7 +343,7 @@ fn sensitivity_line(
         .collect();
     let trials = sensitivity::SuggestedTrials::new(data, &per_session, &subject.cue_names());
     let result = sensitivity::sensitivity(data, outcome, opts, &trials, progress);
-    sensitivity::line(&result, &trials, outcome, opts.fit_lambda)
+    sensitivity::line(&result, &trials, outcome, opts.lambda_fitted())
 }
 
 /// This invocation as the user would retype it (program name without its folder).
@@ -446,10 +445,10 @@ pub(crate) fn fit_subject(
         command: command_line(),
         sensitivity,
     };
-    let mut text = report::text_report(&outcome, &data, &ctx, opts.fit_lambda);
+    let mut text = report::text_report(&outcome, &data, &ctx, opts.lambda_fitted());
 
     if let Some(dir) = out_dir {
-        write_out(dir, &outcome, &data, opts.fit_lambda)?;
+        write_out(dir, &outcome, &data, opts.lambda_fitted())?;
         text.push_str(&format!(
             "Tables written: {} and {}\n",
             dir.join("params.csv").display(),
@@ -479,7 +478,7 @@ pub(crate) fn fit_subject(
             fitted_at: saved::now_rfc3339(),
             n_excluded,
             ignore_marks: args.ignore_marks,
-            lambda_fitted: opts.fit_lambda,
+            lambda_fitted: opts.lambda_fitted(),
             log_likelihood: Some(outcome.best.log_likelihood),
             n_observations: Some(outcome.n_included),
             unit: args.unit.clone(),

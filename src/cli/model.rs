@@ -1,83 +1,153 @@
-//! `trialdesk model`: evaluate the TD model at given parameters and write per-bin traces.
+//! `trialdesk model`: evaluate the TD model at given parameters (or at the subject's saved fit)
+//! and write per-bin traces.
 //!
 //! One row per trial bin k = 0..K-1 (the terminal step is not a bin):
-//! `session,trial,bin,time_s,value,delta`, numbers in shortest round-trip form.
+//! `session,trial,bin,time_s,value,delta,cue,trial_type,outcome,aligned_to`; the numbers in
+//! shortest round-trip form, `time_s` exactly k × dt at dt's decimals.
 
 use super::{CliError, CmdResult};
 use crate::data;
-use crate::model::{self, layout_subject_with_skips, Representation, TdParams};
+use crate::fit::saved::{load_saved, saved_path};
+use crate::model::labels::{bin_time_text, trial_labels};
+use crate::model::{self, defaults, layout_subject_with_skips, Representation, TdParams};
 use crate::util::fmt_f64;
 use std::io::Write;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 #[derive(clap::Args, Debug)]
+#[command(
+    after_help = "Without --alpha and --gamma the subject's saved fit (trialdesk-fit.toml, written \
+by `trialdesk fit`) gives every parameter; stderr says which file was used.\n\
+Columns: session, trial, bin, time_s, value, delta, cue, trial_type, outcome, aligned_to. \
+Bin 0 of a trial starts at its cue onset, or at the reward on uncued trials (aligned_to: \
+cue_onset or reward); time_s = bin x dt seconds after that moment. trial_type is cs_plus (the \
+cue declares a reward delay), cs_minus (never rewarded) or uncued; outcome is reward, \
+omission or none."
+)]
 pub struct Args {
     /// A subject folder or one session folder
     pub path: PathBuf,
-    /// Learning rate α, in (0, 1]
+    /// Learning rate α, in (0, 1] [default: the saved fit's]
+    #[arg(long, allow_negative_numbers = true, requires = "gamma")]
+    pub alpha: Option<f64>,
+    /// Discount γ per model bin, in [0, 1] [default: the saved fit's]
+    #[arg(long, allow_negative_numbers = true, requires = "alpha")]
+    pub gamma: Option<f64>,
+    /// Eligibility-trace decay λ per model bin, in [0, 1] [default: 0 with --alpha/--gamma,
+    /// else the saved fit's]
     #[arg(long, allow_negative_numbers = true)]
-    pub alpha: f64,
-    /// Discount γ per model bin, in [0, 1]
+    pub lambda: Option<f64>,
+    /// Stimulus representation: csc, presence or microstimulus [default: csc with
+    /// --alpha/--gamma, else the saved fit's]
+    #[arg(long)]
+    pub representation: Option<String>,
+    /// Model bin width, seconds [default: 0.05 with --alpha/--gamma, else the saved fit's]
     #[arg(long, allow_negative_numbers = true)]
-    pub gamma: f64,
-    /// Eligibility-trace decay λ per model bin, in [0, 1]
-    #[arg(long, default_value_t = 0.0, allow_negative_numbers = true)]
-    pub lambda: f64,
-    /// Stimulus representation: csc, presence or microstimulus
-    #[arg(long, default_value = "csc")]
-    pub representation: String,
-    /// Model bin width, seconds
-    #[arg(long, default_value_t = model::DEFAULT_DT, allow_negative_numbers = true)]
-    pub dt: f64,
+    pub dt: Option<f64>,
     /// Output CSV file, or - for standard output
     #[arg(long)]
     pub out: PathBuf,
 }
 
 /// Checks the ranges of the brief; a NaN fails every one of them.
-fn params(args: &Args) -> Result<TdParams, CliError> {
+fn params(args: &Args, alpha: f64, gamma: f64) -> Result<TdParams, CliError> {
     let in_closed = |x: f64| (0.0..=1.0).contains(&x);
-    if !(args.alpha > 0.0 && args.alpha <= 1.0) {
+    let lambda = args.lambda.unwrap_or(defaults::MODEL_LAMBDA);
+    let dt = args.dt.unwrap_or(defaults::DT);
+    if !(alpha > 0.0 && alpha <= 1.0) {
         return Err(CliError::usage(format!(
-            "--alpha {} is out of range (expected 0 < alpha <= 1)",
-            args.alpha
+            "--alpha {alpha} is out of range (expected 0 < alpha <= 1)"
         )));
     }
-    if !in_closed(args.gamma) {
+    if !in_closed(gamma) {
         return Err(CliError::usage(format!(
-            "--gamma {} is out of range (expected 0 <= gamma <= 1)",
-            args.gamma
+            "--gamma {gamma} is out of range (expected 0 <= gamma <= 1)"
         )));
     }
-    if !in_closed(args.lambda) {
+    if !in_closed(lambda) {
         return Err(CliError::usage(format!(
-            "--lambda {} is out of range (expected 0 <= lambda <= 1)",
-            args.lambda
+            "--lambda {lambda} is out of range (expected 0 <= lambda <= 1)"
         )));
     }
-    if !(args.dt > 0.0 && args.dt.is_finite()) {
+    if !(dt > 0.0 && dt.is_finite()) {
         return Err(CliError::usage(format!(
-            "--dt {} is out of range (expected a bin width in seconds > 0)",
-            args.dt
+            "--dt {dt} is out of range (expected a bin width in seconds > 0)"
         )));
     }
-    let representation = Representation::parse(&args.representation).ok_or_else(|| {
+    let name = args
+        .representation
+        .as_deref()
+        .unwrap_or(defaults::REPRESENTATION_NAME);
+    let representation = Representation::parse(name).ok_or_else(|| {
         CliError::usage(format!(
-            "--representation '{}' is not known (expected csc, presence or microstimulus)",
-            args.representation
+            "--representation '{name}' is not known (expected csc, presence or microstimulus)"
         ))
     })?;
     Ok(TdParams {
-        alpha: args.alpha,
-        gamma: args.gamma,
-        lambda: args.lambda,
-        dt: args.dt,
+        alpha,
+        gamma,
+        lambda,
+        dt,
         representation,
     })
 }
 
+/// The saved fit beside the data: in the folder itself, or, for a session folder, in its
+/// subject folder.
+fn saved_fit_params(path: &Path, args: &Args) -> Result<TdParams, CliError> {
+    if args.lambda.is_some() || args.representation.is_some() || args.dt.is_some() {
+        return Err(CliError::usage(
+            "--lambda, --representation and --dt go with --alpha and --gamma; without them \
+             every parameter comes from the saved fit",
+        ));
+    }
+    let mut roots = vec![path.to_path_buf()];
+    if path.join("session.toml").is_file() {
+        roots.extend(path.parent().map(Path::to_path_buf));
+    }
+    for root in &roots {
+        let Some(loaded) = load_saved(root) else {
+            continue;
+        };
+        let file = saved_path(root);
+        let fit = loaded.map_err(|e| {
+            CliError::failed(format!(
+                "{e}\nrerun `trialdesk fit`, or give --alpha and --gamma"
+            ))
+        })?;
+        let p = fit.td_params().map_err(|e| {
+            CliError::failed(format!(
+                "{}: {e}; the saved fit is not used (rerun `trialdesk fit`, or give --alpha \
+                 and --gamma)",
+                file.display()
+            ))
+        })?;
+        eprintln!(
+            "model: parameters from the saved fit {} (fitted {}): {} alpha={} gamma={} \
+             lambda={} dt={} s",
+            file.display(),
+            crate::util::printable(&fit.fitted_at),
+            p.representation.name(),
+            fmt_f64(p.alpha),
+            fmt_f64(p.gamma),
+            fmt_f64(p.lambda),
+            fmt_f64(p.dt)
+        );
+        return Ok(p);
+    }
+    Err(CliError::usage(format!(
+        "no --alpha/--gamma given and no saved fit at {}; run `trialdesk fit {}` first, or give \
+         --alpha and --gamma",
+        saved_path(&roots[roots.len() - 1]).display(),
+        path.display()
+    )))
+}
+
 pub fn run(args: Args) -> CmdResult {
-    let params = params(&args)?;
+    let params = match (args.alpha, args.gamma) {
+        (Some(alpha), Some(gamma)) => params(&args, alpha, gamma)?,
+        _ => saved_fit_params(&args.path, &args)?,
+    };
     let loaded = match data::load(&args.path) {
         Ok(l) => l,
         Err(failure) => {
@@ -137,19 +207,36 @@ fn write_traces(
     dt: f64,
 ) -> std::io::Result<()> {
     let mut out = csv::Writer::from_writer(std::io::BufWriter::new(sink));
-    out.write_record(["session", "trial", "bin", "time_s", "value", "delta"])?;
+    out.write_record([
+        "session",
+        "trial",
+        "bin",
+        "time_s",
+        "value",
+        "delta",
+        "cue",
+        "trial_type",
+        "outcome",
+        "aligned_to",
+    ])?;
     for (i, span) in spans.iter().enumerate() {
         let session = &subject.sessions[span.session];
         let number = session.trials[span.trial].number.to_string();
+        let labels = trial_labels(subject, span);
+        let cue = crate::util::csv_safe_cell(&labels.cue);
         let (values, deltas) = (traces.trial_value(i), traces.trial_delta(i));
         for k in 0..span.n_bins {
             out.write_record([
                 crate::util::csv_safe_cell(&session.name).as_ref(),
                 number.as_str(),
                 &k.to_string(),
-                &fmt_f64(k as f64 * dt),
+                &bin_time_text(k, dt),
                 &fmt_f64(values[k]),
                 &fmt_f64(deltas[k]),
+                cue.as_ref(),
+                labels.trial_type,
+                labels.outcome,
+                labels.aligned_to,
             ])?;
         }
     }

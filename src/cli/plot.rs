@@ -19,16 +19,18 @@ use crate::summary::{day_rows, ModelTraces};
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
-#[derive(clap::Args, Debug)]
+#[derive(clap::Args, Debug, Clone)]
 #[command(after_help = "Writes, into --out only:\n  \
 learning_curves.svg   cue and reward responses and model δ by day and by trial\n  \
 fit_trials.svg        observed vs predicted per trial (needs a saved fit: trialdesk fit PATH)\n  \
 heatmap_<session>.svg trial × time activity of each session\n\
 Model δ and predictions are recomputed from the saved fit (trialdesk-fit.toml) with today's \
 marks; without one the model panels say so. Trials marked exclude are left out of the curves \
-and drawn hollow in fit_trials.svg.")]
+and drawn hollow in fit_trials.svg. A cohort folder (a folder of subject folders) gets one \
+sub-folder of --out per subject.")]
 pub struct Args {
-    /// A subject folder, or one session folder (heat map and curves of that session only)
+    /// A subject folder, one session folder (heat map and curves of that session only), or a
+    /// cohort folder of subject folders (one sub-folder of --out per subject)
     pub path: PathBuf,
     /// Folder to write the SVG files into (created if needed)
     #[arg(long, value_name = "DIR")]
@@ -92,8 +94,9 @@ pub fn file_part(name: &str) -> String {
     }
 }
 
-/// One session's heat map: rows = trials in order, from the baseline start to the longest
-/// reward delay + 1 s.
+/// One session's heat map: rows grouped by trial type (cue and what happened; uncued rewards
+/// last), trials in order within a group, from the baseline start to the longest reward
+/// delay + 1 s; each row carries its own cue and reward times.
 fn session_heatmap(
     session: &Session,
     opts: &ObsOptions,
@@ -109,38 +112,64 @@ fn session_heatmap(
         .fold(0.0, f64::max);
     let from = opts.baseline.0.min(0.0);
     let to = max_delay + model::POST_S;
-    let trials: Vec<_> = session
+    let mut trials: Vec<_> = session
         .trials
         .iter()
-        .filter_map(|t| Some((t, alignment_time(t)?)))
+        .filter_map(|t| Some((t, alignment_time(t)?, TrialKind::of(session, t)?)))
         .collect();
-    let t0s: Vec<f64> = trials.iter().map(|(_, t0)| *t0).collect();
+    // Group key: cue (uncued last), then kind; the sort is stable, so trial order holds.
+    let key = |t: &data::Trial, k: TrialKind| (t.cue.unwrap_or(usize::MAX), k);
+    trials.sort_by_key(|(t, _, k)| key(t, *k));
+    let t0s: Vec<f64> = trials.iter().map(|(_, t0, _)| *t0).collect();
     let rows = act.traces(&t0s, from, to, bin_s);
+    let mut groups: Vec<(String, usize)> = Vec::new();
+    let mut last = None;
+    for (t, _, k) in &trials {
+        if last == Some(key(t, *k)) {
+            if let Some(g) = groups.last_mut() {
+                g.1 += 1;
+            }
+            continue;
+        }
+        last = Some(key(t, *k));
+        let name = match t.cue {
+            Some(c) => format!("{} {}", session.meta.cues[c].name, k.name()),
+            None => k.name().to_string(),
+        };
+        groups.push((name, 1));
+    }
     let row_labels = trials
         .iter()
-        .map(|(t, _)| {
-            let kind = TrialKind::of(session, t).map_or("", |k| k.name());
+        .map(|(t, _, _)| {
             let mark = match marks.marks.get(&t.number).map(|m| m.kind) {
                 Some(MarkKind::Exclude) => " ✗",
                 Some(MarkKind::Suspect) => " ?",
                 _ => "",
             };
-            format!("{} {kind}{mark}", t.number)
+            format!("{}{mark}", t.number)
         })
         .collect();
-    let mut events = vec![(0.0, "cue".to_string())];
-    for c in &session.meta.cues {
-        if let Some(d) = c.reward_delay_s {
-            events.push((d, format!("reward ({})", c.name)));
-        }
-    }
+    let row_events = trials
+        .iter()
+        .map(|(t, t0, _)| {
+            let mut ev = Vec::new();
+            if let Some(c) = t.cue_s {
+                ev.push((c - t0, "cue".to_string()));
+            }
+            if let Some(r) = t.reward_s {
+                ev.push((r - t0, "reward".to_string()));
+            }
+            ev
+        })
+        .collect();
     Ok(HeatMap {
         title: format!("{} — {}", session.name, opts.signal.label()),
         row_labels,
         rows,
+        groups,
         from_s: from,
         bin_s,
-        events,
+        row_events,
         unit: unit_label(&opts.signal).to_string(),
     })
 }
@@ -169,6 +198,26 @@ fn write_svg(
 }
 
 pub fn run(args: Args) -> CmdResult {
+    let is_cohort = args.path.is_dir()
+        && !args.path.join(data::meta::SESSION_FILE).is_file()
+        && !crate::cohort::is_subject_dir(&args.path);
+    if !is_cohort {
+        return run_subject(args);
+    }
+    let subjects = crate::cohort::discover_subjects(&args.path)
+        .map_err(|e| CliError::failed(e.to_string()))?;
+    for s in subjects {
+        run_subject(Args {
+            path: s.path.clone(),
+            out: args.out.join(&s.name),
+            ..args.clone()
+        })?;
+    }
+    Ok(0)
+}
+
+/// The pictures of one subject (or session) folder.
+fn run_subject(args: Args) -> CmdResult {
     if !(args.heat_bin > 0.0 && args.heat_bin.is_finite()) {
         return Err(CliError::usage(format!(
             "--heat-bin {} must be a bin width in seconds > 0",

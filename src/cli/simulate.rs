@@ -1,7 +1,7 @@
 //! `trialdesk simulate`: write a synthetic subject from a known TD model.
 
 use super::{CliError, CmdResult};
-use crate::model::Representation;
+use crate::model::{defaults, Representation};
 use crate::simulate::photometry::{Bleaching, Motion};
 use crate::simulate::{self, CueSpec, FaultParams, PhotometryParams, SimConfig};
 use std::path::PathBuf;
@@ -45,19 +45,19 @@ pub struct Args {
     #[arg(long, default_value_t = 6.0)]
     pub iti_min: f64,
     /// TD learning rate
-    #[arg(long, default_value_t = 0.02)]
+    #[arg(long, default_value_t = defaults::ALPHA)]
     pub alpha: f64,
     /// TD discount per model bin
-    #[arg(long, default_value_t = 0.98)]
+    #[arg(long, default_value_t = defaults::GAMMA)]
     pub gamma: f64,
     /// Eligibility-trace decay per model bin
-    #[arg(long, default_value_t = 0.9)]
+    #[arg(long, default_value_t = defaults::LAMBDA)]
     pub lambda: f64,
     /// Model bin width, s
-    #[arg(long, default_value_t = 0.05)]
+    #[arg(long, default_value_t = defaults::DT)]
     pub dt: f64,
     /// Stimulus representation: csc, presence or microstimulus
-    #[arg(long, default_value = "csc")]
+    #[arg(long, default_value = defaults::REPRESENTATION_NAME)]
     pub representation: String,
     /// Number of dopamine-like units (0: no spikes.csv)
     #[arg(long, default_value_t = 6)]
@@ -79,9 +79,10 @@ pub struct Args {
     /// last four need --photometry on). Every injected fault is listed in OUT/faults.csv.
     #[arg(long = "fault", value_name = "KIND:RATE")]
     pub faults: Vec<String>,
-    /// Subject id written to every session.toml
-    #[arg(long, default_value = "m-041")]
-    pub subject: String,
+    /// Subject id written to every session.toml [default: the name of OUT's folder, so
+    /// subjects simulated side by side in one cohort folder are told apart]
+    #[arg(long)]
+    pub subject: Option<String>,
     /// Rig name written to every session.toml
     #[arg(long, default_value = "box-2")]
     pub rig: String,
@@ -91,6 +92,20 @@ pub struct Args {
     /// Replace an earlier simulated subject in OUT (its session folders and truth.toml)
     #[arg(long)]
     pub force: bool,
+}
+
+/// The subject id a folder implies: its own name (`demo_data/m-041` → `m-041`).
+fn subject_from_folder(out: &std::path::Path) -> Result<String, CliError> {
+    out.file_name()
+        .and_then(|n| n.to_str())
+        .filter(|n| !n.is_empty() && *n != "." && *n != "..")
+        .map(String::from)
+        .ok_or_else(|| {
+            CliError::usage(format!(
+                "{}: cannot name the subject after this folder; give --subject ID",
+                out.display()
+            ))
+        })
 }
 
 /// The configuration the arguments describe.
@@ -114,7 +129,10 @@ pub fn config(args: &Args) -> Result<SimConfig, CliError> {
     s.reward_ul = args.reward_ul;
     s.iti_mean_s = args.iti_mean;
     s.iti_min_s = args.iti_min;
-    s.subject = args.subject.clone();
+    s.subject = match &args.subject {
+        Some(id) => id.clone(),
+        None => subject_from_folder(&args.out)?,
+    };
     s.rig = args.rig.clone();
     s.start_date = args.start_date.clone();
     c.td.alpha = args.alpha;

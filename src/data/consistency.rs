@@ -146,9 +146,11 @@ pub fn check_subject(subject: &Subject, out: &mut Vec<Diagnostic>) {
             );
         }
     }
-    let mut names: HashMap<&str, &Session> = HashMap::new();
+    // Session names need only be unique within one animal: a cohort of subjects recorded on
+    // the same dates has the same date-named folders in every subject.
+    let mut names: HashMap<(&str, &str), &Session> = HashMap::new();
     for s in &subject.sessions {
-        if let Some(other) = names.insert(&s.name, s) {
+        if let Some(other) = names.insert((&s.meta.subject, &s.name), s) {
             out.push(
                 Diagnostic::error(
                     &s.dir,

@@ -59,6 +59,34 @@ pub struct Intervals {
 /// Level of the reported intervals.
 pub const LEVEL: f64 = 0.95;
 
+/// Replicates wanted beyond each end of a percentile interval. An end is an order statistic
+/// of the replicates; with less than one replicate in its tail the end is the most extreme
+/// replicate or an interpolation towards it, and an interval can even miss its own estimate.
+/// One per tail is the floor below which the report says the count is too small (40 at 95 %);
+/// Efron & Tibshirani (1993, *An Introduction to the Bootstrap*, ch. 19) ask for about 1000
+/// for percentile ends worth publishing (quoted from memory), which the warning repeats.
+pub const MIN_TAIL_REPLICATES: f64 = 1.0;
+
+/// Fewest replicates for intervals at `level` to have [`MIN_TAIL_REPLICATES`] in each tail.
+pub fn min_replicates(level: f64) -> usize {
+    // The small tolerance keeps 1/0.05 at 20 (not 21) despite 1 − 0.9 rounding low.
+    (MIN_TAIL_REPLICATES / ((1.0 - level) / 2.0) - 1e-9).ceil() as usize
+}
+
+/// The report's warning when `n_ok` replicates are too few for intervals at `level`.
+pub fn too_few_warning(n_ok: usize, level: f64) -> Option<String> {
+    let need = min_replicates(level);
+    (n_ok < need).then(|| {
+        format!(
+            "{n_ok} bootstrap replicates are too few for {}% intervals: each end rests on about \
+             {} replicate(s) in its tail; rerun with --bootstrap {need} at the very least (about \
+             1000 for ends worth publishing)",
+            (level * 100.0).round(),
+            super::report::num(n_ok as f64 * (1.0 - level) / 2.0)
+        )
+    })
+}
+
 impl Intervals {
     /// (lower, upper) of a statistic of the replicates; `None` with fewer than 2 replicates.
     pub fn interval(&self, stat: impl Fn(&Replicate) -> Option<f64>) -> Option<(f64, f64)> {
@@ -245,5 +273,26 @@ pub fn gamma_profile(
         points,
         flat,
         gamma_best: best.params.gamma,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// One replicate per tail: 40 for a 95 % interval (2.5 % tails), 20 for 90 %.
+    #[test]
+    fn replicate_floor_follows_the_level() {
+        assert_eq!(min_replicates(0.95), 40);
+        assert_eq!(min_replicates(0.90), 20);
+        assert!(too_few_warning(39, 0.95).is_some());
+        assert!(too_few_warning(40, 0.95).is_none());
+        let w = too_few_warning(10, 0.95).unwrap();
+        assert!(
+            w.contains("10 bootstrap replicates are too few for 95% intervals"),
+            "{w}"
+        );
+        assert!(w.contains("about 0.2500 replicate(s)"), "{w}");
+        assert!(w.contains("--bootstrap 40"), "{w}");
     }
 }

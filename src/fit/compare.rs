@@ -68,7 +68,7 @@ pub fn compare(
     progress.phase("comparing models", 0);
     let mut rows = Vec::new();
     for model in models() {
-        let problem = Problem::new(data, model, opts.fit_lambda, opts.lambda);
+        let problem = opts.problem(data, model);
         let full = if same_model(model, chosen.0) {
             Some(chosen.1.clone())
         } else {
@@ -90,6 +90,47 @@ pub fn compare(
         });
     }
     rows
+}
+
+/// AIC differences below this do not separate two models: both have substantial support
+/// (Burnham & Anderson 2002, *Model Selection and Multimodel Inference*, §2.6; the threshold is
+/// quoted from memory and is common practice).
+pub const TIE_DELTA_AIC: f64 = 2.0;
+
+/// What the comparison says about which model describes the data best.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Verdict {
+    /// `best` (row index) leads the runner-up by `delta_aic` ≥ [`TIE_DELTA_AIC`].
+    Clear {
+        best: usize,
+        runner_up: Option<usize>,
+        delta_aic: f64,
+    },
+    /// These rows (best first) lie within [`TIE_DELTA_AIC`] of the lowest AIC.
+    Tie { rows: Vec<usize> },
+}
+
+/// The comparison's verdict by AIC; `None` without rows.
+pub fn verdict(rows: &[ModelRow]) -> Option<Verdict> {
+    let mut order: Vec<usize> = (0..rows.len())
+        .filter(|&i| rows[i].aic.is_finite())
+        .collect();
+    order.sort_by(|&a, &b| rows[a].aic.total_cmp(&rows[b].aic));
+    let &best = order.first()?;
+    let close: Vec<usize> = order
+        .iter()
+        .copied()
+        .filter(|&i| rows[i].aic - rows[best].aic < TIE_DELTA_AIC)
+        .collect();
+    if close.len() > 1 {
+        return Some(Verdict::Tie { rows: close });
+    }
+    let runner_up = order.get(1).copied();
+    Some(Verdict::Clear {
+        best,
+        runner_up,
+        delta_aic: runner_up.map_or(f64::INFINITY, |r| rows[r].aic - rows[best].aic),
+    })
 }
 
 fn same_model(a: ModelSpec, b: ModelSpec) -> bool {
@@ -127,7 +168,42 @@ pub fn heldout_error(
 
 #[cfg(test)]
 mod tests {
-    use super::holdout_count;
+    use super::*;
+
+    fn row(name: ModelSpec, aic: f64) -> ModelRow {
+        ModelRow {
+            model: name,
+            params: LearnParams {
+                alpha: 0.1,
+                gamma: 0.9,
+                lambda: 0.0,
+            },
+            log_likelihood: -aic / 2.0,
+            k: 0,
+            n: 10,
+            aic,
+            bic: aic,
+            heldout_rmse: None,
+            heldout_n: 0,
+        }
+    }
+
+    #[test]
+    fn verdict_names_a_clear_winner_or_the_tie() {
+        let m = models();
+        let rows = vec![row(m[0], 100.0), row(m[1], 103.5), row(m[3], 90.0)];
+        assert_eq!(
+            verdict(&rows),
+            Some(Verdict::Clear {
+                best: 2,
+                runner_up: Some(0),
+                delta_aic: 10.0
+            })
+        );
+        let rows = vec![row(m[0], 100.0), row(m[1], 101.5), row(m[2], 110.0)];
+        assert_eq!(verdict(&rows), Some(Verdict::Tie { rows: vec![0, 1] }));
+        assert_eq!(verdict(&[]), None);
+    }
 
     #[test]
     fn holdout_is_the_last_fifth_never_all() {

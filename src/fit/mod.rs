@@ -64,9 +64,9 @@ pub enum FitError {
 pub struct FitOptions {
     /// The representation whose parameters are reported and saved.
     pub representation: Representation,
-    /// Free λ (otherwise fixed at `lambda`).
-    pub fit_lambda: bool,
-    pub lambda: f64,
+    /// λ held fixed at this value; `None`: λ is fitted, in the main fit and for every model of
+    /// the comparison (each at its own best λ).
+    pub lambda: Option<f64>,
     /// Bootstrap replicates; 0 disables intervals.
     pub bootstrap: usize,
     pub resample: ResampleUnit,
@@ -82,9 +82,12 @@ pub struct FitOptions {
 impl Default for FitOptions {
     fn default() -> Self {
         FitOptions {
-            representation: Representation::Csc,
-            fit_lambda: false,
-            lambda: 0.0,
+            representation: crate::model::defaults::REPRESENTATION,
+            lambda: if crate::model::defaults::FIT_LAMBDA_FREE {
+                None
+            } else {
+                Some(crate::model::defaults::MODEL_LAMBDA)
+            },
             bootstrap: 50,
             resample: ResampleUnit::Trials,
             seed: 7,
@@ -92,6 +95,23 @@ impl Default for FitOptions {
             compare: true,
             search: SearchOptions::default(),
         }
+    }
+}
+
+impl FitOptions {
+    /// λ is estimated (not fixed with `--lambda`).
+    pub fn lambda_fitted(&self) -> bool {
+        self.lambda.is_none()
+    }
+
+    /// The search problem of `model` on `data` under these options.
+    pub fn problem<'a>(&self, data: &'a FitData, model: ModelSpec) -> Problem<'a> {
+        Problem::new(
+            data,
+            model,
+            self.lambda.is_none(),
+            self.lambda.unwrap_or(0.0),
+        )
     }
 }
 
@@ -182,7 +202,7 @@ pub fn run_fit(
 ) -> Result<FitOutcome, FitError> {
     let included = validate(data)?;
     let model = ModelSpec::Td(opts.representation);
-    let problem = Problem::new(data, model, opts.fit_lambda, opts.lambda);
+    let problem = opts.problem(data, model);
 
     progress.phase("fitting", opts.search.budget(&problem) as u64);
     let best =
@@ -261,6 +281,7 @@ pub fn run_fit(
                 opts.bootstrap
             ));
         }
+        warnings.extend(bootstrap::too_few_warning(iv.n_ok, bootstrap::LEVEL));
         Some(iv)
     } else {
         None

@@ -2,6 +2,7 @@
 //! `trials.csv` (tidy tables: one row per parameter, one row per observation window).
 
 use super::bootstrap::{tau_s, Intervals, Replicate};
+use super::compare::{verdict, Verdict, TIE_DELTA_AIC};
 use super::dataset::{FitData, WindowKind};
 use super::objective::ModelSpec;
 use super::FitOutcome;
@@ -100,6 +101,16 @@ pub fn param_rows(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -> Vec<
     rows
 }
 
+impl ParamRow {
+    /// The interval leaves out the row's own estimate: the replicates are lopsided (too few,
+    /// or a skewed sampling distribution), so the percentile ends cannot be read as a range
+    /// around the estimate.
+    pub fn excludes_estimate(&self) -> bool {
+        self.interval
+            .is_some_and(|(lo, hi)| !(lo <= self.estimate && self.estimate <= hi))
+    }
+}
+
 /// γ's profile is flat and a bootstrap ran: its interval is not reported.
 pub fn gamma_interval_withheld(out: &FitOutcome) -> bool {
     out.intervals.is_some() && out.gamma_profile.as_ref().is_some_and(|g| g.flat)
@@ -180,17 +191,13 @@ pub fn text_report(
         data.points.len(),
         out.n_included
     );
-    let lambda_note = if lambda_fitted {
-        "λ fitted".to_string()
-    } else {
-        format!("λ fixed at {}", num(out.best.params.lambda))
-    };
     let _ = writeln!(
         s,
-        "model: TD(λ), {} representation, {} s bins, {lambda_note}; gain and baselines by least squares",
+        "model: TD(λ), {} representation, {} s bins",
         out.model.name(),
         data.dt
     );
+    let _ = writeln!(s, "{}", fitted_and_fixed(out, data, lambda_fitted));
     if !ctx.observations.is_empty() {
         let _ = writeln!(s, "observations: {}", ctx.observations);
     }
@@ -229,6 +236,9 @@ pub fn text_report(
         if matches!(r.name, "gamma" | "tau_s") && gamma_interval_withheld(out) {
             unit.push_str(" (interval withheld: flat profile, see the warning)");
         }
+        if r.excludes_estimate() {
+            unit.push_str(" (! interval excludes the estimate: see the note below)");
+        }
         let _ = writeln!(
             s,
             "  {:<16} {:>12} {:>12} {:>12}{unit}",
@@ -236,6 +246,14 @@ pub fn text_report(
             num(r.estimate),
             lo,
             hi
+        );
+    }
+    if rows.iter().any(ParamRow::excludes_estimate) {
+        let _ = writeln!(
+            s,
+            "  Note: a percentile interval marked ! does not contain its own estimate: the \
+             bootstrap replicates fall lopsidedly on one side (too few replicates, or a skewed \
+             sampling distribution); do not quote it as the estimate's range."
         );
     }
     let _ = writeln!(s);
@@ -250,7 +268,7 @@ pub fn text_report(
     let _ = writeln!(s);
 
     if !out.comparison.is_empty() {
-        write_comparison(&mut s, out, data);
+        write_comparison(&mut s, out, data, lambda_fitted);
         let _ = writeln!(s);
     }
 
@@ -280,7 +298,31 @@ pub fn text_report(
     s
 }
 
-fn write_comparison(s: &mut String, out: &FitOutcome, data: &FitData) {
+/// Which parameters the fit estimated and which it held fixed, with their values.
+pub fn fitted_and_fixed(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -> String {
+    let mut fixed = Vec::new();
+    let learning = if lambda_fitted {
+        "α, γ, λ"
+    } else {
+        fixed.push(format!(
+            "λ = {} (--lambda)",
+            crate::util::fmt_f64(out.best.params.lambda)
+        ));
+        "α, γ"
+    };
+    fixed.push(format!(
+        "bin width dt = {} s",
+        crate::util::fmt_f64(data.dt)
+    ));
+    fixed.push(format!("representation {}", out.model.name()));
+    format!(
+        "fitted: {learning} (multi-start Nelder–Mead), gain and baselines (least squares); \
+         fixed: {}",
+        fixed.join(", ")
+    )
+}
+
+fn write_comparison(s: &mut String, out: &FitOutcome, data: &FitData, lambda_fitted: bool) {
     let best_aic = out
         .comparison
         .iter()
@@ -303,8 +345,8 @@ fn write_comparison(s: &mut String, out: &FitOutcome, data: &FitData) {
     );
     let _ = writeln!(
         s,
-        "  {:<16} {:>12} {:>3} {:>12} {:>8} {:>12} {:>14}",
-        "model", "lnL", "k", "AIC", "ΔAIC", "BIC", "held-out RMSE"
+        "  {:<16} {:>8} {:>12} {:>3} {:>12} {:>8} {:>12} {:>14}",
+        "model", "λ", "lnL", "k", "AIC", "ΔAIC", "BIC", "held-out RMSE"
     );
     for r in &out.comparison {
         let held = match r.heldout_rmse {
@@ -318,8 +360,12 @@ fn write_comparison(s: &mut String, out: &FitOutcome, data: &FitData) {
         };
         let _ = writeln!(
             s,
-            "  {:<16} {:>12} {:>3} {:>12} {:>8} {:>12} {:>14}{mark}",
+            "  {:<16} {:>8} {:>12} {:>3} {:>12} {:>8} {:>12} {:>14}{mark}",
             r.model.name(),
+            match r.model {
+                ModelSpec::Td(_) => num(r.params.lambda),
+                ModelSpec::RescorlaWagner => "-".into(),
+            },
             num(r.log_likelihood),
             r.k,
             num(r.aic),
@@ -330,8 +376,42 @@ fn write_comparison(s: &mut String, out: &FitOutcome, data: &FitData) {
     }
     let _ = writeln!(
         s,
-        "  (* the representation whose parameters are reported above and saved)"
+        "  (* the representation whose parameters are reported above and saved; λ: {})",
+        if lambda_fitted {
+            "each TD model at its own best λ"
+        } else {
+            "fixed for every TD model"
+        }
     );
+    let rows = &out.comparison;
+    match verdict(rows) {
+        Some(Verdict::Clear {
+            best, runner_up, ..
+        }) => {
+            let next = runner_up.map_or(String::new(), |r| {
+                format!(
+                    "; next {} at ΔAIC {}",
+                    rows[r].model.name(),
+                    num(rows[r].aic - rows[best].aic)
+                )
+            });
+            let _ = writeln!(
+                s,
+                "Best by AIC: {}{next} (differences below {TIE_DELTA_AIC} do not separate models).",
+                rows[best].model.name()
+            );
+        }
+        Some(Verdict::Tie { rows: close }) => {
+            let names: Vec<&str> = close.iter().map(|&i| rows[i].model.name()).collect();
+            let _ = writeln!(
+                s,
+                "The comparison cannot tell {} apart (ΔAIC below {TIE_DELTA_AIC}); lowest AIC: {}.",
+                names.join(", "),
+                names[0]
+            );
+        }
+        None => {}
+    }
 }
 
 fn write_exclusions(s: &mut String, out: &FitOutcome, data: &FitData) {

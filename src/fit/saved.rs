@@ -113,6 +113,53 @@ impl SavedFit {
     }
 }
 
+/// A field of a saved fit that cannot be used to run the model.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("field `{field}`: {message}")]
+pub struct InvalidField {
+    pub field: &'static str,
+    pub message: String,
+}
+
+impl SavedFit {
+    /// The TD parameters of this fit, each checked against the ranges `trialdesk model`
+    /// accepts on its command line; the first bad field is named.
+    pub fn td_params(&self) -> Result<crate::model::TdParams, InvalidField> {
+        let bad = |field: &'static str, value: f64, expected: &str| InvalidField {
+            field,
+            message: format!("{value} is out of range (expected {expected})"),
+        };
+        let in_closed = |x: f64| (0.0..=1.0).contains(&x);
+        if !(self.alpha > 0.0 && self.alpha <= 1.0) {
+            return Err(bad("alpha", self.alpha, "0 < alpha <= 1"));
+        }
+        if !in_closed(self.gamma) {
+            return Err(bad("gamma", self.gamma, "0 <= gamma <= 1"));
+        }
+        if !in_closed(self.lambda) {
+            return Err(bad("lambda", self.lambda, "0 <= lambda <= 1"));
+        }
+        if !(self.dt > 0.0 && self.dt.is_finite()) {
+            return Err(bad("dt", self.dt, "a bin width in seconds > 0"));
+        }
+        let representation =
+            Representation::parse(&self.representation).ok_or_else(|| InvalidField {
+                field: "representation",
+                message: format!(
+                    "`{}` is not a TD representation (expected csc, presence or microstimulus)",
+                    self.representation
+                ),
+            })?;
+        Ok(crate::model::TdParams {
+            alpha: self.alpha,
+            gamma: self.gamma,
+            lambda: self.lambda,
+            dt: self.dt,
+            representation,
+        })
+    }
+}
+
 /// The model δ of one trial's cue and reward windows as a fit with `kernel` saw them: plain
 /// sums ([`window_delta_sums`]) without one, else Σ w_k·δ_k with the weights of
 /// [`SensorKernel::window_weight`] placed as [`dataset::with_sensor_kernel`] places them (δ of

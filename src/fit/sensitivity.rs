@@ -10,7 +10,7 @@
 
 use super::optimise::{self, FitResult};
 use super::report::num;
-use super::{validate, FitData, FitError, FitOptions, FitOutcome, Problem, Progress};
+use super::{validate, FitData, FitError, FitOptions, FitOutcome, Progress};
 use crate::suggest::{counts_by_rule, Suggestion};
 use std::collections::BTreeSet;
 
@@ -174,7 +174,7 @@ pub fn sensitivity(
         Ok(i) => i,
         Err(error) => return Sensitivity::Failed { n_trials, error },
     };
-    let problem = Problem::new(&reduced, outcome.model, opts.fit_lambda, opts.lambda);
+    let problem = opts.problem(&reduced, outcome.model);
     progress.phase("sensitivity refit", opts.search.budget(&problem) as u64);
     // The same search as the main fit (grid and starts, no warm start from the main optimum),
     // so that accepting the suggestions for real and refitting gives these very numbers.

@@ -7,7 +7,9 @@
 //! shared with the textbook checks. [`rw::run`] walks the same spans at trial level. The
 //! simulator and the fitter call the same `td::run` / `td::run_in`.
 
+pub mod defaults;
 pub mod features;
+pub mod labels;
 pub mod layout;
 pub mod rw;
 pub mod td;
@@ -16,8 +18,8 @@ pub use features::{FeatureSpace, MicrostimulusParams, Representation};
 pub use layout::{layout_subject, layout_subject_with_skips, SkippedTrial, TrialSpan};
 pub use td::{run, run_in, Learner, TdParams, TdRun};
 
-/// Default model bin width, seconds.
-pub const DEFAULT_DT: f64 = 0.05;
+/// Default model bin width, seconds ([`defaults::DT`]).
+pub const DEFAULT_DT: f64 = defaults::DT;
 /// Bins kept after the (expected) reward so a last-bin reward still gives a δ, seconds.
 pub const POST_S: f64 = 1.0;
 /// Tolerance that keeps an event exactly on a bin edge in the later bin (1.5/0.05 → 30).

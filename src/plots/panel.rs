@@ -109,14 +109,33 @@ pub fn draw(area: &Area, panel: &Panel) -> Result<(), PlotError> {
         ))?;
         return Ok(());
     };
+    // Headroom for the legend (upper left), so it never covers a data point: the legend's
+    // height in pixels becomes the same share of the y range above the highest value.
+    let n_legend = panel
+        .series
+        .iter()
+        .filter(|s| s.present().next().is_some())
+        .count();
+    let (_, h) = area.dim_in_pixel();
+    let plot_px = (h as f64 - 25.0 - 38.0 - 24.0).max(40.0);
+    let legend_px = (n_legend as f64 * 19.0 + 16.0).min(plot_px * 0.6);
+    let y1 = y1 + (y1 - y0) * legend_px / (plot_px - legend_px);
     let mut chart = ChartBuilder::on(area)
         .caption(title, caption_font())
         .margin(12)
         .x_label_area_size(38)
         .y_label_area_size(62)
         .build_cartesian_2d(x0..x1, y0..y1)?;
+    // Days and trials are whole numbers: at most one tick per unit, and a label only on whole
+    // values (a tick at 2.5 would read "2" or "3").
+    let n_x_labels = if panel.integer_x {
+        ((x1 - x0).floor() as usize + 1).clamp(2, 12)
+    } else {
+        10
+    };
     chart
         .configure_mesh()
+        .x_labels(n_x_labels)
         .x_desc(clean_label(panel.x_desc))
         .y_desc(clean_label(panel.y_desc))
         .light_line_style(WHITE)
@@ -124,6 +143,7 @@ pub fn draw(area: &Area, panel: &Panel) -> Result<(), PlotError> {
         .label_style(("sans-serif", 12))
         .axis_desc_style(("sans-serif", 13))
         .x_label_formatter(&|x: &f64| match panel.integer_x {
+            true if (x - x.round()).abs() > 1e-9 => String::new(),
             true => format!("{x:.0}"),
             false => format!("{x}"),
         })

@@ -20,7 +20,7 @@ pub mod truth;
 pub mod writer;
 
 use crate::data::{Spikes, Subject};
-use crate::model::{layout_subject, run, Representation, TdParams, TdRun, TrialSpan};
+use crate::model::{layout_subject, run, TdParams, TdRun, TrialSpan};
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 
@@ -59,19 +59,9 @@ impl Default for SimConfig {
     }
 }
 
-/// The demo learner: CSC, γ = 0.98 per 50 ms bin (τ ≈ 2.5 s, Ludvig 2008's value),
-/// λ = 0.9 and α = 0.02. With 3 µL rewards and ~38 trials per cue a day the response moves
-/// from the reward to the p = 1 cue over days 2–5 and the cue response keeps growing to day 8
-/// (chosen by running the simulator: α = 0.05 finished the transfer on day 2, α = 0.01 had
-/// not finished by day 8; see tests/simulate_sanity.rs).
+/// The demo learner: [`crate::model::defaults::simulated_learner`].
 pub fn default_td() -> TdParams {
-    TdParams {
-        alpha: 0.02,
-        gamma: 0.98,
-        lambda: 0.9,
-        dt: crate::model::DEFAULT_DT,
-        representation: Representation::Csc,
-    }
+    crate::model::defaults::simulated_learner()
 }
 
 /// The simulated subject and the model traces that produced it.

@@ -50,12 +50,12 @@ pub const CATALOG: [RuleInfo; 8] = [
     RuleInfo {
         id: "baseline_licks",
         description: "licks in the pre-cue baseline window",
-        source: "methods.md §8 lick contamination; common practice",
+        source: "common practice (lick contamination of the baseline)",
     },
     RuleInfo {
         id: "no_consumption",
         description: "no consumption licks after a delivered reward (possible valve failure)",
-        source: "methods.md §8 missed delivery (no lick within N s); N is our default",
+        source: "common practice (missed delivery: no lick within N s); N is our default",
     },
     RuleInfo {
         id: "late_first_lick",
@@ -71,22 +71,22 @@ pub const CATALOG: [RuleInfo; 8] = [
     RuleInfo {
         id: "unit_drift",
         description: "a unit's baseline rate far from its session median (possible lost unit)",
-        source: "methods.md §8 lost or unstable unit; MAD-based robust spread, common practice",
+        source: "common practice (lost or unstable unit); MAD-based robust spread",
     },
     RuleInfo {
         id: "control_motion",
         description: "control-channel deflection within the trial (motion or licking)",
-        source: "methods.md §5 QC, event-locked control deflections (Simpson et al. 2024)",
+        source: "event-locked control deflections as a QC check (Simpson et al. 2024, Neuron 112:718)",
     },
     RuleInfo {
         id: "control_fit_poor",
         description: "the isosbestic control explains little of a drifting signal (session)",
-        source: "methods.md §5 QC, low R² of the control fit",
+        source: "common practice (a low R² of the control fit as a QC check)",
     },
     RuleInfo {
         id: "signal_clipped",
         description: "photometry saturated, stuck or missing samples within the trial",
-        source: "methods.md §8 signal artifacts (saturation, disconnects); common practice",
+        source: "common practice (signal artifacts: saturation, disconnects)",
     },
 ];
 

@@ -69,7 +69,8 @@ fn render_detail(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         width: area.width.saturating_sub(GUTTER),
     };
     let wanted = match (state.unit, &session.spikes) {
-        (None, Some(sp)) => sp.units.len().max(1) as u16,
+        // One row per unit plus the raster's heading.
+        (None, Some(sp)) => sp.units.len().max(1) as u16 + 1,
         (None, None) => 1,
         (Some(_), _) => u16::MAX,
     };

@@ -1,7 +1,8 @@
 //! The spike raster as text, plus the lick, event and seconds rows under it.
 //!
 //! All units: one row per unit for the current trial. One chosen unit: one row per trial
-//! around the current one (current trial highlighted), the usual single-unit raster. Cue and
+//! around the current one (current trial highlighted), the usual single-unit raster. A heading
+//! row names the mode and what the rows are. Cue and
 //! reward columns get a faint guide line so the eye can follow them down to the traces.
 
 use super::{fill_row, put, TimeAxis};
@@ -80,6 +81,32 @@ pub fn render(
             theme.style(Role::Dim),
         );
         return;
+    };
+    // A heading names the mode and what a row is, so the switch by the next-unit key from
+    // "units of this trial" to "one unit across trials" cannot go unnoticed.
+    let area = if area.height >= 3 {
+        let key = state.keymap.keys_for(crate::tui::action::Action::NextUnit);
+        let trial_no = state.current_trial().map_or(0, |t| t.number);
+        let heading = match state.unit {
+            None => {
+                format!("spikes: units of trial {trial_no} (row = unit; {key} one unit)")
+            }
+            Some(u) => format!(
+                "spikes: unit {} across trials (row = trial no.; {key} next)",
+                spikes.units.get(u).map_or("?", String::as_str)
+            ),
+        };
+        put(
+            buf,
+            area,
+            0,
+            0,
+            &theme.clean(&heading),
+            theme.style(Role::Dim),
+        );
+        Rect::new(area.x, area.y + 1, area.width, area.height - 1)
+    } else {
+        area
     };
     let guides = event_cols(state, axis);
     let plot = Rect::new(
