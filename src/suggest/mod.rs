@@ -76,7 +76,8 @@ pub const CATALOG: [RuleInfo; 8] = [
     RuleInfo {
         id: "control_motion",
         description: "control-channel deflection within the trial (motion or licking)",
-        source: "event-locked control deflections as a QC check (Simpson et al. 2024, Neuron 112:718)",
+        source:
+            "event-locked control deflections as a QC check (Simpson et al. 2024, Neuron 112:718)",
     },
     RuleInfo {
         id: "control_fit_poor",
