@@ -18,6 +18,9 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};
 
+mod tmux_support;
+use tmux_support::{copy_dir, tmux_present};
+
 /// Clock ticks per second of /proc's CPU times (common practice on Linux: USER_HZ = 100).
 fn ticks_per_second() -> f64 {
     // SAFETY: sysconf has no preconditions.
@@ -68,18 +71,6 @@ fn assert_prompt_exit(case: &str, pid: u32, hung_up: Instant, before: f64) {
     // A spinning reader burns a core: about 1 s of CPU per second. 0.3 s allows for the exit
     // path itself on a loaded machine.
     assert!(cpu < 0.3, "{case}: burnt {cpu:.3} s of CPU before exiting");
-}
-
-fn copy_dir(from: &Path, to: &Path) {
-    std::fs::create_dir_all(to).unwrap();
-    for e in std::fs::read_dir(from).unwrap() {
-        let e = e.unwrap();
-        if e.file_type().unwrap().is_dir() {
-            copy_dir(&e.path(), &to.join(e.file_name()));
-        } else {
-            std::fs::copy(e.path(), to.join(e.file_name())).unwrap();
-        }
-    }
 }
 
 /// A copy of the reviewer fixture subject and a config folder naming the reviewer.
@@ -148,13 +139,6 @@ const MOMENTS: [Moment; 4] = [
 ];
 
 // ---------------------------------------------------------------- tmux session killed
-
-fn tmux_present() -> bool {
-    Command::new("tmux")
-        .arg("-V")
-        .output()
-        .is_ok_and(|o| o.status.success())
-}
 
 struct Tmux {
     socket: String,
