@@ -14,12 +14,12 @@
 use std::io::{Read, Write};
 use std::os::fd::{AsRawFd, FromRawFd, OwnedFd};
 use std::os::unix::process::CommandExt;
-use std::path::{Path, PathBuf};
-use std::process::{Command, Stdio};
+use std::path::PathBuf;
+use std::process::Command;
 use std::time::{Duration, Instant};
 
 mod tmux_support;
-use tmux_support::{copy_dir, tmux_present};
+use tmux_support::{scratch_subject, tmux_present, Server};
 
 /// Clock ticks per second of /proc's CPU times (common practice on Linux: USER_HZ = 100).
 fn ticks_per_second() -> f64 {
@@ -83,13 +83,7 @@ struct Setup {
 impl Setup {
     fn new() -> Setup {
         let tmp = tempfile::tempdir().unwrap();
-        let subject = tmp.path().join("m-007");
-        copy_dir(
-            &Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/tui/m-007"),
-            &subject,
-        );
-        let config = tmp.path().join("config");
-        std::fs::create_dir_all(config.join("trialdesk")).unwrap();
+        let (subject, config) = scratch_subject(tmp.path());
         std::fs::write(
             config.join("trialdesk/config.toml"),
             "reviewer = \"hangup-reviewer\"\n",
@@ -140,100 +134,39 @@ const MOMENTS: [Moment; 4] = [
 
 // ---------------------------------------------------------------- tmux session killed
 
-struct Tmux {
-    socket: String,
-}
-
-impl Tmux {
-    fn run(&self, args: &[&str]) -> String {
-        let out = Command::new("tmux")
-            .arg("-L")
-            .arg(&self.socket)
-            .args(args)
-            .output()
-            .unwrap();
-        String::from_utf8_lossy(&out.stdout).into_owned()
-    }
-
-    fn wait_for(&self, what: &str, needle: &str) {
-        let start = Instant::now();
-        loop {
-            let s = self.run(&["capture-pane", "-p", "-t", "hup"]);
-            if s.contains(needle) {
-                return;
-            }
-            assert!(
-                start.elapsed() < Duration::from_secs(20),
-                "timed out waiting for {what}; screen:\n{s}"
-            );
-            std::thread::sleep(Duration::from_millis(100));
-        }
-    }
-}
-
-impl Drop for Tmux {
-    fn drop(&mut self) {
-        let _ = Command::new("tmux")
-            .args(["-L", &self.socket, "kill-server"])
-            .stderr(Stdio::null())
-            .status();
-    }
-}
-
-/// The reviewer as the pane's own process, so the pane's pid is the reviewer's.
-fn start_in_tmux(setup: &Setup, moment: Moment) -> Tmux {
-    let tmux = Tmux {
-        socket: format!("trialdesk-hup-{}-{moment:?}", std::process::id()),
-    };
-    let bin = env!("CARGO_BIN_EXE_trialdesk");
-    let mut cmd = vec![
-        "-f",
-        "/dev/null",
-        "new-session",
-        "-d",
-        "-x",
-        "100",
-        "-y",
-        "30",
-        "-s",
-        "hup",
-        "env",
-        "-i",
-        "PATH=/usr/bin:/bin",
-        "TERM=xterm-256color",
-        "HOME=/tmp",
-    ];
-    let xdg = format!("XDG_CONFIG_HOME={}", setup.config.display());
+/// The reviewer in a window of its own tmux server, with one mark made and `moment` open.
+fn start_in_tmux(setup: &Setup, moment: Moment) -> Server {
+    let server = Server::start(
+        &format!("hup-{moment:?}"),
+        vec![format!("XDG_CONFIG_HOME={}", setup.config.display())],
+    );
     let subject = setup.subject.display().to_string();
-    cmd.extend([xdg.as_str(), bin, "review", subject.as_str()]);
+    let mut args = vec!["review", subject.as_str()];
     if matches!(moment, Moment::Following) {
-        cmd.push("--follow");
+        args.push("--follow");
     }
-    let ok = Command::new("tmux")
-        .args(["-L", &tmux.socket])
-        .args(&cmd)
-        .status()
-        .unwrap()
-        .success();
-    assert!(ok, "tmux new-session failed");
-    tmux.wait_for("the first frame", "hangup-reviewer");
-    tmux.run(&["send-keys", "-t", "hup", "x"]);
-    tmux.wait_for("the reason picker", "why?");
-    tmux.run(&["send-keys", "-t", "hup", "1"]);
-    tmux.wait_for("the saved exclusion", "saved: trial 1 excluded");
+    server.open("hup", &args);
+    let wait = |what: &str, needle: &str| {
+        server.wait_for("hup", what, Duration::from_secs(20), |s| s.contains(needle));
+    };
+    wait("the first frame", "hangup-reviewer");
+    server.send("hup", &["x"]);
+    wait("the reason picker", "why?");
+    server.send("hup", &["1"]);
+    wait("the saved exclusion", "saved: trial 1 excluded");
     match moment {
         Moment::Picker => {
-            tmux.run(&["send-keys", "-t", "hup", "j", "x"]);
-            tmux.wait_for("the reason picker", "why?");
+            server.send("hup", &["j", "x"]);
+            wait("the reason picker", "why?");
         }
         Moment::NoteEditor => {
-            tmux.run(&["send-keys", "-t", "hup", "n"]);
-            tmux.wait_for("the note editor", "note on trial");
-            tmux.run(&["send-keys", "-t", "hup", "-l", "half a no"]);
+            server.send("hup", &["n"]);
+            wait("the note editor", "note on trial");
+            server.send("hup", &["-l", "half a no"]);
         }
         Moment::Idle | Moment::Following => {}
     }
-    tmux
+    server
 }
 
 #[test]
@@ -248,16 +181,12 @@ fn killing_the_tmux_session_ends_the_reviewer() {
     }
     for moment in MOMENTS {
         let setup = Setup::new();
-        let tmux = start_in_tmux(&setup, moment);
-        let pid: u32 = tmux
-            .run(&["display-message", "-p", "-t", "hup", "#{pane_pid}"])
-            .trim()
-            .parse()
-            .unwrap();
+        let server = start_in_tmux(&setup, moment);
+        let pid = server.pid("hup").0 as u32;
         std::thread::sleep(Duration::from_millis(300));
         let before = cpu_seconds(pid).expect("reviewer running");
         let hung_up = Instant::now();
-        tmux.run(&["kill-server"]);
+        server.tmux(&["kill-server"]);
         let case = format!("tmux kill-server, {moment:?}");
         assert_prompt_exit(&case, pid, hung_up, before);
         setup.assert_mark_kept(&case);

@@ -14,6 +14,9 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 use std::time::{Duration, Instant};
 
+mod tmux_support;
+use tmux_support::{copy_dir, tmux_present};
+
 const PROMPT: &str = "E2E-READY$";
 
 struct Pane {
@@ -21,25 +24,6 @@ struct Pane {
     _tmp: tempfile::TempDir,
     subject: PathBuf,
     config: PathBuf,
-}
-
-fn tmux_present() -> bool {
-    Command::new("tmux")
-        .arg("-V")
-        .output()
-        .is_ok_and(|o| o.status.success())
-}
-
-fn copy_dir(from: &Path, to: &Path) {
-    std::fs::create_dir_all(to).unwrap();
-    for e in std::fs::read_dir(from).unwrap() {
-        let e = e.unwrap();
-        if e.file_type().unwrap().is_dir() {
-            copy_dir(&e.path(), &to.join(e.file_name()));
-        } else {
-            std::fs::copy(e.path(), to.join(e.file_name())).unwrap();
-        }
-    }
 }
 
 impl Pane {

@@ -9,7 +9,7 @@
 //! `tests/marks_crash.rs` kills a bare appender process at random points, including torn
 //! tails; this part kills the whole program the user runs.
 
-use super::tmux_support::{copy_dir, fixture_subject, Server};
+use super::tmux_support::{scratch_subject, Server};
 use super::{tmux_or_skip, Figures};
 use rand::{Rng, SeedableRng};
 use std::time::{Duration, Instant};
@@ -27,11 +27,8 @@ pub fn run(figures: &mut Figures) {
         return;
     }
     let tmp = tempfile::tempdir().unwrap();
-    let subject = tmp.path().join("m-007");
-    copy_dir(&fixture_subject(), &subject);
+    let (subject, config) = scratch_subject(tmp.path());
     let session = subject.join("2026-03-02");
-    let config = tmp.path().join("config");
-    std::fs::create_dir_all(config.join("trialdesk")).unwrap();
     let server = Server::start(
         "kill",
         vec![format!("XDG_CONFIG_HOME={}", config.display())],

@@ -8,7 +8,7 @@
 //! `tests/marks_concurrency.rs` races bare appender processes at high rate; this part races
 //! the program the user runs and checks what each user sees.
 
-use super::tmux_support::{copy_dir, fixture_subject, listed_glyph, Server};
+use super::tmux_support::{listed_glyph, scratch_subject, Server};
 use super::{tmux_or_skip, Figures};
 use std::time::{Duration, Instant};
 use trialdesk::marks::{read_journal, MarkKind};
@@ -37,11 +37,8 @@ pub fn run(figures: &mut Figures) {
         return;
     }
     let tmp = tempfile::tempdir().unwrap();
-    let subject = tmp.path().join("m-007");
-    copy_dir(&fixture_subject(), &subject);
+    let (subject, config) = scratch_subject(tmp.path());
     let session = subject.join("2026-03-02");
-    let config = tmp.path().join("config");
-    std::fs::create_dir_all(config.join("trialdesk")).unwrap();
     let server = Server::start(
         "reviewers",
         vec![format!("XDG_CONFIG_HOME={}", config.display())],

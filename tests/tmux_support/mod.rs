@@ -37,6 +37,16 @@ pub fn fixture_subject() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/tui/m-007")
 }
 
+/// A copy of the fixture subject in `tmp` (as `m-007`) and an empty config folder beside it
+/// (`config/trialdesk/` made); returns (subject, config). Point XDG_CONFIG_HOME at config.
+pub fn scratch_subject(tmp: &Path) -> (PathBuf, PathBuf) {
+    let subject = tmp.join("m-007");
+    copy_dir(&fixture_subject(), &subject);
+    let config = tmp.join("config");
+    std::fs::create_dir_all(config.join("trialdesk")).unwrap();
+    (subject, config)
+}
+
 /// A tmux server of its own (killed on drop) with windows 200×30 (wide enough for a status
 /// line with a long path and the system's reason) that stay after their program ends, so a
 /// killed reviewer's window can be restarted in place.
