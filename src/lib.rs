@@ -13,6 +13,7 @@ pub mod marks;
 pub mod model;
 pub mod obs;
 pub mod photometry;
+pub mod plan;
 pub mod plots;
 pub mod safe_write;
 pub mod simulate;

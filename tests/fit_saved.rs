@@ -28,6 +28,7 @@ fn example() -> SavedFit {
         lambda_fitted: false,
         log_likelihood: Some(-1234.5),
         n_observations: Some(800),
+        signal: None,
         unit: Some("u2".into()),
         latency_s: Some(0.05),
         cue_window_s: Some([0.05, 0.35]),

@@ -295,6 +295,7 @@ fn saved_fit(alpha: f64) -> trialdesk::fit::saved::SavedFit {
         lambda_fitted: true,
         log_likelihood: None,
         n_observations: None,
+        signal: None,
         unit: None,
         latency_s: None,
         cue_window_s: None,

@@ -358,6 +358,7 @@ fn saved_fit_parameters_are_used_and_labelled() {
         lambda_fitted: true,
         log_likelihood: Some(-12.5),
         n_observations: Some(40),
+        signal: None,
         unit: None,
         latency_s: None,
         cue_window_s: None,
@@ -367,8 +368,7 @@ fn saved_fit_parameters_are_used_and_labelled() {
         sensor_decay_s: None,
     };
     save(&dir, &fit).unwrap();
-    let (settings, problem) = ModelSettings::from_subject(&dir);
-    assert_eq!(problem, None);
+    let settings = ModelSettings::from_subject(&dir).unwrap();
     assert_eq!(settings.params.alpha, 0.2);
     assert!(matches!(settings.source, ParamSource::SavedFit { .. }));
     let loaded = trialdesk::data::load(&dir).unwrap();
@@ -399,9 +399,12 @@ fn saved_fit_parameters_are_used_and_labelled() {
     assert!(row.contains("8.50"), "{row}");
 
     std::fs::write(dir.join("trialdesk-fit.toml"), "alpha = \"fast\"\n").unwrap();
-    let (settings, problem) = ModelSettings::from_subject(&dir);
-    assert_eq!(settings.source, ParamSource::Defaults);
-    assert!(problem.unwrap().starts_with("saved fit not used:"));
+    // A saved fit that cannot be read is refused, naming the file, as in every command.
+    let err = ModelSettings::from_subject(&dir).unwrap_err().to_string();
+    assert!(
+        err.contains("trialdesk-fit.toml") && err.contains("rerun `trialdesk fit`"),
+        "{err}"
+    );
 }
 
 #[test]

@@ -4,14 +4,13 @@
 //! → report on stdout, tables in `--out`, parameters saved in the subject folder. The progress
 //! bar goes to stderr, only on a terminal, and only once the fit has taken more than a second.
 
+use super::obs_args::ObsArgs;
 use super::{CliError, CmdResult};
 use crate::cohort::Shard;
 use crate::data;
-use crate::fit::{self, dataset, report, saved, sensitivity, FitOptions, Progress, ResampleUnit};
-use crate::marks::{self, MarkState};
+use crate::fit::{self, report, saved, FitOptions, Progress, ResampleUnit};
 use crate::model::{self, Representation};
-use crate::obs::{self, ObsOptions, Signal};
-use crate::suggest::{pending_for_session, RuleSet, Suggestion};
+use crate::plan::{self, fit::FitError, fit::FitJob};
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
@@ -45,36 +44,8 @@ pub struct Args {
     /// Accepted for compatibility and ignored: λ is fitted by default (--lambda L fixes it)
     #[arg(long, conflicts_with = "lambda")]
     pub fit_lambda: bool,
-    /// Activity to fit: spikes or photometry [default: spikes when the first session has
-    /// spikes.csv, otherwise photometry]
-    #[arg(long)]
-    pub signal: Option<String>,
-    /// Fit one sorted unit's rate instead of the population mean rate
-    #[arg(long)]
-    pub unit: Option<String>,
-    /// Cue response window after cue onset, "start,end" seconds
-    /// [default: 0.05,0.35 for spikes; 0,1 for photometry]
-    #[arg(long, value_name = "START,END", allow_hyphen_values = true)]
-    pub cue_window: Option<String>,
-    /// Reward response window after the reward (or the expected reward time on omissions),
-    /// "start,end" seconds [default: 0.05,0.35 for spikes; 0,1 for photometry]
-    #[arg(long, value_name = "START,END", allow_hyphen_values = true)]
-    pub reward_window: Option<String>,
-    /// Pre-cue baseline window relative to cue onset, "start,end" seconds [default: -1,0]
-    #[arg(long, value_name = "START,END", allow_hyphen_values = true)]
-    pub baseline_window: Option<String>,
-    /// Response latency: windows are mapped onto model bins shifted back by it, seconds
-    /// [default: 0.05, as the simulated sensor's onset]
-    #[arg(long)]
-    pub latency: Option<f64>,
-    /// Photometry: decay time constant of the sensor kernel, seconds; δ of every bin is weighted
-    /// by the kernel's mean over each window instead of summing the window's bins (0: plain
-    /// sum) [default: 0.6 for photometry, as simulate's sensor; set it to your sensor's]
-    #[arg(long, value_name = "S")]
-    pub sensor_decay: Option<f64>,
-    /// Photometry: rise time constant of the sensor kernel, seconds [default: 0.1]
-    #[arg(long, value_name = "S")]
-    pub sensor_rise: Option<f64>,
+    #[command(flatten)]
+    pub obs: ObsArgs,
     /// Bootstrap replicates for the confidence intervals (0: none)
     #[arg(long, default_value_t = 50)]
     pub bootstrap: usize,
@@ -108,21 +79,6 @@ pub struct Args {
     /// too, in memory; nothing is written to marks.csv)
     #[arg(long)]
     pub no_sensitivity: bool,
-}
-
-fn parse_window(name: &str, text: &str) -> Result<(f64, f64), CliError> {
-    let bad = || {
-        CliError::usage(format!(
-            "--{name} '{text}' is not a window (expected START,END in seconds, start < end, e.g. 0.05,0.35)"
-        ))
-    };
-    let (a, b) = text.split_once(',').ok_or_else(bad)?;
-    let a: f64 = a.trim().parse().map_err(|_| bad())?;
-    let b: f64 = b.trim().parse().map_err(|_| bad())?;
-    if !(a.is_finite() && b.is_finite() && a < b) {
-        return Err(bad());
-    }
-    Ok((a, b))
 }
 
 fn fit_options(args: &Args) -> Result<FitOptions, CliError> {
@@ -161,138 +117,6 @@ fn fit_options(args: &Args) -> Result<FitOptions, CliError> {
     })
 }
 
-fn obs_options(args: &Args, subject: &data::Subject) -> Result<ObsOptions, CliError> {
-    let photometry = match args.signal.as_deref() {
-        Some("spikes") => false,
-        Some("photometry") => true,
-        Some(other) => {
-            return Err(CliError::usage(format!(
-                "--signal '{other}' is not known (expected spikes or photometry)"
-            )))
-        }
-        None => subject
-            .sessions
-            .first()
-            .is_some_and(|s| s.spikes.is_none() && s.photometry.is_some()),
-    };
-    if photometry && args.unit.is_some() {
-        return Err(CliError::usage(
-            "--unit applies to spikes, not to photometry",
-        ));
-    }
-    let mut o = if photometry {
-        ObsOptions::photometry()
-    } else {
-        ObsOptions {
-            signal: Signal::Spikes {
-                unit: args.unit.clone(),
-            },
-            ..ObsOptions::default()
-        }
-    };
-    if let Some(w) = &args.cue_window {
-        o.cue_window = parse_window("cue-window", w)?;
-    }
-    if let Some(w) = &args.reward_window {
-        o.reward_window = parse_window("reward-window", w)?;
-    }
-    if let Some(w) = &args.baseline_window {
-        o.baseline = parse_window("baseline-window", w)?;
-    }
-    if let Some(l) = args.latency {
-        if !l.is_finite() {
-            return Err(CliError::usage(format!(
-                "--latency {l} is not a number of seconds"
-            )));
-        }
-        o.latency = l;
-    }
-    Ok(o)
-}
-
-/// Default sensor kernel for photometry fits: simulate's sensor (rise 0.1 s, decay 0.6 s).
-pub const DEFAULT_SENSOR: (f64, f64) = (0.1, 0.6);
-
-/// The sensor kernel of a photometry fit (`None`: plain window sums).
-fn sensor_kernel(args: &Args, obs: &ObsOptions) -> Result<Option<dataset::SensorKernel>, CliError> {
-    if obs.signal != Signal::Photometry {
-        if args.sensor_decay.is_some() || args.sensor_rise.is_some() {
-            return Err(CliError::usage(
-                "--sensor-decay and --sensor-rise apply to --signal photometry",
-            ));
-        }
-        return Ok(None);
-    }
-    let decay = args.sensor_decay.unwrap_or(DEFAULT_SENSOR.1);
-    if decay == 0.0 {
-        return Ok(None);
-    }
-    let k = dataset::SensorKernel {
-        rise_s: args.sensor_rise.unwrap_or(DEFAULT_SENSOR.0),
-        decay_s: decay,
-        latency_s: obs.latency,
-    };
-    if !k.is_valid() {
-        return Err(CliError::usage(format!(
-            "--sensor-rise {} / --sensor-decay {}: expected 0 < rise < decay seconds (decay 0 turns the kernel off)",
-            k.rise_s, k.decay_s
-        )));
-    }
-    Ok(Some(k))
-}
-
-/// Standing marks of every session; unreadable journals stop the fit unless marks are ignored.
-fn read_marks(subject: &data::Subject, ignore_marks: bool) -> Result<Vec<MarkState>, CliError> {
-    let mut out = Vec::with_capacity(subject.sessions.len());
-    for s in &subject.sessions {
-        match marks::read_journal(&s.dir) {
-            Ok(j) => {
-                if let Some((line, _)) = &j.torn_tail {
-                    eprintln!(
-                        "{}:{line}: warning: incomplete last line ignored",
-                        j.path.display()
-                    );
-                }
-                out.push(j.state());
-            }
-            Err(e) if ignore_marks => {
-                eprintln!("warning: {e} (marks are ignored for this fit)");
-                out.push(MarkState::default());
-            }
-            Err(e) => {
-                return Err(CliError::failed(format!(
-                    "{e}\nthe marks could not be read, so exclusions cannot be honoured; fix the \
-                     file or rerun with --ignore-marks"
-                )))
-            }
-        }
-    }
-    Ok(out)
-}
-
-/// The observation options in words; for photometry also how ΔF/F was made per session.
-fn describe_obs(o: &ObsOptions, subject: &data::Subject) -> String {
-    let method = match o.signal {
-        Signal::Photometry => crate::obs::photometry::photometry_methods(subject)
-            .map(|m| format!("; ΔF/F: {m}"))
-            .unwrap_or_default(),
-        _ => String::new(),
-    };
-    format!(
-        "{}; cue window [{}, {}] s, reward window [{}, {}] s after the event (the expected \
-         time on omissions), baseline [{}, {}] s from cue onset; windows mapped onto model bins \
-         {} s earlier (latency){method}",
-        o.signal.label(),
-        o.cue_window.0,
-        o.cue_window.1,
-        o.reward_window.0,
-        o.reward_window.1,
-        o.baseline.0,
-        o.baseline.1,
-        o.latency
-    )
-}
-
 fn write_out(
     dir: &Path,
     out: &fit::FitOutcome,
@@ -312,38 +136,6 @@ fn write_out(
     crate::safe_write::replace_file(&trials_path, &buf)
         .map_err(|e| CliError::failed(e.to_string()))?;
     Ok(())
-}
-
-/// Pending suggested marks of every session (user rules over the shipped defaults), then the
-/// refit with their trials excluded too. Reads marks.csv, never writes it.
-fn sensitivity_line(
-    subject: &data::Subject,
-    data: &fit::FitData,
-    outcome: &fit::FitOutcome,
-    opts: &FitOptions,
-    progress: &dyn Progress,
-) -> String {
-    let rules = match RuleSet::load_user() {
-        Ok((rules, _)) => rules,
-        Err(e) => {
-            return format!(
-                "Sensitivity to suggested marks: skipped, the rule file has an error: {e}"
-            )
-        }
-    };
-    let per_session: Vec<Vec<Suggestion>> = subject
-        .sessions
-        .iter()
-        .map(|s| {
-            pending_for_session(s, &rules).unwrap_or_else(|e| {
-                eprintln!("warning: {e} (suggested marks of this session left out of the sensitivity line)");
-                Vec::new()
-            })
-        })
-        .collect();
-    let trials = sensitivity::SuggestedTrials::new(data, &per_session, &subject.cue_names());
-    let result = sensitivity::sensitivity(data, outcome, opts, &trials, progress);
-    sensitivity::line(&result, &trials, outcome, opts.lambda_fitted())
 }
 
 /// This invocation as the user would retype it (program name without its folder).
@@ -392,104 +184,42 @@ pub(crate) fn fit_subject(
         eprintln!("{w}");
     }
     let subject = &loaded.subject;
-    let obs_opts = obs_options(args, subject)?;
-    let observations =
-        obs::observe(subject, &obs_opts).map_err(|e| CliError::failed(e.to_string()))?;
-    let marks = read_marks(subject, args.ignore_marks)?;
-    let kernel = sensor_kernel(args, &obs_opts)?;
-    let mut data = dataset::build(
-        subject,
-        &observations,
-        &obs_opts,
-        args.dt,
-        &marks,
-        args.ignore_marks,
-    );
-    if let Some(k) = kernel {
-        data = dataset::with_sensor_kernel(data, k, &obs_opts);
+    let request = plan::fit::FitRequest {
+        obs: args.obs.request(),
+        dt: args.dt,
+        ignore_marks: args.ignore_marks,
+        sensitivity: !args.no_sensitivity,
+        command: command_line(),
+    };
+    let job = FitJob::prepare(subject, &request).map_err(|e| fit_error(path, e))?;
+    for w in &job.warnings {
+        eprintln!("{w}");
     }
-
     if announce {
         eprintln!(
             "fitting {} response windows over {} trials; on a rig computer that is acquiring, \
              stop and rerun at low priority: nice -n 19 {}",
-            data.points.len(),
-            data.spans.len(),
-            command_line()
+            job.data.points.len(),
+            job.data.spans.len(),
+            request.command
         );
     }
-    let outcome = fit::run_fit(&data, opts, progress)
-        .map_err(|e| CliError::failed(format!("{}: {e}", path.display())))?;
-
-    let sensitivity = if args.no_sensitivity {
-        None
-    } else {
-        Some(sensitivity_line(subject, &data, &outcome, opts, progress))
-    };
-    let ctx = report::ReportContext {
-        subject: subject
-            .sessions
-            .first()
-            .map(|s| s.meta.subject.clone())
-            .unwrap_or_else(|| subject.root.display().to_string()),
-        observations: match kernel {
-            Some(k) => format!(
-                "{}; δ weighted by a sensor kernel (rise {} s, decay {} s) averaged over each \
-                 window, so the gain is the peak response per unit δ",
-                describe_obs(&obs_opts, subject),
-                k.rise_s,
-                k.decay_s
-            ),
-            None => describe_obs(&obs_opts, subject),
-        },
-        command: command_line(),
-        sensitivity,
-    };
-    let mut text = report::text_report(&outcome, &data, &ctx, opts.lambda_fitted());
-
+    let run = job.run(opts, progress).map_err(|e| fit_error(path, e))?;
+    for w in &run.warnings {
+        eprintln!("{w}");
+    }
+    let mut text = run.text;
     if let Some(dir) = out_dir {
-        write_out(dir, &outcome, &data, opts.lambda_fitted())?;
+        write_out(dir, &run.outcome, &run.data, opts.lambda_fitted())?;
         text.push_str(&format!(
             "Tables written: {} and {}\n",
             dir.join("params.csv").display(),
             dir.join("trials.csv").display()
         ));
     }
-    let n_excluded = if args.ignore_marks {
-        0
-    } else {
-        data.exclusions.n_trials
-    };
     let mut save_error = None;
     if !args.no_save {
-        let lin = &outcome.best.linear;
-        let p = outcome.best.params;
-        let savedfit = saved::SavedFit {
-            alpha: p.alpha,
-            gamma: p.gamma,
-            lambda: p.lambda,
-            dt: data.dt,
-            representation: outcome.model.name().to_string(),
-            gain: lin.gain,
-            baselines: saved::Baselines {
-                cue: lin.baselines[0],
-                reward: lin.baselines[1],
-            },
-            fitted_at: saved::now_rfc3339(),
-            n_excluded,
-            ignore_marks: args.ignore_marks,
-            lambda_fitted: opts.lambda_fitted(),
-            log_likelihood: Some(outcome.best.log_likelihood),
-            n_observations: Some(outcome.n_included),
-            unit: args.unit.clone(),
-            latency_s: Some(obs_opts.latency),
-            cue_window_s: Some([obs_opts.cue_window.0, obs_opts.cue_window.1]),
-            reward_window_s: Some([obs_opts.reward_window.0, obs_opts.reward_window.1]),
-            baseline_window_s: Some([obs_opts.baseline.0, obs_opts.baseline.1]),
-            sensor_rise_s: kernel.map(|k| k.rise_s),
-            sensor_decay_s: kernel.map(|k| k.decay_s),
-        };
-        match saved::save(&subject.root, &savedfit) {
+        match saved::save(&subject.root, &run.saved) {
             Ok(path) => text.push_str(&format!("Fitted parameters saved to {}\n", path.display())),
             Err(e) => {
                 save_error = Some(format!(
@@ -501,12 +231,21 @@ pub(crate) fn fit_subject(
     }
     Ok(SubjectFit {
         text,
-        n_sessions: data.n_sessions(),
-        n_trials: data.spans.len(),
-        n_excluded,
-        outcome,
+        n_sessions: run.data.n_sessions(),
+        n_trials: run.data.spans.len(),
+        n_excluded: run.n_excluded,
+        outcome: run.outcome,
         save_error,
     })
+}
+
+/// A fit that did not run: bad flags exit 2, bad data or a failed fit exit 1.
+fn fit_error(path: &Path, e: FitError) -> CliError {
+    match e {
+        FitError::Plan(p) => p.into(),
+        FitError::Data(m) => CliError::failed(m),
+        FitError::Fit(m) => CliError::failed(format!("{}: {m}", path.display())),
+    }
 }
 
 /// Write `text` to stdout; a closed pipe (`| head`) is not an error.

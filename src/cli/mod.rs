@@ -8,6 +8,7 @@ pub mod fit;
 pub mod marks;
 pub mod merge;
 pub mod model;
+pub mod obs_args;
 pub mod plot;
 pub mod review;
 pub mod simulate;

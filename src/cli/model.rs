@@ -7,9 +7,10 @@
 
 use super::{CliError, CmdResult};
 use crate::data;
-use crate::fit::saved::{load_saved, saved_path};
+use crate::fit::saved::saved_path;
 use crate::model::labels::{bin_time_text, trial_labels};
 use crate::model::{self, defaults, layout_subject_with_skips, Representation, TdParams};
+use crate::plan::CheckedFit;
 use crate::util::fmt_f64;
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -101,46 +102,18 @@ fn saved_fit_params(path: &Path, args: &Args) -> Result<TdParams, CliError> {
              every parameter comes from the saved fit",
         ));
     }
-    let mut roots = vec![path.to_path_buf()];
-    if path.join("session.toml").is_file() {
-        roots.extend(path.parent().map(Path::to_path_buf));
+    match CheckedFit::find(path)? {
+        Some(c) => {
+            eprintln!("model: parameters from the saved fit: {}", c.describe());
+            Ok(c.params)
+        }
+        None => Err(CliError::usage(format!(
+            "no --alpha/--gamma given and no saved fit at {}; run `trialdesk fit {}` first, or \
+             give --alpha and --gamma",
+            saved_path(path).display(),
+            path.display()
+        ))),
     }
-    for root in &roots {
-        let Some(loaded) = load_saved(root) else {
-            continue;
-        };
-        let file = saved_path(root);
-        let fit = loaded.map_err(|e| {
-            CliError::failed(format!(
-                "{e}\nrerun `trialdesk fit`, or give --alpha and --gamma"
-            ))
-        })?;
-        let p = fit.td_params().map_err(|e| {
-            CliError::failed(format!(
-                "{}: {e}; the saved fit is not used (rerun `trialdesk fit`, or give --alpha \
-                 and --gamma)",
-                file.display()
-            ))
-        })?;
-        eprintln!(
-            "model: parameters from the saved fit {} (fitted {}): {} alpha={} gamma={} \
-             lambda={} dt={} s",
-            file.display(),
-            crate::util::printable(&fit.fitted_at),
-            p.representation.name(),
-            fmt_f64(p.alpha),
-            fmt_f64(p.gamma),
-            fmt_f64(p.lambda),
-            fmt_f64(p.dt)
-        );
-        return Ok(p);
-    }
-    Err(CliError::usage(format!(
-        "no --alpha/--gamma given and no saved fit at {}; run `trialdesk fit {}` first, or give \
-         --alpha and --gamma",
-        saved_path(&roots[roots.len() - 1]).display(),
-        path.display()
-    )))
 }
 
 pub fn run(args: Args) -> CmdResult {

@@ -4,16 +4,17 @@
 //! Thin shell: load → observations → marks → day rows (and a model pass at the saved fit's
 //! parameters) → `crate::plots` → files in `--out` only.
 
-use super::summary::{obs_options, ObsArgs};
+use super::obs_args::ObsArgs;
 use super::{CliError, CmdResult};
-use crate::data::{self, Session, Subject};
+use crate::data::{self, Session};
 use crate::fit::dataset;
-use crate::fit::saved::{fitted_window_deltas, load_saved, SavedFit};
-use crate::marks::{read_journal, MarkKind, MarkState};
-use crate::model::{self, layout_subject, Representation, TdParams};
+use crate::fit::saved::fitted_window_deltas;
+use crate::marks::{MarkKind, MarkState};
+use crate::model::{self, layout_subject};
 use crate::obs::{
     alignment_time, observe_lenient, ObsOptions, SessionActivity, Signal, TrialKind, TrialObs,
 };
+use crate::plan::{measurement, standing_marks, CheckedFit, MarksPolicy};
 use crate::plots::{self, fit_trials, HeatMap, TrialCurves};
 use crate::summary::{day_rows, ModelTraces};
 use std::collections::HashMap;
@@ -37,6 +38,10 @@ pub struct Args {
     pub out: PathBuf,
     #[command(flatten)]
     pub obs: ObsArgs,
+    /// Draw excluded trials like the others; an unreadable marks.csv is then a warning instead
+    /// of an error
+    #[arg(long)]
+    pub ignore_marks: bool,
     /// Heat map bin width, seconds
     #[arg(long, default_value_t = 0.05, value_name = "SECONDS")]
     pub heat_bin: f64,
@@ -50,22 +55,6 @@ pub struct Args {
 
 fn warn(msg: impl std::fmt::Display) {
     eprintln!("trialdesk: warning: {msg}");
-}
-
-/// Standing marks per session; an unreadable journal is warned about and read as no marks
-/// (a picture should not fail for it, but the warning says the exclusions are missing).
-fn read_marks(subject: &Subject) -> Vec<MarkState> {
-    subject
-        .sessions
-        .iter()
-        .map(|s| match read_journal(&s.dir) {
-            Ok(j) => j.state(),
-            Err(e) => {
-                warn(format!("{e}; this session is drawn without its marks"));
-                MarkState::default()
-            }
-        })
-        .collect()
 }
 
 fn unit_label(signal: &Signal) -> &'static str {
@@ -174,16 +163,6 @@ fn session_heatmap(
     })
 }
 
-fn model_params(fit: &SavedFit) -> Option<TdParams> {
-    Some(TdParams {
-        alpha: fit.alpha,
-        gamma: fit.gamma,
-        lambda: fit.lambda,
-        dt: fit.dt,
-        representation: Representation::parse(&fit.representation)?,
-    })
-}
-
 fn write_svg(
     dir: &Path,
     name: &str,
@@ -239,26 +218,14 @@ fn run_subject(args: Args) -> CmdResult {
     let saved = if single_session || args.no_model {
         None
     } else {
-        match load_saved(&subject.root) {
-            Some(Ok(f)) => Some(f),
-            Some(Err(e)) => {
-                warn(format!("{e}; the model panels are left empty"));
-                None
-            }
-            None => None,
-        }
+        CheckedFit::load(&subject.root)?
     };
-    let params = saved.as_ref().and_then(|f| {
-        let p = model_params(f);
-        if p.is_none() {
-            warn(format!(
-                "saved fit: unknown representation '{}'; the model panels are left empty",
-                f.representation
-            ));
-        }
-        p
-    });
-    let opts = obs_options(&subject, &args.obs, saved.as_ref())?;
+    let params = saved.as_ref().map(|f| f.params);
+    let m = measurement(&subject, &args.obs.request(), saved.as_ref())?;
+    if let Some(note) = m.choice.missing_note() {
+        warn(note);
+    }
+    let opts = m.obs.clone();
     let (obs, problems) =
         observe_lenient(&subject, &opts).map_err(|e| CliError::usage(e.to_string()))?;
     if !problems.is_empty() && obs.iter().all(|o| o.cue.is_none() && o.reward.is_none()) {
@@ -267,7 +234,20 @@ fn run_subject(args: Args) -> CmdResult {
     for p in &problems {
         warn(format!("{p}; its responses are left out"));
     }
-    let marks = read_marks(&subject);
+    let policy = if args.ignore_marks {
+        MarksPolicy::Ignore
+    } else {
+        MarksPolicy::Honour
+    };
+    let standing = standing_marks(&subject, policy)?;
+    for w in &standing.warnings {
+        eprintln!("{w}");
+    }
+    let marks = if args.ignore_marks {
+        vec![MarkState::default(); subject.sessions.len()]
+    } else {
+        standing.per_session
+    };
     for s in &args.session {
         if !subject.sessions.iter().any(|x| &x.name == s) {
             return Err(CliError::usage(format!(
@@ -292,7 +272,7 @@ fn run_subject(args: Args) -> CmdResult {
         let run = model::run(&spans, subject.cue_names().len(), &p);
         (spans, run, p)
     });
-    let kernel = saved.as_ref().and_then(|f| f.sensor_kernel(&opts));
+    let kernel = m.kernel;
     let traces = model_run.as_ref().map(|(spans, run, p)| ModelTraces {
         spans,
         run,
@@ -338,13 +318,16 @@ fn run_subject(args: Args) -> CmdResult {
     match (&saved, &model_run) {
         (Some(fit), Some((_, _, p))) => {
             let data = dataset::build(&subject, &obs, &opts, p.dt, &marks, false);
-            let data = fit.fit_data(data, &opts);
-            // Representation already checked by `model_params`.
-            let predicted = fit.predictions(&data).unwrap_or_default();
+            let data = match kernel {
+                Some(k) => dataset::with_sensor_kernel(data, k, &opts),
+                None => data,
+            };
+            // The representation was checked with the saved fit.
+            let predicted = fit.fit.predictions(&data).unwrap_or_default();
             let rows = fit_trials::rows_from(&data, &predicted);
             let title = format!(
                 "{name}, {} α={:.4} γ={:.4} λ={:.3} (saved {})",
-                fit.representation, fit.alpha, fit.gamma, fit.lambda, fit.fitted_at
+                fit.fit.representation, fit.fit.alpha, fit.fit.gamma, fit.fit.lambda, fit.fit.fitted_at
             );
             let svg = plots::fit_trials(&title, &rows, unit)
                 .map_err(|e| CliError::failed(e.to_string()))?;

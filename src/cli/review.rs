@@ -1,6 +1,7 @@
 //! `trialdesk review`: load the data, settle reviewer, reasons and keys, then hand over to the
 //! terminal reviewer (`crate::tui`).
 
+use super::obs_args::ObsArgs;
 use super::{CliError, CmdResult};
 use crate::data;
 use crate::tui::derived::ModelSettings;
@@ -33,6 +34,8 @@ pub struct Args {
     /// Show rows the rig appends to the last session while it records (polled every second)
     #[arg(long)]
     pub follow: bool,
+    #[command(flatten)]
+    pub obs: ObsArgs,
 }
 
 fn read_layer(path: &Path) -> Result<(String, String), CliError> {
@@ -98,7 +101,20 @@ pub fn run(args: Args) -> CmdResult {
             args.path.display()
         )));
     }
-    let (settings, fit_problem) = ModelSettings::from_subject(&loaded.subject.root);
+    // The same plan as every command: a saved fit that fails its check, or flags that do not
+    // fit the data, stop here, before the terminal is taken over.
+    let mut settings = ModelSettings::from_subject(&loaded.subject.root)?;
+    settings.request = args.obs.request();
+    let planned =
+        match crate::plan::measurement(&loaded.subject, &settings.request, settings.saved.as_ref())
+        {
+            Err(e @ crate::plan::PlanError::NoActivity(_)) => {
+                eprintln!("trialdesk: warning: {e}; reviewing licks and marks only");
+                None
+            }
+            other => Some(other?),
+        };
+    let fit_problem = planned.and_then(|m| m.choice.missing_note());
     // A broken suggest.toml should not keep anyone from reviewing: shipped rules, and say so.
     let (rules, rules_problem) = match crate::suggest::RuleSet::load_user() {
         Ok((rules, _)) => (rules, None),

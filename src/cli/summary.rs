@@ -1,12 +1,14 @@
 //! `trialdesk summary`: the per-day learning table of a subject (or of every subject of a
 //! cohort folder) as text, tidy CSV or Markdown.
 
+use super::obs_args::ObsArgs;
 use super::{CliError, CmdResult};
 use crate::data::{load, Subject};
-use crate::fit::saved::{load_saved, saved_path, SavedFit};
-use crate::marks::{read_journal, MarkKind, MarkState};
+use crate::fit::saved::saved_path;
+use crate::marks::{MarkKind, MarkState};
 use crate::model::{layout_subject, Representation, TdParams, DEFAULT_DT};
-use crate::obs::{observe_lenient, ObsOptions, Signal};
+use crate::obs::{observe_lenient, Signal};
+use crate::plan::{measurement, standing_marks, CheckedFit, MarksPolicy};
 use crate::suggest::RuleSet;
 use crate::summary::cohort::{cohort_rows, cohort_subject_dirs};
 use crate::summary::render::{self, Format, SubjectSummary, SuggestedCounts};
@@ -23,41 +25,6 @@ pub enum FormatArg {
     Csv,
     /// Markdown tables for a lab notebook
     Markdown,
-}
-
-#[derive(clap::ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
-pub enum SignalArg {
-    /// Spikes if the sessions have spikes.csv, else photometry
-    Auto,
-    Spikes,
-    Photometry,
-}
-
-/// Observation settings, shared in spirit with `trialdesk fit` (same names and defaults).
-#[derive(clap::Args, Debug, Clone)]
-pub struct ObsArgs {
-    /// Activity to measure responses on
-    #[arg(long, value_enum, default_value = "auto")]
-    pub signal: SignalArg,
-    /// One sorted unit instead of the population mean rate (spikes only)
-    #[arg(long)]
-    pub unit: Option<String>,
-    /// Cue window START,END in seconds after cue onset [default: 0.05,0.35; photometry 0,1;
-    /// or the saved fit's]
-    #[arg(long, value_name = "START,END", value_parser = parse_window, allow_hyphen_values = true)]
-    pub cue_window: Option<(f64, f64)>,
-    /// Reward window START,END in seconds after the (expected) reward [default: 0.05,0.35;
-    /// photometry 0,1; or the saved fit's]
-    #[arg(long, value_name = "START,END", value_parser = parse_window, allow_hyphen_values = true)]
-    pub reward_window: Option<(f64, f64)>,
-    /// Baseline START,END in seconds relative to cue onset (uncued trials: the reward)
-    /// [default: -1,0]
-    #[arg(long, value_name = "START,END", value_parser = parse_window, allow_hyphen_values = true)]
-    pub baseline: Option<(f64, f64)>,
-    /// Response latency in seconds: windows map onto model bins shifted back by it
-    /// [default: 0.05; photometry 0; or the saved fit's]
-    #[arg(long, value_name = "SECONDS")]
-    pub latency: Option<f64>,
 }
 
 #[derive(clap::Args, Debug)]
@@ -85,6 +52,10 @@ pub struct Args {
     pub out: Option<PathBuf>,
     #[command(flatten)]
     pub obs: ObsArgs,
+    /// Count excluded trials' observations in the means too; an unreadable marks.csv is then
+    /// a warning instead of an error
+    #[arg(long)]
+    pub ignore_marks: bool,
     /// Leave out the model δ columns even when a saved fit exists
     #[arg(long)]
     pub no_model: bool,
@@ -100,25 +71,6 @@ pub struct Args {
     /// Stimulus representation (with --alpha): csc, presence or microstimulus [default: csc]
     #[arg(long, requires = "alpha")]
     pub representation: Option<String>,
-}
-
-/// `START,END` seconds.
-pub fn parse_window(s: &str) -> Result<(f64, f64), String> {
-    let (a, b) = s
-        .split_once(',')
-        .ok_or_else(|| format!("`{s}`: expected START,END in seconds, e.g. 0.05,0.35"))?;
-    let num = |x: &str| {
-        x.trim()
-            .parse::<f64>()
-            .ok()
-            .filter(|v| v.is_finite())
-            .ok_or_else(|| format!("`{x}` is not a number of seconds"))
-    };
-    let (a, b) = (num(a)?, num(b)?);
-    if a >= b {
-        return Err(format!("`{s}`: START must be before END"));
-    }
-    Ok((a, b))
 }
 
 pub fn run(args: Args) -> CmdResult {
@@ -202,16 +154,13 @@ fn summarise(
     let saved = if single_session || args.no_model || args.alpha.is_some() {
         None
     } else {
-        match load_saved(&subject.root) {
-            None => None,
-            Some(Ok(fit)) => Some(fit),
-            Some(Err(e)) => {
-                warn(format!("{e}; model δ columns left out"));
-                None
-            }
-        }
+        CheckedFit::load(&subject.root)?
     };
-    let opts = obs_options(&subject, &args.obs, saved.as_ref())?;
+    let m = measurement(&subject, &args.obs.request(), saved.as_ref())?;
+    if let Some(note) = m.choice.missing_note() {
+        warn(note);
+    }
+    let opts = m.obs.clone();
     let (obs, problems) =
         observe_lenient(&subject, &opts).map_err(|e| CliError::usage(e.to_string()))?;
     if !problems.is_empty() && obs.iter().all(|o| o.cue.is_none() && o.reward.is_none()) {
@@ -221,7 +170,29 @@ fn summarise(
     for p in &problems {
         warn(format!("{p}; its responses are left blank"));
     }
-    let marks = read_marks(&subject)?;
+    let policy = if args.ignore_marks {
+        MarksPolicy::Ignore
+    } else {
+        MarksPolicy::Honour
+    };
+    let standing = standing_marks(&subject, policy)?;
+    for w in &standing.warnings {
+        eprintln!("{w}");
+    }
+    let exclusions = match args.ignore_marks {
+        false => exclusion_note(&standing.per_session),
+        true => format!(
+            "exclusions: ignored (--ignore-marks); every trial's observations are in the means \
+             [{}]",
+            exclusion_note(&standing.per_session)
+        ),
+    };
+    let journal = standing.per_session;
+    let marks = if args.ignore_marks {
+        vec![MarkState::default(); subject.sessions.len()]
+    } else {
+        journal.clone()
+    };
 
     let mut notes = vec![format!(
         "activity: {}; cue window {}-{} s after cue onset, reward window {}-{} s after the \
@@ -239,8 +210,8 @@ fn summarise(
             notes.extend(methods.lines().map(|m| format!("photometry: {m}")));
         }
     }
-    notes.push(exclusion_note(&marks));
-    let suggested = rules.map(|(rules, _)| suggested_counts(&subject, &marks, rules));
+    notes.push(exclusions);
+    let suggested = rules.map(|(rules, _)| suggested_counts(&subject, &journal, rules));
     notes.push(match rules {
         Some((_, Some(file))) => format!(
             "suggested marks: pending ones per rule, rules from {} over the shipped defaults",
@@ -261,7 +232,7 @@ fn summarise(
         run: r,
         dt: *dt,
         opts: &opts,
-        kernel: saved.as_ref().and_then(|f| f.sensor_kernel(&opts)),
+        kernel: m.kernel,
     });
     let rows = day_rows(&subject, &obs, &marks, traces);
     let name = subject
@@ -277,82 +248,6 @@ fn summarise(
         },
         suggested,
     ))
-}
-
-/// The observation options in force: command-line windows, else the saved fit's, else the
-/// signal's defaults (shared by `summary` and `plot` so both measure the same responses).
-pub(super) fn obs_options(
-    subject: &Subject,
-    a: &ObsArgs,
-    saved: Option<&SavedFit>,
-) -> Result<ObsOptions, CliError> {
-    let signal = match a.signal {
-        SignalArg::Spikes => Signal::Spikes {
-            unit: a.unit.clone(),
-        },
-        SignalArg::Photometry => Signal::Photometry,
-        SignalArg::Auto => {
-            if subject.sessions.iter().any(|s| s.spikes.is_some()) || a.unit.is_some() {
-                Signal::Spikes {
-                    unit: a.unit.clone(),
-                }
-            } else if subject.sessions.iter().any(|s| s.photometry.is_some()) {
-                Signal::Photometry
-            } else {
-                return Err(CliError::failed(format!(
-                    "{}: no activity to measure: no session has spikes.csv or photometry.csv",
-                    subject.root.display()
-                )));
-            }
-        }
-    };
-    if a.unit.is_some() && signal == Signal::Photometry {
-        return Err(CliError::usage("--unit applies to spikes, not photometry"));
-    }
-    let base = match signal {
-        Signal::Photometry => ObsOptions::photometry(),
-        _ => ObsOptions::default(),
-    };
-    let from_fit = |f: fn(&SavedFit) -> Option<[f64; 2]>| saved.and_then(f).map(|[a, b]| (a, b));
-    let opts = ObsOptions {
-        cue_window: a
-            .cue_window
-            .or(from_fit(|s| s.cue_window_s))
-            .unwrap_or(base.cue_window),
-        reward_window: a
-            .reward_window
-            .or(from_fit(|s| s.reward_window_s))
-            .unwrap_or(base.reward_window),
-        baseline: a
-            .baseline
-            .or(from_fit(|s| s.baseline_window_s))
-            .unwrap_or(base.baseline),
-        latency: a
-            .latency
-            .or(saved.and_then(|s| s.latency_s))
-            .unwrap_or(base.latency),
-        signal,
-    };
-    opts.validate()
-        .map_err(|e| CliError::usage(e.to_string()))?;
-    Ok(opts)
-}
-
-fn read_marks(subject: &Subject) -> Result<Vec<MarkState>, CliError> {
-    subject
-        .sessions
-        .iter()
-        .map(|s| {
-            let j = read_journal(&s.dir).map_err(|e| CliError::failed(e.to_string()))?;
-            if let Some((line, _)) = &j.torn_tail {
-                warn(format!(
-                    "{}:{line}: incomplete last line ignored",
-                    j.path.display()
-                ));
-            }
-            Ok(j.state())
-        })
-        .collect()
 }
 
 /// "N trials excluded (reason ×k, ...)" and what that means for the means.
@@ -391,7 +286,7 @@ fn exclusion_note(marks: &[MarkState]) -> String {
 fn model_params(
     subject: &Subject,
     args: &Args,
-    saved: Option<&SavedFit>,
+    saved: Option<&CheckedFit>,
     single_session: bool,
     notes: &mut Vec<String>,
 ) -> Result<Option<TdParams>, CliError> {
@@ -433,33 +328,8 @@ fn model_params(
         ));
         return Ok(None);
     };
-    let Some(representation) = Representation::parse(&fit.representation) else {
-        warn(format!(
-            "{}: unknown representation `{}`; model δ columns left out",
-            saved_path(&subject.root).display(),
-            fit.representation
-        ));
-        return Ok(None);
-    };
-    let p = TdParams {
-        alpha: fit.alpha,
-        gamma: fit.gamma,
-        lambda: fit.lambda,
-        dt: if fit.dt > 0.0 { fit.dt } else { DEFAULT_DT },
-        representation,
-    };
-    notes.push(format!(
-        "model δ: {} from {} (fitted {}{})",
-        describe(&p),
-        saved_path(&subject.root).display(),
-        fit.fitted_at,
-        if fit.ignore_marks {
-            ", marks ignored"
-        } else {
-            ""
-        }
-    ));
-    Ok(Some(p))
+    notes.push(format!("model δ: {}", fit.describe()));
+    Ok(Some(fit.params))
 }
 
 fn describe(p: &TdParams) -> String {

@@ -45,7 +45,10 @@ pub struct SavedFit {
     pub log_likelihood: Option<f64>,
     #[serde(default)]
     pub n_observations: Option<usize>,
-    /// Observation settings the fit used, so a reader can rebuild the same observations.
+    /// Observation settings the fit used, so a reader can rebuild the same observations:
+    /// `spikes` or `photometry` (absent in files written before it was recorded).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub signal: Option<String>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub unit: Option<String>,
     #[serde(default)]

@@ -83,15 +83,7 @@ impl From<String> for Cell {
     }
 }
 
-/// Decimals that show about three significant digits of a column's largest value (at least
-/// 2, at most 6): photometry responses of 0.03 and firing rates of 12.5 both stay readable.
-fn decimals_for(values: impl Iterator<Item = f64>) -> usize {
-    let max = values.map(f64::abs).fold(0.0, f64::max);
-    if max <= 0.0 || !max.is_finite() {
-        return 2;
-    }
-    (2.0 - max.log10().floor()).clamp(2.0, 6.0) as usize
-}
+use crate::util::decimals_for;
 
 fn fmt_num(v: Option<f64>, decimals: usize) -> String {
     match v {

@@ -43,19 +43,20 @@ pub fn build_state_with_rules(
     settings: &ModelSettings,
     rules: RuleSet,
 ) -> State {
-    let obs_opts = settings.obs_options(&subject);
-    let model = ModelView::build(&subject, settings, &obs_opts);
-    let obs = derived::observe_spans(&subject, &model, &obs_opts);
+    let m = settings.measurement(&subject);
+    let model = ModelView::build(&subject, settings, &m);
+    let obs = derived::observe_spans(&subject, &model, &m.obs);
     let first = subject
         .sessions
         .first()
         .expect("build_state needs a subject with at least one session");
-    let signal = if first.spikes.as_ref().is_some_and(|s| !s.units.is_empty()) {
-        SignalKind::Spikes
-    } else if first.photometry.is_some() {
-        SignalKind::Photometry
-    } else {
-        SignalKind::Licks
+    // The planned signal where this session has it, else whatever it has.
+    let has_spikes = first.spikes.as_ref().is_some_and(|s| !s.units.is_empty());
+    let signal = match (&m.obs.signal, has_spikes, first.photometry.is_some()) {
+        (crate::obs::Signal::Photometry, _, true) => SignalKind::Photometry,
+        (_, true, _) => SignalKind::Spikes,
+        (_, false, true) => SignalKind::Photometry,
+        _ => SignalKind::Licks,
     };
     let view = SessionView::build(first, signal, None);
     let n = subject.sessions.len();

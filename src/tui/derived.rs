@@ -8,13 +8,11 @@
 
 use super::state::SignalKind;
 use crate::data::{Session, Subject};
-use crate::fit;
-use crate::fit::dataset::SensorKernel;
-use crate::fit::saved::{fitted_window_deltas, SavedFit, SAVED_FIT_FILE};
+use crate::fit::saved::{fitted_window_deltas, SAVED_FIT_FILE};
 use crate::marks::MarkState;
-use crate::model::Representation;
 use crate::model::{self, layout_subject, TdParams, TdRun, TrialSpan, POST_S};
 use crate::obs::{self, ObsOptions, SessionActivity, Signal, TrialKind, TrialObs, WindowDeltas};
+use crate::plan::{self, CheckedFit, Measurement, ObsRequest, PlanError};
 use crate::suggest::{self, RuleSet, Suggestion};
 use crate::summary::{self, DayRow, ModelTraces};
 use std::path::Path;
@@ -53,8 +51,10 @@ pub struct ModelSettings {
     pub readout: Option<Readout>,
     /// What the saved fit says about itself, for the fit screen.
     pub lines: Vec<String>,
-    /// Observation settings the saved fit used (unit, windows, latency), laid over the defaults.
-    pub saved: Option<SavedFit>,
+    /// The checked saved fit, whose observation settings are laid under the flags.
+    pub saved: Option<CheckedFit>,
+    /// The observation flags given to `review`.
+    pub request: ObsRequest,
 }
 
 impl ModelSettings {
@@ -66,91 +66,65 @@ impl ModelSettings {
             readout: None,
             lines: vec!["no saved fit: run `trialdesk fit PATH` to fit this subject".to_string()],
             saved: None,
+            request: ObsRequest::default(),
         }
     }
 
-    /// The subject's saved fit (`trialdesk-fit.toml`), or the defaults with a reason why.
-    pub fn from_subject(root: &Path) -> (Self, Option<String>) {
-        match fit::saved::load_saved(root) {
-            None => (Self::defaults(), None),
-            Some(Err(e)) => (Self::defaults(), Some(format!("saved fit not used: {e}"))),
-            Some(Ok(f)) => match Representation::parse(&f.representation) {
-                None => (
-                    Self::defaults(),
-                    Some(format!(
-                        "saved fit not used: unknown representation {:?}",
-                        f.representation
-                    )),
-                ),
-                Some(rep) => {
-                    let params = TdParams {
-                        alpha: f.alpha,
-                        gamma: f.gamma,
-                        lambda: f.lambda,
-                        dt: f.dt,
-                        representation: rep,
-                    };
-                    let mut lines = vec![format!(
-                        "fitted {}{}; gain {:.3}",
-                        f.fitted_at,
-                        if f.ignore_marks {
-                            ", ignoring marks"
-                        } else {
-                            ""
-                        },
-                        f.gain
-                    )];
-                    let mut quality = format!("{} trial(s) excluded at fit time", f.n_excluded);
-                    if let (Some(ll), Some(n)) = (f.log_likelihood, f.n_observations) {
-                        quality =
-                            format!("log-likelihood {ll:.1} over {n} observations; {quality}");
-                    }
-                    lines.push(quality);
-                    let readout = Readout {
-                        cue_baseline: f.baselines.cue.unwrap_or(0.0),
-                        reward_baseline: f.baselines.reward.unwrap_or(0.0),
-                        gain: f.gain,
-                    };
-                    (
-                        ModelSettings {
-                            params,
-                            source: ParamSource::SavedFit {
-                                label: format!("{}, {}", SAVED_FIT_FILE, f.fitted_at),
-                            },
-                            readout: Some(readout),
-                            lines,
-                            saved: Some(f),
-                        },
-                        None,
-                    )
-                }
+    /// The subject's saved fit (`trialdesk-fit.toml`) checked by the core plan, or the
+    /// defaults when there is none; a saved fit that fails the check is an error naming the
+    /// file and the field, as in every command.
+    pub fn from_subject(root: &Path) -> Result<Self, PlanError> {
+        let Some(c) = CheckedFit::load(root)? else {
+            return Ok(Self::defaults());
+        };
+        let f = &c.fit;
+        let mut lines = vec![format!(
+            "fitted {}{}; gain {}",
+            f.fitted_at,
+            if f.ignore_marks {
+                ", ignoring marks"
+            } else {
+                ""
             },
+            crate::util::fmt_by_magnitude(f.gain)
+        )];
+        let mut quality = format!("{} trial(s) excluded at fit time", f.n_excluded);
+        if let (Some(ll), Some(n)) = (f.log_likelihood, f.n_observations) {
+            quality = format!("log-likelihood {ll:.1} over {n} observations; {quality}");
         }
+        lines.push(quality);
+        let readout = Readout {
+            cue_baseline: f.baselines.cue.unwrap_or(0.0),
+            reward_baseline: f.baselines.reward.unwrap_or(0.0),
+            gain: f.gain,
+        };
+        Ok(ModelSettings {
+            params: c.params,
+            source: ParamSource::SavedFit {
+                label: format!("{}, {}", SAVED_FIT_FILE, f.fitted_at),
+            },
+            readout: Some(readout),
+            lines,
+            saved: Some(c),
+            request: ObsRequest::default(),
+        })
     }
 
-    /// Observation options: the subject's defaults with the saved fit's choices laid over.
-    pub fn obs_options(&self, subject: &Subject) -> ObsOptions {
-        let mut o = obs_options_for(subject);
-        if let Some(f) = &self.saved {
-            if let (Some(u), Signal::Spikes { .. }) = (&f.unit, &o.signal) {
-                o.signal = Signal::Spikes {
-                    unit: Some(u.clone()),
-                };
+    /// What is measured, decided by the core plan (flags over the saved fit over defaults). A
+    /// subject with no activity at all (licks only) is still reviewed: photometry options, and
+    /// every response blank.
+    pub fn measurement(&self, subject: &Subject) -> Measurement {
+        plan::measurement(subject, &self.request, self.saved.as_ref()).unwrap_or_else(|_| {
+            Measurement {
+                choice: plan::SignalChoice {
+                    signal: Signal::Photometry,
+                    reason: "no activity recorded".into(),
+                    missing: subject.sessions.iter().map(|s| s.name.clone()).collect(),
+                },
+                obs: ObsOptions::photometry(),
+                kernel: None,
             }
-            if let Some(l) = f.latency_s {
-                o.latency = l;
-            }
-            if let Some([a, b]) = f.cue_window_s {
-                o.cue_window = (a, b);
-            }
-            if let Some([a, b]) = f.reward_window_s {
-                o.reward_window = (a, b);
-            }
-            if let Some([a, b]) = f.baseline_window_s {
-                o.baseline = (a, b);
-            }
-        }
-        o
+        })
     }
 }
 
@@ -169,13 +143,13 @@ pub struct ModelView {
     /// Per span, δ summed over the cue and reward observation windows.
     pub window_deltas: Vec<WindowDeltas>,
     /// The observation windows those sums use.
-    pub obs_opts: ObsOptions,
-    /// The saved fit's sensor kernel (photometry): window δ weighted as the fit weighted it.
-    pub kernel: Option<SensorKernel>,
+    /// What is measured (signal, windows, sensor kernel), as the core plan decided it.
+    pub measurement: Measurement,
 }
 
 impl ModelView {
-    pub fn build(subject: &Subject, settings: &ModelSettings, obs: &ObsOptions) -> Self {
+    pub fn build(subject: &Subject, settings: &ModelSettings, m: &Measurement) -> Self {
+        let obs = &m.obs;
         let params = settings.params;
         let spans = layout_subject(subject, params.dt);
         let run = model::run(&spans, subject.cue_names().len(), &params);
@@ -187,7 +161,7 @@ impl ModelView {
         for (i, s) in spans.iter().enumerate() {
             span_of[s.session][s.trial] = Some(i);
         }
-        let kernel = settings.saved.as_ref().and_then(|f| f.sensor_kernel(obs));
+        let kernel = m.kernel;
         let window_deltas = spans
             .iter()
             .enumerate()
@@ -202,23 +176,8 @@ impl ModelView {
             run,
             span_of,
             window_deltas,
-            obs_opts: obs.clone(),
-            kernel,
+            measurement: m.clone(),
         }
-    }
-}
-
-/// Observation options for a subject: spikes when its first session has units, else photometry.
-pub fn obs_options_for(subject: &Subject) -> ObsOptions {
-    let has_spikes = subject
-        .sessions
-        .first()
-        .and_then(|s| s.spikes.as_ref())
-        .is_some_and(|s| !s.units.is_empty());
-    if has_spikes {
-        ObsOptions::default()
-    } else {
-        ObsOptions::photometry()
     }
 }
 
@@ -437,8 +396,8 @@ pub fn day_table(
             spans: &model.spans,
             run: &model.run,
             dt: model.params.dt,
-            opts: &model.obs_opts,
-            kernel: model.kernel,
+            opts: &model.measurement.obs,
+            kernel: model.measurement.kernel,
         }),
     )
 }

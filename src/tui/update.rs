@@ -572,9 +572,9 @@ pub fn append_recorded(
         }
     }
     if new_trials > 0 {
-        let opts = state.model.obs_opts.clone();
-        state.model = derived::ModelView::build(&state.subject, settings, &opts);
-        state.obs = derived::observe_spans(&state.subject, &state.model, &opts);
+        let m = state.model.measurement.clone();
+        state.model = derived::ModelView::build(&state.subject, settings, &m);
+        state.obs = derived::observe_spans(&state.subject, &state.model, &m.obs);
         state.photometry_views[session] = None;
         rebuild_days(state);
     }

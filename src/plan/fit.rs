@@ -1,0 +1,242 @@
+//! The core fit entry: a loaded subject and the user's request in, the report text and the
+//! record to save out. `trialdesk fit` (one subject, or each subject of a cohort) only loads,
+//! prints and writes files around it.
+
+use super::{measurement, standing_marks, MarksPolicy, Measurement, ObsRequest, PlanError};
+use crate::data::Subject;
+use crate::fit::{self, dataset, report, saved, sensitivity, FitData, FitOptions, Progress};
+use crate::obs::{self, Signal};
+use crate::suggest::{pending_for_session, RuleSet, Suggestion};
+
+/// What the user asked of one fit beyond the [`FitOptions`].
+#[derive(Debug, Clone, Default)]
+pub struct FitRequest {
+    pub obs: ObsRequest,
+    /// Model bin width, seconds.
+    pub dt: f64,
+    pub ignore_marks: bool,
+    /// Refit with pending suggested marks excluded too (the report's sensitivity line).
+    pub sensitivity: bool,
+    /// The command line as the user would retype it (the report suggests it with `nice`).
+    pub command: String,
+}
+
+/// A subject ready to fit: what will be measured and the data the fitter sees.
+pub struct FitJob<'a> {
+    subject: &'a Subject,
+    request: &'a FitRequest,
+    pub measurement: Measurement,
+    pub data: FitData,
+    /// Warnings for stderr (torn journal tails, unreadable journals under --ignore-marks).
+    pub warnings: Vec<String>,
+}
+
+/// A finished fit.
+pub struct FitRun {
+    pub outcome: fit::FitOutcome,
+    pub data: FitData,
+    /// The plain-text report (without lines about files written).
+    pub text: String,
+    /// The record for `trialdesk-fit.toml`.
+    pub saved: saved::SavedFit,
+    pub n_excluded: usize,
+    pub warnings: Vec<String>,
+}
+
+impl<'a> FitJob<'a> {
+    /// Measure, read the marks (an unreadable journal stops the fit unless marks are ignored)
+    /// and build the fitter's data.
+    pub fn prepare(subject: &'a Subject, request: &'a FitRequest) -> Result<Self, FitError> {
+        let m = measurement(subject, &request.obs, None)?;
+        let observations =
+            obs::observe(subject, &m.obs).map_err(|e| FitError::Data(e.to_string()))?;
+        let policy = if request.ignore_marks {
+            MarksPolicy::Ignore
+        } else {
+            MarksPolicy::Honour
+        };
+        let marks = standing_marks(subject, policy)?;
+        let mut data = dataset::build(
+            subject,
+            &observations,
+            &m.obs,
+            request.dt,
+            &marks.per_session,
+            request.ignore_marks,
+        );
+        if let Some(k) = m.kernel {
+            data = dataset::with_sensor_kernel(data, k, &m.obs);
+        }
+        Ok(FitJob {
+            subject,
+            request,
+            measurement: m,
+            data,
+            warnings: marks.warnings,
+        })
+    }
+
+    /// Fit, compare, refit for the sensitivity line, write the report and the saved record.
+    pub fn run(self, opts: &FitOptions, progress: &dyn Progress) -> Result<FitRun, FitError> {
+        let FitJob {
+            subject,
+            request,
+            measurement: m,
+            data,
+            mut warnings,
+        } = self;
+        let outcome =
+            fit::run_fit(&data, opts, progress).map_err(|e| FitError::Fit(e.to_string()))?;
+        let sensitivity = request
+            .sensitivity
+            .then(|| sensitivity_line(subject, &data, &outcome, opts, progress, &mut warnings));
+        let observations = match m.kernel {
+            Some(k) => format!(
+                "{}; δ weighted by a sensor kernel (rise {} s, decay {} s) averaged over each \
+                 window, so the gain is the peak response per unit δ",
+                describe_obs(&m, subject),
+                k.rise_s,
+                k.decay_s
+            ),
+            None => describe_obs(&m, subject),
+        };
+        let ctx = report::ReportContext {
+            subject: subject
+                .sessions
+                .first()
+                .map(|s| s.meta.subject.clone())
+                .unwrap_or_else(|| subject.root.display().to_string()),
+            observations,
+            command: request.command.clone(),
+            sensitivity,
+        };
+        let text = report::text_report(&outcome, &data, &ctx, opts.lambda_fitted());
+        let n_excluded = if request.ignore_marks {
+            0
+        } else {
+            data.exclusions.n_trials
+        };
+        let saved = saved_record(&outcome, &data, &m, request, opts, n_excluded);
+        Ok(FitRun {
+            outcome,
+            data,
+            text,
+            saved,
+            n_excluded,
+            warnings,
+        })
+    }
+}
+
+/// Why a fit did not run.
+#[derive(Debug, thiserror::Error)]
+pub enum FitError {
+    #[error(transparent)]
+    Plan(#[from] PlanError),
+    /// The data cannot be measured (a session lacks the signal, a unit is missing).
+    #[error("{0}")]
+    Data(String),
+    #[error("{0}")]
+    Fit(String),
+}
+
+fn saved_record(
+    outcome: &fit::FitOutcome,
+    data: &FitData,
+    m: &Measurement,
+    request: &FitRequest,
+    opts: &FitOptions,
+    n_excluded: usize,
+) -> saved::SavedFit {
+    let lin = &outcome.best.linear;
+    let p = outcome.best.params;
+    let o = &m.obs;
+    saved::SavedFit {
+        alpha: p.alpha,
+        gamma: p.gamma,
+        lambda: p.lambda,
+        dt: data.dt,
+        representation: outcome.model.name().to_string(),
+        gain: lin.gain,
+        baselines: saved::Baselines {
+            cue: lin.baselines[0],
+            reward: lin.baselines[1],
+        },
+        fitted_at: saved::now_rfc3339(),
+        n_excluded,
+        ignore_marks: request.ignore_marks,
+        lambda_fitted: opts.lambda_fitted(),
+        log_likelihood: Some(outcome.best.log_likelihood),
+        n_observations: Some(outcome.n_included),
+        signal: Some(super::signal_name(&o.signal).to_string()),
+        unit: match &o.signal {
+            Signal::Spikes { unit } => unit.clone(),
+            Signal::Photometry => None,
+        },
+        latency_s: Some(o.latency),
+        cue_window_s: Some([o.cue_window.0, o.cue_window.1]),
+        reward_window_s: Some([o.reward_window.0, o.reward_window.1]),
+        baseline_window_s: Some([o.baseline.0, o.baseline.1]),
+        sensor_rise_s: m.kernel.map(|k| k.rise_s),
+        sensor_decay_s: m.kernel.map(|k| k.decay_s),
+    }
+}
+
+/// The observation options in words; for photometry also how ΔF/F was made per session.
+pub fn describe_obs(m: &Measurement, subject: &Subject) -> String {
+    let o = &m.obs;
+    let method = match o.signal {
+        Signal::Photometry => crate::obs::photometry::photometry_methods(subject)
+            .map(|m| format!("; ΔF/F: {m}"))
+            .unwrap_or_default(),
+        _ => String::new(),
+    };
+    format!(
+        "{}; cue window [{}, {}] s, reward window [{}, {}] s after the event (the expected \
+         time on omissions), baseline [{}, {}] s from cue onset; windows mapped onto model bins \
+         {} s earlier (latency){method}",
+        o.signal.label(),
+        o.cue_window.0,
+        o.cue_window.1,
+        o.reward_window.0,
+        o.reward_window.1,
+        o.baseline.0,
+        o.baseline.1,
+        o.latency
+    )
+}
+
+/// Pending suggested marks of every session (user rules over the shipped defaults), then the
+/// refit with their trials excluded too. Reads marks.csv, never writes it.
+fn sensitivity_line(
+    subject: &Subject,
+    data: &FitData,
+    outcome: &fit::FitOutcome,
+    opts: &FitOptions,
+    progress: &dyn Progress,
+    warnings: &mut Vec<String>,
+) -> String {
+    let rules = match RuleSet::load_user() {
+        Ok((rules, _)) => rules,
+        Err(e) => {
+            return format!(
+                "Sensitivity to suggested marks: skipped, the rule file has an error: {e}"
+            )
+        }
+    };
+    let per_session: Vec<Vec<Suggestion>> = subject
+        .sessions
+        .iter()
+        .map(|s| {
+            pending_for_session(s, &rules).unwrap_or_else(|e| {
+                warnings.push(format!(
+                    "warning: {e} (suggested marks of this session left out of the sensitivity line)"
+                ));
+                Vec::new()
+            })
+        })
+        .collect();
+    let trials = sensitivity::SuggestedTrials::new(data, &per_session, &subject.cue_names());
+    let result = sensitivity::sensitivity(data, outcome, opts, &trials, progress);
+    sensitivity::line(&result, &trials, outcome, opts.lambda_fitted())
+}
