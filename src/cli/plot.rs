@@ -223,7 +223,7 @@ fn run_subject(args: Args) -> CmdResult {
     let params = saved.as_ref().map(|f| f.params);
     let m = measurement(&subject, &args.obs.request(), saved.as_ref())?;
     if let Some(note) = m.choice.missing_note() {
-        warn(note);
+        warn(format!("{note}; their responses are left blank"));
     }
     let opts = m.obs.clone();
     let (obs, problems) =

@@ -9,7 +9,7 @@ use crate::tui::follow::Follower;
 use crate::tui::input::TtyInput;
 use crate::tui::keymap::{Keymap, SHIPPED};
 use crate::tui::state::{Options, Tone, DEFAULT_REASONS};
-use crate::tui::{app, config, terminal};
+use crate::tui::{app, config, terminal, update};
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 
@@ -106,15 +106,15 @@ pub fn run(args: Args) -> CmdResult {
     let mut settings = ModelSettings::from_subject(&loaded.subject.root)?;
     settings.request = args.obs.request();
     let planned =
-        match crate::plan::measurement(&loaded.subject, &settings.request, settings.saved.as_ref())
-        {
-            Err(e @ crate::plan::PlanError::NoActivity(_)) => {
-                eprintln!("trialdesk: warning: {e}; reviewing licks and marks only");
-                None
+        crate::plan::measurement(&loaded.subject, &settings.request, settings.saved.as_ref());
+    if let Err(e) = planned {
+        match e {
+            crate::plan::PlanError::NoActivity(_) => {
+                eprintln!("trialdesk: warning: {e}; reviewing licks and marks only")
             }
-            other => Some(other?),
-        };
-    let fit_problem = planned.and_then(|m| m.choice.missing_note());
+            e => return Err(e.into()),
+        }
+    }
     // A broken suggest.toml should not keep anyone from reviewing: shipped rules, and say so.
     let (rules, rules_problem) = match crate::suggest::RuleSet::load_user() {
         Ok((rules, _)) => (rules, None),
@@ -136,24 +136,21 @@ pub fn run(args: Args) -> CmdResult {
         }
         None => None,
     };
-    if let Some(p) = rules_problem {
-        state.status.text = p;
-        state.status.tone = Tone::Warn;
-    } else if let Some(p) = fit_problem {
-        state.status.text = p;
-        state.status.tone = Tone::Warn;
-    } else if !loaded.warnings.is_empty() {
-        state.status.text = format!(
+    // Start-up messages, most important last: it is the one that stays on the status line.
+    if !loaded.warnings.is_empty() {
+        let text = format!(
             "{} data warning(s); `trialdesk check {}` lists them",
             loaded.warnings.len(),
             args.path.display()
         );
-        state.status.tone = Tone::Warn;
+        update::notice(&mut state, text, Tone::Warn);
+    }
+    if let Some(p) = rules_problem {
+        update::notice(&mut state, p, Tone::Warn);
     }
     if let Some(f) = &follower {
-        // Shown last: while recording, the caution matters more than older warnings.
-        state.status.text = f.status_text();
-        state.status.tone = Tone::Warn;
+        // While recording, the caution matters more than older warnings.
+        update::notice(&mut state, f.status_text(), Tone::Warn);
     }
     let stop = terminal::watch_signals()?;
     let mut input = TtyInput::stdin()?;

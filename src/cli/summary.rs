@@ -158,7 +158,7 @@ fn summarise(
     };
     let m = measurement(&subject, &args.obs.request(), saved.as_ref())?;
     if let Some(note) = m.choice.missing_note() {
-        warn(note);
+        warn(format!("{note}; their responses are left blank"));
     }
     let opts = m.obs.clone();
     let (obs, problems) =

@@ -48,6 +48,15 @@ impl<'a> FitJob<'a> {
     /// and build the fitter's data.
     pub fn prepare(subject: &'a Subject, request: &'a FitRequest) -> Result<Self, FitError> {
         let m = measurement(subject, &request.obs, None)?;
+        if let Some(note) = m.choice.missing_note() {
+            return Err(FitError::Data(format!(
+                "{}: {} chosen ({}), but {note}; a fit needs the signal in every session: \
+                 choose it with --signal, or fit a folder without those sessions",
+                subject.root.display(),
+                m.choice.signal.label(),
+                m.choice.reason
+            )));
+        }
         let observations =
             obs::observe(subject, &m.obs).map_err(|e| FitError::Data(e.to_string()))?;
         let policy = if request.ignore_marks {

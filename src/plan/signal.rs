@@ -25,11 +25,11 @@ pub struct SignalChoice {
 }
 
 impl SignalChoice {
-    /// One line for stderr or a status line when some sessions lack the signal.
+    /// The same words in every command and the reviewer when some sessions lack the signal.
     pub fn missing_note(&self) -> Option<String> {
         (!self.missing.is_empty()).then(|| {
             format!(
-                "{} session(s) have no {}: {} (their responses are left blank)",
+                "{} session(s) have no {}: {}",
                 self.missing.len(),
                 kind_word(&self.signal),
                 self.missing.join(", ")

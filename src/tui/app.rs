@@ -95,10 +95,16 @@ pub fn build_state_with_rules(
     update::rebuild_days(&mut state);
     update::ensure_suggestions(&mut state, 0);
     let trials: usize = state.subject.sessions.iter().map(|s| s.trials.len()).sum();
-    state.status.text = format!(
+    let opening = format!(
         "{n} session(s), {trials} trials; model: {}",
         state.model.source.label()
     );
+    update::notice(&mut state, opening, Tone::Info);
+    // The plan's words, as every command prints them, when sessions lack the signal.
+    if let Some(note) = state.model.measurement.choice.missing_note() {
+        let text = format!("{note}; their responses are left blank");
+        update::notice(&mut state, text, Tone::Warn);
+    }
     state
 }
 

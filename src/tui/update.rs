@@ -528,6 +528,11 @@ fn refresh(state: &mut State) {
     }
 }
 
+/// A message for the status line from outside the key loop (start-up, the follower).
+pub fn notice(state: &mut State, text: String, tone: Tone) {
+    state.status = Status { text, tone };
+}
+
 /// Rows the rig appended to a session being followed (`--follow`): the one message that is
 /// not a key. Appends them, then rebuilds what depends on them: that session's traces and
 /// suggestions when a trial's window is touched; the model pass, observations and days table
