@@ -23,6 +23,21 @@ pub fn fmt_by_magnitude(x: f64) -> String {
     format!("{x:.d$}")
 }
 
+/// `x` to `n` significant digits without trailing zeros (0.019234567 → "0.01923", 0.2 → "0.2"):
+/// fitted parameters on a screen, where 17 digits say nothing.
+pub fn fmt_sig(x: f64, n: usize) -> String {
+    if x == 0.0 || !x.is_finite() {
+        return format!("{x}");
+    }
+    let d = (n as i32 - 1 - x.abs().log10().floor() as i32).max(0) as usize;
+    let s = format!("{x:.d$}");
+    if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    }
+}
+
 /// Text for a terminal or a text file: control characters from data strings (C0 except
 /// newline, DEL, C1; ESC starts terminal escape sequences) are shown escaped, as `\u{1b}`,
 /// instead of being acted on. Text without them is returned as is.

@@ -246,6 +246,6 @@ fn an_unreadable_journal_follows_one_policy() {
         );
     }
     let st = reviewer_state(&subject);
-    let problem = st.marks[0].problem.clone().unwrap_or_default();
+    let problem = st.sessions[0].marks.problem.clone().unwrap_or_default();
     assert!(problem.contains(&line), "{problem}");
 }

@@ -230,12 +230,12 @@ fn failed_append_is_kept_flagged_and_retried() {
         st.status.text
     );
     assert_eq!(st.mark_of(1).unwrap().kind, MarkKind::Exclude);
-    assert_eq!(st.marks[0].unsaved.len(), 1);
+    assert_eq!(st.sessions[0].marks.unsaved.len(), 1);
     let text = frame_text(80, 24, &st);
     assert!(text.contains("1 UNSAVED"), "{text}");
     std::fs::remove_dir(&marks_path).unwrap();
     update(&mut st, Action::RefreshMarks);
-    assert!(st.marks[0].unsaved.is_empty());
+    assert!(st.sessions[0].marks.unsaved.is_empty());
     assert_eq!(st.status.tone, Tone::Saved);
     assert_eq!(
         marks_rows(&dir, DAY1),
@@ -470,9 +470,9 @@ fn photometry_traces_are_built_once_per_session() {
     let mut st = state(&dir);
     press(&mut st, "]a");
     assert_eq!(st.signal, trialdesk::tui::state::SignalKind::Photometry);
-    assert!(st.photometry_views[1].is_some());
+    assert!(st.sessions[1].photometry_view.is_some());
     // A marker in the cache: seen again only if the view comes from the cache, not a rebuild.
-    st.photometry_views[1].as_mut().unwrap().label = "cached".to_string();
+    st.sessions[1].photometry_view.as_mut().unwrap().label = "cached".to_string();
     // A unit step changes the raster's unit and keeps photometry on screen.
     press(&mut st, ".");
     assert_eq!(st.signal, trialdesk::tui::state::SignalKind::Photometry);

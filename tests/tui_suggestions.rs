@@ -230,7 +230,7 @@ fn unwritable_journal_keeps_the_accept_in_memory_and_says_so() {
         "{}",
         st.status.text
     );
-    assert_eq!(st.marks[0].unsaved.len(), 1);
+    assert_eq!(st.sessions[0].marks.unsaved.len(), 1);
     assert_eq!(st.mark_of(s.trial).unwrap().reason, s.rule);
     assert!(st.suggestions_of(s.trial).is_empty());
 }

@@ -173,7 +173,7 @@ pub fn run(args: Args) -> CmdResult {
 /// their session's marks.csv are saved elsewhere. Returns the lines that tell the user where.
 fn rescue_unsaved(state: &mut crate::tui::state::State) -> Option<String> {
     crate::tui::update::update(state, crate::tui::Action::RefreshMarks);
-    let unsaved: usize = state.marks.iter().map(|m| m.unsaved.len()).sum();
+    let unsaved: usize = state.sessions.iter().map(|s| s.marks.unsaved.len()).sum();
     if unsaved > 0 {
         let base = directories::ProjectDirs::from("", "", "trialdesk")
             .map_or_else(std::env::temp_dir, |d| d.data_dir().to_path_buf())
@@ -211,7 +211,7 @@ pub fn save_unsaved_elsewhere(
 ) -> Vec<(PathBuf, Result<PathBuf, String>)> {
     let stamp = crate::marks::now_rfc3339().replace(':', "-");
     let mut out = Vec::new();
-    for (i, m) in state.marks.iter().enumerate() {
+    for (i, m) in state.sessions.iter().map(|s| &s.marks).enumerate() {
         if m.unsaved.is_empty() {
             continue;
         }

@@ -44,6 +44,33 @@ pub struct NewRows {
 }
 
 impl NewRows {
+    /// Add the rows to the session they were read from: trials at the end, spikes and licks in
+    /// time order (a unit not seen before is added after the others, so unit indices held
+    /// elsewhere stay valid).
+    pub fn merge_into(self, session: &mut crate::data::Session) {
+        session.trials.extend(self.trials);
+        if !self.spikes.is_empty() {
+            let spikes = session.spikes.get_or_insert_with(Default::default);
+            for (unit, t) in self.spikes {
+                let u = match spikes.units.iter().position(|n| *n == unit) {
+                    Some(u) => u,
+                    None => {
+                        spikes.units.push(unit);
+                        spikes.times.push(Vec::new());
+                        spikes.units.len() - 1
+                    }
+                };
+                insert_sorted(&mut spikes.times[u], t);
+            }
+        }
+        if !self.licks.is_empty() {
+            let licks = session.licks.get_or_insert_with(Vec::new);
+            for t in self.licks {
+                insert_sorted(licks, t);
+            }
+        }
+    }
+
     pub fn is_empty(&self) -> bool {
         self.trials.is_empty()
             && self.spikes.is_empty()
@@ -246,4 +273,14 @@ fn file_id(md: &std::fs::Metadata) -> Option<u64> {
 #[cfg(not(unix))]
 fn file_id(_md: &std::fs::Metadata) -> Option<u64> {
     None
+}
+
+/// Rows arrive nearly in order: a push, or an insert near the end.
+fn insert_sorted(v: &mut Vec<f64>, t: f64) {
+    if v.last().is_none_or(|&l| l <= t) {
+        v.push(t);
+    } else {
+        let at = v.partition_point(|&x| x <= t);
+        v.insert(at, t);
+    }
 }

@@ -8,7 +8,7 @@ use super::derived::{self, ModelSettings, ModelView, SessionView};
 use super::follow::Follower;
 use super::input::{Input, TtyInput};
 use super::keymap::{confirm_action, editor_action, picker_action};
-use super::state::{Options, Overlay, Screen, SessionMarks, SignalKind, State, Status, Tone};
+use super::state::{Options, Overlay, Screen, SessionState, SignalKind, State, Status, Tone};
 use super::{screens, update};
 use crate::data::Subject;
 use crate::suggest::RuleSet;
@@ -68,10 +68,9 @@ pub fn build_state_with_rules(
         overlay: Overlay::None,
         session: 0,
         trial: 0,
-        last_trial: vec![0; n],
         unit: None,
         signal,
-        marks: vec![SessionMarks::default(); n],
+        sessions: vec![SessionState::default(); n],
         undo: Vec::new(),
         status: Status {
             text: String::new(),
@@ -82,12 +81,10 @@ pub fn build_state_with_rules(
         obs,
         days: Vec::new(),
         rules,
-        suggested: vec![None; n],
-        photometry_views: vec![None; n],
         quit: false,
     };
     if signal == SignalKind::Photometry {
-        state.photometry_views[0] = Some(state.view.clone());
+        state.sessions[0].photometry_view = Some(state.view.clone());
     }
     for si in 0..n {
         update::reread_journal(&mut state, si);

@@ -2,7 +2,7 @@
 //! arrives to [`update::append_recorded`] — the loop polls, `update` changes the state.
 
 use super::derived::ModelSettings;
-use super::state::{State, Status, Tone};
+use super::state::{State, Tone};
 use super::update;
 use crate::data::follow::{Polled, TableKind, Tail};
 use crate::data::Session;
@@ -62,10 +62,7 @@ impl Follower {
                 }
                 Polled::Reload(why) => {
                     let text = format!("following stopped: {why}; reopen the session to reload");
-                    state.status = Status {
-                        text: text.clone(),
-                        tone: Tone::Error,
-                    };
+                    update::notice(state, text.clone(), Tone::Error);
                     self.stopped = Some(text);
                     return true;
                 }
@@ -78,16 +75,14 @@ impl Follower {
         let problems = arrived.diagnostics.len();
         let first_problem = arrived.diagnostics.first().map(|d| d.to_string());
         update::append_recorded(state, self.session, arrived, &self.settings);
-        state.status = match first_problem {
-            Some(p) => Status {
-                text: format!("following: {problems} bad row(s) left out, first: {p}"),
-                tone: Tone::Warn,
-            },
-            None => Status {
-                text: self.status_text(),
-                tone: Tone::Info,
-            },
-        };
+        match first_problem {
+            Some(p) => update::notice(
+                state,
+                format!("following: {problems} bad row(s) left out, first: {p}"),
+                Tone::Warn,
+            ),
+            None => update::notice(state, self.status_text(), Tone::Info),
+        }
         true
     }
 

@@ -146,6 +146,19 @@ pub struct UndoEntry {
     pub before: Option<TrialMark>,
 }
 
+/// What the reviewer keeps for one session.
+#[derive(Debug, Clone, Default)]
+pub struct SessionState {
+    /// The trial last looked at (sessions reopen where they were left).
+    pub last_trial: usize,
+    pub marks: SessionMarks,
+    /// Its suggested marks; `None` until the session is first opened.
+    pub suggested: Option<SessionSuggestions>,
+    /// Its photometry traces once built: preprocessing a long recording is the costly part of
+    /// a view and does not depend on the unit, so it is done once per session.
+    pub photometry_view: Option<SessionView>,
+}
+
 #[derive(Debug)]
 pub struct State {
     pub subject: Subject,
@@ -157,13 +170,11 @@ pub struct State {
     pub session: usize,
     /// Index into the session's `trials`.
     pub trial: usize,
-    /// Per session, the trial last looked at (sessions reopen where they were left).
-    pub last_trial: Vec<usize>,
     /// Chosen unit of the current session; `None` = all units.
     pub unit: Option<usize>,
     pub signal: SignalKind,
-    /// One per session, same order as `subject.sessions`.
-    pub marks: Vec<SessionMarks>,
+    /// The reviewer's own state of each session, same order as `subject.sessions`.
+    pub sessions: Vec<SessionState>,
     pub undo: Vec<UndoEntry>,
     pub status: Status,
     pub model: ModelView,
@@ -174,11 +185,6 @@ pub struct State {
     pub days: Vec<DayRow>,
     /// The suggestion rules in force (shipped defaults with the user's suggest.toml over them).
     pub rules: RuleSet,
-    /// Per session, its suggested marks; `None` until the session is first opened.
-    pub suggested: Vec<Option<SessionSuggestions>>,
-    /// Per session, its photometry traces once built: preprocessing a long recording is the
-    /// costly part of a view and does not depend on the unit, so it is done once per session.
-    pub photometry_views: Vec<Option<SessionView>>,
     pub quit: bool,
 }
 
@@ -193,33 +199,33 @@ impl State {
 
     /// The standing mark of a trial of the current session.
     pub fn mark_of(&self, trial_number: i64) -> Option<&TrialMark> {
-        self.marks
+        self.sessions
             .get(self.session)
-            .and_then(|m| m.state.marks.get(&trial_number))
+            .and_then(|s| s.marks.state.marks.get(&trial_number))
     }
 
     /// Trial notes (and session notes with `None`) of the current session, in file order.
     pub fn notes_of(&self, trial_number: Option<i64>) -> impl Iterator<Item = &MarkRow> {
-        self.marks
+        self.sessions
             .get(self.session)
             .into_iter()
-            .flat_map(|m| m.state.notes.iter())
+            .flat_map(|s| s.marks.state.notes.iter())
             .filter(move |r| r.trial == trial_number)
     }
 
     /// The pending suggestions on a trial of the current session (by trial number).
     pub fn suggestions_of(&self, trial_number: i64) -> &[Suggestion] {
-        self.suggested
+        self.sessions
             .get(self.session)
-            .and_then(|s| s.as_ref())
+            .and_then(|s| s.suggested.as_ref())
             .map_or(&[], |s| s.for_trial(trial_number))
     }
 
     /// All pending suggestions of the current session.
     pub fn pending_suggestions(&self) -> &[Suggestion] {
-        self.suggested
+        self.sessions
             .get(self.session)
-            .and_then(|s| s.as_ref())
+            .and_then(|s| s.suggested.as_ref())
             .map_or(&[], |s| s.pending.as_slice())
     }
 

@@ -112,7 +112,7 @@ fn accept_all(state: &mut State, rule: &'static str, asked: usize) {
                 Err(e) => failure = Some(e.to_string()),
             }
         }
-        state.marks[si].unsaved.push(row);
+        state.sessions[si].marks.unsaved.push(row);
     }
     // Fold what is on disk and what waits in memory; the pending list follows.
     super::update::reread_journal(state, si);

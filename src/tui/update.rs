@@ -131,9 +131,9 @@ pub fn open_session(state: &mut State, index: usize) {
         info(state, "this is the last session");
         return;
     }
-    state.last_trial[state.session] = state.trial;
+    state.sessions[state.session].last_trial = state.trial;
     state.session = index;
-    state.trial = state.last_trial[index];
+    state.trial = state.sessions[index].last_trial;
     let units = state
         .current_session()
         .spikes
@@ -161,20 +161,20 @@ pub fn open_session(state: &mut State, index: usize) {
 
 /// Run the suggestion rules over a session the first time it is opened.
 pub fn ensure_suggestions(state: &mut State, session: usize) {
-    if state.suggested[session].is_none() {
+    if state.sessions[session].suggested.is_none() {
         let built = SessionSuggestions::build(
             &state.subject.sessions[session],
             &state.rules,
-            &state.marks[session].state,
+            &state.sessions[session].marks.state,
         );
-        state.suggested[session] = Some(built);
+        state.sessions[session].suggested = Some(built);
     }
 }
 
 fn rebuild_view(state: &mut State) {
     let si = state.session;
     if state.signal == SignalKind::Photometry {
-        let cached = &mut state.photometry_views[si];
+        let cached = &mut state.sessions[si].photometry_view;
         let view = cached.get_or_insert_with(|| {
             SessionView::build(&state.subject.sessions[si], SignalKind::Photometry, None)
         });
@@ -422,7 +422,7 @@ pub(super) fn save_row(state: &mut State, session: usize, row: MarkRow, what: &s
             reread_journal(state, session);
         }
         Err(e) => {
-            state.marks[session].unsaved.push(row);
+            state.sessions[session].marks.unsaved.push(row);
             state.status = Status {
                 text: format!(
                     "NOT SAVED: {what}: {e}. Kept in memory only; retrying every second."
@@ -435,7 +435,7 @@ pub(super) fn save_row(state: &mut State, session: usize, row: MarkRow, what: &s
 }
 
 fn refold(state: &mut State, session: usize) {
-    let sm = &mut state.marks[session];
+    let sm = &mut state.sessions[session].marks;
     let folded = if sm.unsaved.is_empty() {
         sm.journal.state()
     } else {
@@ -444,8 +444,9 @@ fn refold(state: &mut State, session: usize) {
     };
     if folded != sm.state {
         sm.state = folded;
-        if let Some(sugg) = state.suggested.get_mut(session).and_then(|s| s.as_mut()) {
-            sugg.settle(&state.marks[session].state);
+        let ss = &mut state.sessions[session];
+        if let Some(sugg) = ss.suggested.as_mut() {
+            sugg.settle(&ss.marks.state);
         }
         // The days table is empty until start-up has read every journal.
         if !state.days.is_empty() {
@@ -456,14 +457,18 @@ fn refold(state: &mut State, session: usize) {
 
 /// Recompute the days table (its means leave out excluded trials).
 pub fn rebuild_days(state: &mut State) {
-    let marks: Vec<_> = state.marks.iter().map(|m| m.state.clone()).collect();
+    let marks: Vec<_> = state
+        .sessions
+        .iter()
+        .map(|s| s.marks.state.clone())
+        .collect();
     state.days = derived::day_table(&state.subject, &state.model, &state.obs, &marks);
 }
 
 /// Read what was appended to one session's journal since the last read (all of it the first
 /// time); returns how many rows arrived.
 pub fn reread_journal(state: &mut State, session: usize) -> usize {
-    let sm = &mut state.marks[session];
+    let sm = &mut state.sessions[session].marks;
     if sm.journal.path.as_os_str().is_empty() {
         sm.journal.path = state.subject.sessions[session].dir.join(marks::MARKS_FILE);
     }
@@ -487,12 +492,12 @@ pub fn reread_journal(state: &mut State, session: usize) -> usize {
 /// session's journal.
 fn refresh(state: &mut State) {
     let mut retried = 0;
-    for si in 0..state.marks.len() {
-        if state.marks[si].unsaved.is_empty() {
+    for si in 0..state.sessions.len() {
+        if state.sessions[si].marks.unsaved.is_empty() {
             continue;
         }
         let dir = state.subject.sessions[si].dir.clone();
-        let pending = std::mem::take(&mut state.marks[si].unsaved);
+        let pending = std::mem::take(&mut state.sessions[si].marks.unsaved);
         let mut left = Vec::new();
         for row in pending {
             if left.is_empty() && marks::append(&dir, &row).is_ok() {
@@ -501,15 +506,15 @@ fn refresh(state: &mut State) {
                 left.push(row);
             }
         }
-        state.marks[si].unsaved = left;
+        state.sessions[si].marks.unsaved = left;
         reread_journal(state, si);
     }
     // A stat per session when nothing changed, so every journal is watched (the days screen
     // counts them all).
-    let added: usize = (0..state.marks.len())
+    let added: usize = (0..state.sessions.len())
         .map(|si| reread_journal(state, si))
         .sum();
-    let unsaved: usize = state.marks.iter().map(|m| m.unsaved.len()).sum();
+    let unsaved: usize = state.sessions.iter().map(|s| s.marks.unsaved.len()).sum();
     if retried > 0 && unsaved == 0 {
         state.status = Status {
             text: format!("saved: {retried} earlier unsaved row(s) now on disk"),
@@ -554,51 +559,20 @@ pub fn append_recorded(
         .map_or(f64::INFINITY, |at| at + state.view.to_s);
     let touches =
         rows.licks.iter().any(|&t| t <= reach) || rows.spikes.iter().any(|&(_, t)| t <= reach);
-    s.trials.extend(rows.trials);
-    if !rows.spikes.is_empty() {
-        let spikes = s.spikes.get_or_insert_with(Default::default);
-        for (unit, t) in rows.spikes {
-            let u = match spikes.units.iter().position(|n| *n == unit) {
-                Some(u) => u,
-                // At the end: the chosen unit's index stays valid.
-                None => {
-                    spikes.units.push(unit);
-                    spikes.times.push(Vec::new());
-                    spikes.units.len() - 1
-                }
-            };
-            insert_sorted(&mut spikes.times[u], t);
-        }
-    }
-    if !rows.licks.is_empty() {
-        let licks = s.licks.get_or_insert_with(Vec::new);
-        for t in rows.licks {
-            insert_sorted(licks, t);
-        }
-    }
+    rows.merge_into(s);
     if new_trials > 0 {
         let m = state.model.measurement.clone();
         state.model = derived::ModelView::build(&state.subject, settings, &m);
         state.obs = derived::observe_spans(&state.subject, &state.model, &m.obs);
-        state.photometry_views[session] = None;
+        state.sessions[session].photometry_view = None;
         rebuild_days(state);
     }
     if new_trials == 0 && !touches {
         return;
     }
-    state.suggested[session] = None;
+    state.sessions[session].suggested = None;
     if session == state.session {
         rebuild_view(state);
         ensure_suggestions(state, session);
-    }
-}
-
-/// Rows arrive nearly in order: a push, or an insert near the end.
-fn insert_sorted(v: &mut Vec<f64>, t: f64) {
-    if v.last().is_none_or(|&l| l <= t) {
-        v.push(t);
-    } else {
-        let at = v.partition_point(|&x| x <= t);
-        v.insert(at, t);
     }
 }

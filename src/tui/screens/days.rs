@@ -6,10 +6,12 @@ use crate::summary::{CueDay, DayRow};
 use crate::tui::state::State;
 use crate::tui::theme::{Role, Theme};
 use crate::tui::widgets::{fill_row, num, put};
+use crate::util::decimals_for;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
 
-const HEADER: &str = "session         trials excl susp   cue  reward  omit  licks  dcue  drew";
+const HEADER: &str =
+    "session         trials excl susp     cue  reward    omit  licks   dcue   drew";
 
 /// The cue the cue columns follow: the first cue with a reward delay (the predictive one).
 pub fn main_cue(state: &State) -> Option<String> {
@@ -28,21 +30,57 @@ fn cue_day<'a>(d: &'a DayRow, cue: Option<&str>) -> Option<&'a CueDay> {
     d.cues.iter().find(|c| Some(c.cue.as_str()) == cue)
 }
 
-fn row_text(theme: &Theme, d: &DayRow, cue: Option<&str>) -> String {
+/// Decimals per column group, from the magnitude of every day's values (ΔF/F of 0.004 and
+/// firing rates of 12 both keep about three significant digits).
+struct Decimals {
+    response: usize,
+    licks: usize,
+    model: usize,
+}
+
+impl Decimals {
+    fn of(days: &[DayRow], cue: Option<&str>) -> Self {
+        let responses = days.iter().flat_map(|d| {
+            [
+                cue_day(d, cue).and_then(|c| c.response.value),
+                d.reward_response.value,
+                d.omission_dip.value,
+            ]
+        });
+        let model = days.iter().flat_map(|d| {
+            [
+                cue_day(d, cue)
+                    .and_then(|c| c.model_delta)
+                    .and_then(|m| m.value),
+                d.model.and_then(|m| m.reward.value),
+            ]
+        });
+        Decimals {
+            response: decimals_for(responses.flatten()),
+            licks: decimals_for(days.iter().filter_map(|d| d.lick_rate.value)),
+            model: decimals_for(model.flatten()),
+        }
+    }
+}
+
+fn row_text(theme: &Theme, d: &DayRow, cue: Option<&str>, dec: &Decimals) -> String {
     let name: String = theme.clean(&d.session).chars().take(15).collect();
     let c = cue_day(d, cue);
     format!(
-        "{:<15} {:>6} {:>4} {:>4} {:>5} {:>7} {:>5} {:>6} {:>5} {:>5}",
+        "{:<15} {:>6} {:>4} {:>4} {:>7} {:>7} {:>7} {:>6} {:>6} {:>6}",
         name,
         d.trials,
         d.excluded,
         d.suspect,
-        num(c.and_then(|c| c.response.value), 1),
-        num(d.reward_response.value, 1),
-        num(d.omission_dip.value, 1),
-        num(d.lick_rate.value, 1),
-        num(c.and_then(|c| c.model_delta).and_then(|m| m.value), 2),
-        num(d.model.and_then(|m| m.reward.value), 2),
+        num(c.and_then(|c| c.response.value), dec.response),
+        num(d.reward_response.value, dec.response),
+        num(d.omission_dip.value, dec.response),
+        num(d.lick_rate.value, dec.licks),
+        num(
+            c.and_then(|c| c.model_delta).and_then(|m| m.value),
+            dec.model
+        ),
+        num(d.model.and_then(|m| m.reward.value), dec.model),
     )
 }
 
@@ -107,6 +145,7 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         .min(n.saturating_sub(rows));
     let table = Rect::new(area.x, area.y + 1, area.width, table_h);
     let cue = main_cue(state);
+    let dec = Decimals::of(&state.days, cue.as_deref());
     for (dy, (si, d)) in state
         .days
         .iter()
@@ -130,7 +169,7 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
             table,
             1,
             dy,
-            &row_text(theme, d, cue.as_deref()),
+            &row_text(theme, d, cue.as_deref(), &dec),
             style,
         );
     }
@@ -156,7 +195,7 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
                 o.as_ref()
                     .filter(|o| {
                         let number = state.subject.sessions[o.session].trials[o.trial].number;
-                        !state.marks[o.session].state.is_excluded(number)
+                        !state.sessions[o.session].marks.state.is_excluded(number)
                     })
                     .and_then(f)
                     .unwrap_or(f64::NAN)

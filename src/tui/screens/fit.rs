@@ -8,6 +8,7 @@ use crate::tui::state::State;
 use crate::tui::theme::{Role, Theme};
 use crate::tui::widgets::trial_list::outcome_tag;
 use crate::tui::widgets::{fill_row, num, put};
+use crate::util::{decimals_for, fmt_sig};
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
 
@@ -34,10 +35,10 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         &mut y,
         &format!(
             "alpha {}  gamma {} per {} s bin  lambda {}  representation {}",
-            p.alpha,
-            p.gamma,
+            fmt_sig(p.alpha, 4),
+            fmt_sig(p.gamma, 4),
             p.dt,
-            p.lambda,
+            fmt_sig(p.lambda, 4),
             p.representation.name()
         ),
         Role::Plain,
@@ -46,10 +47,11 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         line(buf, &mut y, &theme.clean(l), Role::Plain);
     }
     let excluded: usize = state
-        .marks
+        .sessions
         .iter()
         .map(|s| {
-            s.state
+            s.marks
+                .state
                 .marks
                 .values()
                 .filter(|t| t.kind == MarkKind::Exclude)
@@ -125,6 +127,20 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         .trial
         .saturating_sub(rows / 2)
         .min(n.saturating_sub(rows));
+    // Decimals from the magnitude of the rows on screen (ΔF/F of 0.004, rates of 12).
+    let shown = |ti: usize| {
+        state.span_of(ti).into_iter().flat_map(move |i| {
+            let o = state.obs[i].as_ref();
+            let w = m.window_deltas[i];
+            [
+                o.and_then(|o| o.cue),
+                o.and_then(|o| o.reward),
+                predicted(w.cue, true),
+                predicted(w.reward, false),
+            ]
+        })
+    };
+    let dec = decimals_for((first..n.min(first + rows)).flat_map(shown).flatten());
     for (dy, ti) in (first..n.min(first + rows)).enumerate() {
         let trial = &session.trials[ti];
         let dy = dy as u16;
@@ -137,10 +153,10 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
             "{:>5} {:<7} {:>9} {:>9}   {:>9} {:>9}",
             trial.number,
             outcome_tag(crate::obs::TrialKind::of(session, trial)),
-            num(obs.and_then(|o| o.cue), 2),
-            num(predicted(wd.and_then(|w| w.cue), true), 2),
-            num(obs.and_then(|o| o.reward), 2),
-            num(predicted(wd.and_then(|w| w.reward), false), 2),
+            num(obs.and_then(|o| o.cue), dec),
+            num(predicted(wd.and_then(|w| w.cue), true), dec),
+            num(obs.and_then(|o| o.reward), dec),
+            num(predicted(wd.and_then(|w| w.reward), false), dec),
         );
         let current = ti == state.trial;
         if current {
@@ -171,7 +187,8 @@ fn render_sparks(
     let series = |f: &dyn Fn(usize) -> Option<f64>| -> Vec<f64> {
         (0..n)
             .map(|ti| {
-                let excluded = state.marks[state.session]
+                let excluded = state.sessions[state.session]
+                    .marks
                     .state
                     .is_excluded(session.trials[ti].number);
                 if excluded {

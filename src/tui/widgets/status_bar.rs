@@ -9,7 +9,7 @@ use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
 
 pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
-    let unsaved: usize = state.marks.iter().map(|m| m.unsaved.len()).sum();
+    let unsaved: usize = state.sessions.iter().map(|s| s.marks.unsaved.len()).sum();
     let right = format!(
         " {}{} | {} help ",
         if unsaved > 0 {
@@ -27,9 +27,9 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
     );
     let rw = right.chars().count() as u16;
     let problem = state
-        .marks
+        .sessions
         .get(state.session)
-        .and_then(|m| m.problem.as_ref());
+        .and_then(|s| s.marks.problem.as_ref());
     let (text, tone) = match problem {
         Some(p) if state.status.tone == Tone::Info => (p.clone(), Tone::Warn),
         _ => (state.status.text.clone(), state.status.tone),
