@@ -19,5 +19,6 @@ pub mod safe_write;
 pub mod simulate;
 pub mod suggest;
 pub mod summary;
+pub mod text;
 pub mod tui;
 pub mod util;

@@ -38,25 +38,6 @@ pub fn fmt_sig(x: f64, n: usize) -> String {
     }
 }
 
-/// Text for a terminal or a text file: control characters from data strings (C0 except
-/// newline, DEL, C1; ESC starts terminal escape sequences) are shown escaped, as `\u{1b}`,
-/// instead of being acted on. Text without them is returned as is.
-pub fn printable(s: &str) -> std::borrow::Cow<'_, str> {
-    let bad = |c: char| c != '\n' && c.is_control();
-    if !s.chars().any(bad) {
-        return std::borrow::Cow::Borrowed(s);
-    }
-    let mut out = String::with_capacity(s.len() + 16);
-    for c in s.chars() {
-        if bad(c) {
-            out.extend(c.escape_default());
-        } else {
-            out.push(c);
-        }
-    }
-    std::borrow::Cow::Owned(out)
-}
-
 /// Settings files (keymap, config, suggestion rules) are a few kilobytes.
 pub const MAX_SETTINGS_BYTES: u64 = 1 << 20;
 
@@ -81,57 +62,9 @@ pub fn read_settings(path: &std::path::Path) -> std::io::Result<String> {
     Ok(text)
 }
 
-/// Neutralise a text cell for CSV exports that people open in a spreadsheet: a cell starting
-/// with `=`, `+`, `-`, `@`, a tab or a carriage return could run as a formula, so it gets a
-/// leading apostrophe and keeps its text (the OWASP "CSV injection" advice, common practice).
-/// A cell that is just a number (`-3`, `+0.5`, `-1e-3`) is left alone: a spreadsheet reads it
-/// as that number, which is harmless and what the user wants.
-pub fn csv_safe_cell(cell: &str) -> std::borrow::Cow<'_, str> {
-    let risky = matches!(
-        cell.as_bytes().first(),
-        Some(b'=' | b'+' | b'-' | b'@' | b'\t' | b'\r')
-    );
-    if risky && !is_plain_number(cell) {
-        std::borrow::Cow::Owned(format!("'{cell}"))
-    } else {
-        std::borrow::Cow::Borrowed(cell)
-    }
-}
-
-/// `[+-]digits[.digits][e[+-]digits]`, nothing else (no spaces, no `inf`/`nan`).
-fn is_plain_number(s: &str) -> bool {
-    let b = s.as_bytes();
-    let mut i = usize::from(matches!(b.first(), Some(b'+' | b'-')));
-    let digits = |i: &mut usize| {
-        let start = *i;
-        while b.get(*i).is_some_and(u8::is_ascii_digit) {
-            *i += 1;
-        }
-        *i - start
-    };
-    let mut mantissa = digits(&mut i);
-    if b.get(i) == Some(&b'.') {
-        i += 1;
-        mantissa += digits(&mut i);
-    }
-    if mantissa == 0 {
-        return false;
-    }
-    if matches!(b.get(i), Some(b'e' | b'E')) {
-        i += 1;
-        if matches!(b.get(i), Some(b'+' | b'-')) {
-            i += 1;
-        }
-        if digits(&mut i) == 0 {
-            return false;
-        }
-    }
-    i == b.len()
-}
-
 #[cfg(test)]
 mod csv_safe_tests {
-    use super::csv_safe_cell;
+    use crate::text::for_csv as csv_safe_cell;
 
     #[test]
     fn formula_starts_get_an_apostrophe_and_keep_their_text() {

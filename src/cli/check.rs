@@ -50,7 +50,7 @@ pub fn run(args: Args) -> CmdResult {
         report.sessions_found,
         plural(report.sessions_found),
     ));
-    let text = crate::util::printable(&text);
+    let text = crate::text::for_text(&text);
     let mut stdout = io::stdout().lock();
     match stdout
         .write_all(text.as_bytes())

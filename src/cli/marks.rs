@@ -7,7 +7,7 @@
 use super::{CliError, CmdResult};
 use crate::data::meta::{read_meta, SESSION_FILE};
 use crate::marks::{read_journal, Journal, MarkKind, MarkRow};
-use crate::util::csv_safe_cell;
+use crate::text::{for_csv, for_line};
 use std::collections::HashSet;
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -152,7 +152,7 @@ fn warn_torn(journal: &Journal) {
     if let Some((line, text)) = &journal.torn_tail {
         eprintln!(
             "warning: {path}:{line}: incomplete last line (an interrupted write), ignored: {}",
-            printable(text)
+            for_line(text)
         );
     }
     // Sealed torn lines are not repeated on every run: the sealing note already shows among
@@ -167,13 +167,13 @@ fn write_csv(out: &mut dyn Write, lines: &[Line]) -> std::io::Result<()> {
     for l in lines {
         let trial = l.row.trial.map(|t| t.to_string()).unwrap_or_default();
         w.write_record([
-            csv_safe_cell(l.session).as_ref(),
+            for_csv(l.session).as_ref(),
             &trial,
             l.row.mark.as_str(),
-            &csv_safe_cell(&l.row.reason),
-            &csv_safe_cell(&l.row.note),
-            &csv_safe_cell(&l.row.reviewer),
-            &csv_safe_cell(&l.row.at),
+            &for_csv(&l.row.reason),
+            &for_csv(&l.row.note),
+            &for_csv(&l.row.reviewer),
+            &for_csv(&l.row.at),
         ])?;
     }
     w.flush()
@@ -197,13 +197,13 @@ fn write_table(
         .iter()
         .map(|l| {
             [
-                printable(l.session),
+                for_line(l.session).into_owned(),
                 l.row.trial.map(|t| t.to_string()).unwrap_or_default(),
                 l.row.mark.as_str().to_string(),
-                printable(&l.row.reason),
-                clip(&printable(&l.row.note), NOTE_WIDTH),
-                printable(&l.row.reviewer),
-                printable(&l.row.at),
+                for_line(&l.row.reason).into_owned(),
+                clip(&for_line(&l.row.note), NOTE_WIDTH),
+                for_line(&l.row.reviewer).into_owned(),
+                for_line(&l.row.at).into_owned(),
             ]
         })
         .collect();
@@ -228,10 +228,10 @@ fn write_table(
             writeln!(
                 out,
                 "  {}  {}  {}  {}",
-                printable(l.session),
-                printable(&l.row.at),
-                printable(&l.row.reviewer),
-                printable(&l.row.note)
+                for_line(l.session),
+                for_line(&l.row.at),
+                for_line(&l.row.reviewer),
+                for_line(&l.row.note)
             )?;
         }
     }
@@ -267,28 +267,6 @@ fn write_row(out: &mut dyn Write, row: &[String; 7], width: &[usize; 7]) -> std:
         }
     }
     writeln!(out, "{}", line.trim_end())
-}
-
-/// Text safe to put on a terminal: control characters (including escape sequences, C1 codes)
-/// and bidirectional overrides are shown as `\n`, `\u{1b}`, ... instead of acting.
-fn printable(s: &str) -> String {
-    let mut out = String::with_capacity(s.len());
-    for c in s.chars() {
-        match c {
-            '\n' => out.push_str("\\n"),
-            '\r' => out.push_str("\\r"),
-            '\t' => out.push_str("\\t"),
-            c if c.is_control() || is_bidi_control(c) => {
-                out.push_str(&format!("\\u{{{:x}}}", c as u32));
-            }
-            c => out.push(c),
-        }
-    }
-    out
-}
-
-fn is_bidi_control(c: char) -> bool {
-    matches!(c, '\u{200e}' | '\u{200f}' | '\u{202a}'..='\u{202e}' | '\u{2066}'..='\u{2069}')
 }
 
 fn clip(s: &str, max: usize) -> String {
@@ -385,9 +363,9 @@ mod tests {
 
     #[test]
     fn printable_neutralises_escapes_and_bidi_overrides() {
-        assert_eq!(printable("a\x1b[31mb\n"), "a\\u{1b}[31mb\\n");
-        assert_eq!(printable("x\u{202e}y\u{9b}"), "x\\u{202e}y\\u{9b}");
-        assert_eq!(printable("ΔF/F ok"), "ΔF/F ok");
+        assert_eq!(for_line("a\x1b[31mb\n"), "a\\u{1b}[31mb\\n");
+        assert_eq!(for_line("x\u{202e}y\u{9b}"), "x\\u{202e}y\\u{9b}");
+        assert_eq!(for_line("ΔF/F ok"), "ΔF/F ok");
     }
 
     #[test]

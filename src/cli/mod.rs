@@ -131,7 +131,7 @@ where
         Ok(code) => code,
         Err(e) => {
             // Messages quote paths and values from the data: no escape sequences through.
-            eprintln!("trialdesk: {}", crate::util::printable(&e.message));
+            eprintln!("trialdesk: {}", crate::text::for_text(&e.message));
             e.code
         }
     }

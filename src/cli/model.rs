@@ -196,11 +196,11 @@ fn write_traces(
         let session = &subject.sessions[span.session];
         let number = session.trials[span.trial].number.to_string();
         let labels = trial_labels(subject, span);
-        let cue = crate::util::csv_safe_cell(&labels.cue);
+        let cue = crate::text::for_csv(&labels.cue);
         let (values, deltas) = (traces.trial_value(i), traces.trial_delta(i));
         for k in 0..span.n_bins {
             out.write_record([
-                crate::util::csv_safe_cell(&session.name).as_ref(),
+                crate::text::for_csv(&session.name).as_ref(),
                 number.as_str(),
                 &k.to_string(),
                 &bin_time_text(k, dt),

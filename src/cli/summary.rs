@@ -118,7 +118,7 @@ pub fn run(args: Args) -> CmdResult {
     // Names in the tables come from the data; CSV keeps them as they are.
     let text = match format {
         Format::Csv => text,
-        _ => crate::util::printable(&text).into_owned(),
+        _ => crate::text::for_text(&text).into_owned(),
     };
     match &args.out {
         Some(path) => crate::safe_write::replace_file(path, text.as_bytes())

@@ -60,7 +60,7 @@ impl fmt::Display for Diagnostic {
     fn fmt(&self, out: &mut fmt::Formatter<'_>) -> fmt::Result {
         let mut text = String::new();
         self.write_raw(&mut text)?;
-        out.write_str(&crate::util::printable(&text))
+        out.write_str(&crate::text::for_text(&text))
     }
 }
 

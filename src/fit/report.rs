@@ -148,7 +148,7 @@ pub fn write_trials_csv(
     for (p, &pred) in data.points.iter().zip(predicted) {
         let (session, trial) = data.label(p.span);
         out.write_record([
-            crate::util::csv_safe_cell(session).as_ref(),
+            crate::text::for_csv(session).as_ref(),
             &trial.to_string(),
             p.kind.name(),
             &fmt_f64(p.observed),

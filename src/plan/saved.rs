@@ -154,7 +154,7 @@ impl CheckedFit {
             fmt_f64(p.lambda),
             fmt_f64(p.dt),
             self.path.display(),
-            crate::util::printable(&self.fit.fitted_at),
+            crate::text::for_text(&self.fit.fitted_at),
             if self.fit.ignore_marks {
                 ", marks ignored"
             } else {

@@ -8,7 +8,7 @@
 //! bar sit outside the data area.
 
 use super::panel::GUIDE;
-use super::{clean_label, with_title, PlotError};
+use super::{with_title, PlotError};
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
@@ -189,7 +189,7 @@ pub fn heatmap(map: &HeatMap) -> Result<String, PlotError> {
         root.fill(&WHITE)?;
         let (main, bar) = root.split_horizontally(880);
         let mut chart = ChartBuilder::on(&main)
-            .caption(clean_label(&map.title), ("sans-serif", 17))
+            .caption(crate::text::svg_label(&map.title), ("sans-serif", 17))
             .margin(12)
             // Room above the map for the event labels.
             .margin_top(34)
@@ -225,7 +225,7 @@ pub fn heatmap(map: &HeatMap) -> Result<String, PlotError> {
         chart.draw_series((0..n_rows).step_by(step).map(|i| {
             EmptyElement::at((x0, top(i) - 0.5))
                 + Text::new(
-                    clean_label(map.row_labels.get(i).map(String::as_str).unwrap_or("")),
+                    crate::text::svg_label(map.row_labels.get(i).map(String::as_str).unwrap_or("")),
                     (-4, 0),
                     label_style.clone(),
                 )
@@ -258,7 +258,7 @@ pub fn heatmap(map: &HeatMap) -> Result<String, PlotError> {
             }
             chart.draw_series(std::iter::once(
                 EmptyElement::at((x0, top(first) - 0.5))
-                    + Text::new(clean_label(name), (-186, 0), group_style.clone()),
+                    + Text::new(crate::text::svg_label(name), (-186, 0), group_style.clone()),
             ))?;
             first += n;
         }
@@ -271,7 +271,7 @@ pub fn heatmap(map: &HeatMap) -> Result<String, PlotError> {
             chart.draw_series(std::iter::once(
                 EmptyElement::at((t, y1))
                     + Text::new(
-                        clean_label(&name),
+                        crate::text::svg_label(&name),
                         (0, -6),
                         ("sans-serif", 12)
                             .into_font()
@@ -321,7 +321,7 @@ fn draw_color_bar(
         font.clone(),
     ))?;
     area.draw(&Text::new(
-        clean_label(unit),
+        crate::text::svg_label(unit),
         (left - 10, bottom + 22),
         font,
     ))?;

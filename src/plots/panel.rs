@@ -1,7 +1,7 @@
 //! One chart panel: axes, named series (line, markers or both, gaps where a value is missing),
 //! vertical guide lines, a legend. Shared by every picture of this module.
 
-use super::{clean_label, PlotError};
+use super::PlotError;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
@@ -96,14 +96,14 @@ fn caption_font() -> TextStyle<'static> {
 
 /// Draw `panel` into `area`.
 pub fn draw(area: &Area, panel: &Panel) -> Result<(), PlotError> {
-    let title = clean_label(panel.title);
+    let title = crate::text::svg_label(panel.title);
     let xs = || panel.series.iter().flat_map(|s| s.present().map(|p| p.0));
     let ys = || panel.series.iter().flat_map(|s| s.present().map(|p| p.1));
     let (Some((x0, x1)), Some((y0, y1))) = (padded(xs(), false), padded(ys(), true)) else {
         let (w, h) = area.dim_in_pixel();
         area.draw(&Text::new(title, (10, 8), caption_font()))?;
         area.draw(&Text::new(
-            clean_label(panel.empty_note),
+            crate::text::svg_label(panel.empty_note),
             (w as i32 / 6, h as i32 / 2),
             ("sans-serif", 14).into_font().color(&GUIDE.mix(1.0)),
         ))?;
@@ -136,8 +136,8 @@ pub fn draw(area: &Area, panel: &Panel) -> Result<(), PlotError> {
     chart
         .configure_mesh()
         .x_labels(n_x_labels)
-        .x_desc(clean_label(panel.x_desc))
-        .y_desc(clean_label(panel.y_desc))
+        .x_desc(crate::text::svg_label(panel.x_desc))
+        .y_desc(crate::text::svg_label(panel.y_desc))
         .light_line_style(WHITE)
         .bold_line_style(RGBColor(235, 235, 235))
         .label_style(("sans-serif", 12))
@@ -190,7 +190,7 @@ pub fn draw(area: &Area, panel: &Panel) -> Result<(), PlotError> {
         } else {
             chart.draw_series(std::iter::empty::<Circle<(f64, f64), u32>>())?
         };
-        anno.label(clean_label(&s.name))
+        anno.label(crate::text::svg_label(&s.name))
             .legend(move |(x, y)| Rectangle::new([(x, y - 4), (x + 14, y + 4)], color.filled()));
         any_legend = true;
     }

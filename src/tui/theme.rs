@@ -189,25 +189,11 @@ impl Theme {
     }
 }
 
-/// Neutralise a data string (note, unit id, cue name, reviewer, reason, file name) before it is
-/// drawn: control characters (C0, DEL, C1 — including ESC, which could start a terminal escape
-/// sequence) become `?`; invisible direction overrides and zero-width characters, which can make
-/// text read differently from what it is, become `?` too; in ASCII mode every non-ASCII
-/// character becomes `?`. Every string from the data goes through here; nothing else is needed
-/// because ratatui writes cell contents, never raw escape sequences of ours.
+/// Neutralise a data string before it is drawn: the screen policy of [`crate::text`]
+/// (control and invisible characters become `?`; in ASCII mode every non-ASCII character too).
+/// ratatui writes cell contents, never raw escape sequences of ours, so nothing else is needed.
 pub fn clean(s: &str, ascii: bool) -> String {
-    s.chars()
-        .map(|c| {
-            let invisible = matches!(c,
-                '\u{200B}'..='\u{200F}' | '\u{202A}'..='\u{202E}' | '\u{2060}'..='\u{2069}'
-                | '\u{FEFF}' | '\u{00AD}');
-            if c.is_control() || invisible || (ascii && !c.is_ascii()) {
-                '?'
-            } else {
-                c
-            }
-        })
-        .collect()
+    crate::text::for_screen(s, ascii)
 }
 
 #[cfg(test)]

@@ -82,7 +82,7 @@ pub(super) fn run(args: &Args, opts: &FitOptions, which: Shard) -> CmdResult {
     );
     let mut failed = 0;
     for r in &run.results {
-        let name = crate::util::printable(&r.subject.name);
+        let name = crate::text::for_text(&r.subject.name);
         let secs = r.elapsed.as_secs_f64();
         match &r.result {
             Ok(f) => {
@@ -113,11 +113,7 @@ pub(super) fn run(args: &Args, opts: &FitOptions, which: Shard) -> CmdResult {
                     "{name:<16} {:>8} {:>6} {:>8} {:>8} {:>10} {:>10} {:>10} {:>7} {secs:>7.1}  failed",
                     "-", "-", "-", "-", "-", "-", "-", "-"
                 );
-                eprintln!(
-                    "trialdesk: {}: {}",
-                    name,
-                    crate::util::printable(&e.message)
-                );
+                eprintln!("trialdesk: {}: {}", name, crate::text::for_text(&e.message));
             }
         }
     }
