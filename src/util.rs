@@ -38,6 +38,26 @@ pub fn fmt_sig(x: f64, n: usize) -> String {
     }
 }
 
+/// 1-based line of byte offset `pos` in `text`.
+pub fn line_at(text: &[u8], pos: usize) -> usize {
+    let end = pos.min(text.len());
+    1 + text[..end].iter().filter(|&&b| b == b'\n').count()
+}
+
+/// A TOML parse error of a settings file as every settings reader words it:
+/// `FILE:LINE: message` (no line when the parser gives no position).
+pub fn toml_error(file: &std::path::Path, text: &str, e: &toml::de::Error) -> String {
+    let message = e.message().trim().replace('\n', " ");
+    match e.span() {
+        Some(s) => format!(
+            "{}:{}: {message}",
+            file.display(),
+            line_at(text.as_bytes(), s.start)
+        ),
+        None => format!("{}: {message}", file.display()),
+    }
+}
+
 /// Settings files (keymap, config, suggestion rules) are a few kilobytes.
 pub const MAX_SETTINGS_BYTES: u64 = 1 << 20;
 

@@ -8,7 +8,6 @@ use super::{CliError, CmdResult};
 use crate::data::meta::{read_meta, SESSION_FILE};
 use crate::marks::{read_journal, Journal, MarkKind, MarkRow};
 use crate::text::{for_csv, for_line};
-use std::collections::HashSet;
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
@@ -35,9 +34,6 @@ pub enum Format {
     Table,
     Csv,
 }
-
-/// Sessions searched below a subject folder, at most this deep.
-const MAX_DEPTH: usize = 6;
 
 /// Longest note shown in the table; `--csv` carries the whole text.
 const NOTE_WIDTH: usize = 48;
@@ -290,12 +286,8 @@ fn session_dirs(root: &Path) -> Result<Vec<(PathBuf, String)>, CliError> {
             root.display()
         )));
     }
-    let mut found = Vec::new();
-    if root.join(SESSION_FILE).is_file() {
-        found.push(root.to_path_buf());
-    } else {
-        walk(root, 0, &mut HashSet::new(), &mut found);
-    }
+    // The loader's walk; its complaints about session data are `check`'s business, not ours.
+    let found = crate::data::load::session_dirs(root, &mut Vec::new());
     if found.is_empty() {
         return Err(CliError::failed(format!(
             "{}: no session found (no {SESSION_FILE} here or in any sub-folder)",
@@ -329,33 +321,6 @@ fn session_dirs(root: &Path) -> Result<Vec<(PathBuf, String)>, CliError> {
 
 /// (session.toml unreadable, date, has start time, start time, folder name).
 type SortKey = (bool, String, bool, String, String);
-
-fn walk(dir: &Path, depth: usize, seen: &mut HashSet<PathBuf>, found: &mut Vec<PathBuf>) {
-    // Canonical paths: a symlink loop is visited once, not forever.
-    let Ok(canon) = dir.canonicalize() else {
-        return;
-    };
-    if depth > MAX_DEPTH || !seen.insert(canon) {
-        return;
-    }
-    let Ok(entries) = std::fs::read_dir(dir) else {
-        return;
-    };
-    let mut subdirs: Vec<PathBuf> = entries
-        .filter_map(Result::ok)
-        .filter(|e| !e.file_name().to_string_lossy().starts_with('.'))
-        .map(|e| e.path())
-        .filter(|p| p.is_dir())
-        .collect();
-    subdirs.sort();
-    for sub in subdirs {
-        if sub.join(SESSION_FILE).is_file() {
-            found.push(sub);
-        } else {
-            walk(&sub, depth + 1, seen, found);
-        }
-    }
-}
 
 #[cfg(test)]
 mod tests {

@@ -140,8 +140,10 @@ pub fn scan(path: &Path) -> Scan {
     }
 }
 
-/// The session folders under `root` (or `root` itself), in path order.
-fn session_dirs(root: &Path, out: &mut Vec<Diagnostic>) -> Vec<PathBuf> {
+/// The session folders under `root` (or `root` itself), in path order: the one walk every
+/// reader of a subject uses (the loader, `check`, `marks`). Folders with trials.csv but no
+/// session.toml and unlistable folders are reported in `out`.
+pub fn session_dirs(root: &Path, out: &mut Vec<Diagnostic>) -> Vec<PathBuf> {
     if root.join(SESSION_FILE).exists() {
         return vec![root.to_path_buf()];
     }

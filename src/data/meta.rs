@@ -303,10 +303,8 @@ pub fn parse_meta_partial(
     })
 }
 
-/// 1-based line of byte offset `pos`.
 fn line_of(bytes: &[u8], pos: usize) -> u64 {
-    let end = pos.min(bytes.len());
-    1 + bytes[..end].iter().filter(|&&b| b == b'\n').count() as u64
+    crate::util::line_at(bytes, pos) as u64
 }
 
 fn show(v: &Value) -> String {

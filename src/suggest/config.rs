@@ -193,15 +193,8 @@ impl RuleSet {
     /// Read `text` (from `file`, named in errors) over `base`; without a base every key is
     /// required.
     pub fn parse(file: &Path, text: &str, base: Option<&RuleSet>) -> Result<RuleSet, String> {
-        let patch: FilePatch = toml::from_str(text).map_err(|e| {
-            let line = e
-                .span()
-                .map(|s| text[..s.start.min(text.len())].matches('\n').count() + 1);
-            match line {
-                Some(l) => format!("{}:{l}: {}", file.display(), e.message().trim()),
-                None => format!("{}: {}", file.display(), e.message().trim()),
-            }
-        })?;
+        let patch: FilePatch =
+            toml::from_str(text).map_err(|e| crate::util::toml_error(file, text, &e))?;
         let at = |section: &str, e: String| match section_line(text, section) {
             Some(l) => format!("{}:{l}: {e}", file.display()),
             None => format!("{}: {e}", file.display()),

@@ -23,15 +23,7 @@ pub fn config_dir() -> Option<PathBuf> {
 
 /// Parse a config file's text; errors name the file and line.
 pub fn parse(file: &Path, text: &str) -> Result<Config, String> {
-    let cfg: Config = toml::from_str(text).map_err(|e| {
-        let line = e
-            .span()
-            .map(|s| text[..s.start.min(text.len())].matches('\n').count() + 1);
-        match line {
-            Some(l) => format!("{}:{l}: {}", file.display(), e.message().trim()),
-            None => format!("{}: {}", file.display(), e.message().trim()),
-        }
-    })?;
+    let cfg: Config = toml::from_str(text).map_err(|e| crate::util::toml_error(file, text, &e))?;
     if let Some(r) = &cfg.reasons {
         if r.is_empty() || r.len() > 9 {
             return Err(format!(

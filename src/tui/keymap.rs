@@ -175,7 +175,7 @@ pub struct KeymapFile {
 }
 
 fn line_of(text: &str, offset: usize) -> usize {
-    text[..offset.min(text.len())].matches('\n').count() + 1
+    crate::util::line_at(text.as_bytes(), offset)
 }
 
 /// Parse one keymap file's text; `file` names it in errors.
