@@ -44,18 +44,31 @@ pub fn line_at(text: &[u8], pos: usize) -> usize {
     1 + text[..end].iter().filter(|&&b| b == b'\n').count()
 }
 
-/// A TOML parse error of a settings file as every settings reader words it:
-/// `FILE:LINE: message` (no line when the parser gives no position).
-pub fn toml_error(file: &std::path::Path, text: &str, e: &toml::de::Error) -> String {
-    let message = e.message().trim().replace('\n', " ");
-    match e.span() {
-        Some(s) => format!(
-            "{}:{}: {message}",
-            file.display(),
-            line_at(text.as_bytes(), s.start)
-        ),
-        None => format!("{}: {message}", file.display()),
+/// A problem in a settings file (config.toml, suggest.toml): the file, the line when known,
+/// and what is wrong. Shown as `FILE:LINE: message`.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("{}{}: {message}", file.display(), line.map(|l| format!(":{l}")).unwrap_or_default())]
+pub struct SettingsError {
+    pub file: std::path::PathBuf,
+    pub line: Option<usize>,
+    pub message: String,
+}
+
+impl SettingsError {
+    pub fn new(file: &std::path::Path, line: Option<usize>, message: impl Into<String>) -> Self {
+        SettingsError {
+            file: file.to_path_buf(),
+            line,
+            message: message.into(),
+        }
     }
+}
+
+/// A TOML parse error of a settings file, as every settings reader reports it.
+pub fn toml_error(file: &std::path::Path, text: &str, e: &toml::de::Error) -> SettingsError {
+    let message = e.message().trim().replace('\n', " ");
+    let line = e.span().map(|s| line_at(text.as_bytes(), s.start));
+    SettingsError::new(file, line, message)
 }
 
 /// Settings files (keymap, config, suggestion rules) are a few kilobytes.

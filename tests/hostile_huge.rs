@@ -263,9 +263,13 @@ fn huge_config_files_are_refused_within_memory() {
             .expect_err("a huge keymap must be refused")
             .to_string();
         assert!(e.contains("keymap.toml") && e.contains("too large"), "{e}");
-        let e = trialdesk::tui::config::load(dir).expect_err("huge config.toml");
+        let e = trialdesk::tui::config::load(dir)
+            .expect_err("huge config.toml")
+            .to_string();
         assert!(e.contains("config.toml") && e.contains("too large"), "{e}");
-        let e = trialdesk::suggest::config::RuleSet::load_from(dir).expect_err("huge suggest.toml");
+        let e = trialdesk::suggest::config::RuleSet::load_from(dir)
+            .expect_err("huge suggest.toml")
+            .to_string();
         assert!(e.contains("suggest.toml") && e.contains("too large"), "{e}");
         println!("child: all refused: {e}");
         return;

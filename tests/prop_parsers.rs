@@ -445,6 +445,7 @@ proptest! {
                 prop_assert!(s.len() <= 10_000);
             }
             Err(e) => {
+                let e = e.to_string();
                 prop_assert!(e.starts_with("suggest.toml"), "{}", e);
                 prop_assert!(!e.chars().any(char::is_control), "{:?}", e);
             }

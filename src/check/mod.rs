@@ -84,23 +84,15 @@ pub fn check_with_suggestions(path: &Path, rules: Option<&RuleSet>) -> Report {
     }
 }
 
-/// A rule-file error from [`RuleSet::load_from`] (`file:line: message` or `file: message`)
-/// as a warning on `file`: the suggestions are left out, the data are not at fault.
-pub fn rules_diagnostic(file: &Path, error: &str) -> Diagnostic {
-    let rest = error
-        .strip_prefix(file.display().to_string().as_str())
-        .and_then(|r| r.strip_prefix(':'))
-        .unwrap_or(error);
-    let (line, message) = match rest.split_once(':') {
-        Some((l, m)) if l.parse::<u64>().is_ok() => (l.parse().ok(), m),
-        _ => (None, rest),
-    };
+/// A rule-file error from [`RuleSet::load_from`] as a warning on its file: the suggestions
+/// are left out, the data are not at fault.
+pub fn rules_diagnostic(error: &crate::util::SettingsError) -> Diagnostic {
     let d = Diagnostic::warning(
-        file,
-        format!("{}; suggested marks left out", message.trim()),
+        &error.file,
+        format!("{}; suggested marks left out", error.message.trim()),
     );
-    match line {
-        Some(l) => d.at_line(l),
+    match error.line {
+        Some(l) => d.at_line(l as u64),
         None => d,
     }
 }

@@ -4,7 +4,7 @@
 use super::{CliError, CmdResult};
 use crate::check::{check_with_suggestions, rules_diagnostic, Report};
 use crate::data::Diagnostic;
-use crate::suggest::{config::USER_FILE, rule_info, RuleSet};
+use crate::suggest::{rule_info, RuleSet};
 use std::io::{self, Write};
 use std::path::PathBuf;
 
@@ -21,7 +21,7 @@ pub(super) fn user_rules() -> Result<(RuleSet, Option<PathBuf>), Diagnostic> {
         return Ok((RuleSet::default(), None));
     };
     let dir = dirs.config_dir();
-    RuleSet::load_from(dir).map_err(|e| rules_diagnostic(&dir.join(USER_FILE), &e))
+    RuleSet::load_from(dir).map_err(|e| rules_diagnostic(&e))
 }
 
 /// Exit 0 when clean or only warnings, 1 when any error was found. Suggested marks never

@@ -70,7 +70,7 @@ pub fn keymap_for(cfg_dir: Option<&Path>, flag: Option<&str>) -> Result<Keymap, 
 pub fn run(args: Args) -> CmdResult {
     let cfg_dir = config::config_dir();
     let cfg = match &cfg_dir {
-        Some(d) => config::load(d).map_err(CliError::failed)?,
+        Some(d) => config::load(d).map_err(|e| CliError::failed(e.to_string()))?,
         None => config::Config::default(),
     };
     let keymap = keymap_for(cfg_dir.as_deref(), args.keymap.as_deref())?;

@@ -6,6 +6,7 @@
 //! error is reported as `file:line: what is wrong`.
 
 use crate::marks::MarkKind;
+use crate::util::SettingsError;
 use serde::de::{Deserializer, Error as _};
 use serde::Deserialize;
 use std::path::{Path, PathBuf};
@@ -192,13 +193,15 @@ impl Default for RuleSet {
 impl RuleSet {
     /// Read `text` (from `file`, named in errors) over `base`; without a base every key is
     /// required.
-    pub fn parse(file: &Path, text: &str, base: Option<&RuleSet>) -> Result<RuleSet, String> {
+    pub fn parse(
+        file: &Path,
+        text: &str,
+        base: Option<&RuleSet>,
+    ) -> Result<RuleSet, SettingsError> {
         let patch: FilePatch =
             toml::from_str(text).map_err(|e| crate::util::toml_error(file, text, &e))?;
-        let at = |section: &str, e: String| match section_line(text, section) {
-            Some(l) => format!("{}:{l}: {e}", file.display()),
-            None => format!("{}: {e}", file.display()),
-        };
+        let at =
+            |section: &str, e: String| SettingsError::new(file, section_line(text, section), e);
         macro_rules! section {
             ($field:ident) => {
                 patch
@@ -213,7 +216,7 @@ impl RuleSet {
                 (Some(AcceptAs::Exclude), _) => MarkKind::Exclude,
                 (Some(AcceptAs::Suspect), _) => MarkKind::Suspect,
                 (None, Some(b)) => b.accept_as,
-                (None, None) => return Err(format!("{}: accept_as is missing", file.display())),
+                (None, None) => return Err(SettingsError::new(file, None, "accept_as is missing")),
             },
             baseline_licks: section!(baseline_licks),
             no_consumption: section!(no_consumption),
@@ -243,7 +246,7 @@ impl RuleSet {
 
     /// The defaults overridden by `suggest.toml` in `dir` when it exists; also returns the
     /// file that was read.
-    pub fn load_from(dir: &Path) -> Result<(RuleSet, Option<PathBuf>), String> {
+    pub fn load_from(dir: &Path) -> Result<(RuleSet, Option<PathBuf>), SettingsError> {
         let path = dir.join(USER_FILE);
         match crate::util::read_settings(&path) {
             Ok(text) => Ok((
@@ -251,12 +254,12 @@ impl RuleSet {
                 Some(path),
             )),
             Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok((RuleSet::default(), None)),
-            Err(e) => Err(format!("{}: {e}", path.display())),
+            Err(e) => Err(SettingsError::new(&path, None, e.to_string())),
         }
     }
 
     /// [`RuleSet::load_from`] the platform config folder (e.g. `~/.config/trialdesk/`).
-    pub fn load_user() -> Result<(RuleSet, Option<PathBuf>), String> {
+    pub fn load_user() -> Result<(RuleSet, Option<PathBuf>), SettingsError> {
         match directories::ProjectDirs::from("", "", "trialdesk") {
             Some(d) => RuleSet::load_from(d.config_dir()),
             None => Ok((RuleSet::default(), None)),
@@ -276,8 +279,10 @@ fn section_line(text: &str, section: &str) -> Option<usize> {
 mod tests {
     use super::*;
 
+    /// The error as the user reads it (`FILE:LINE: message`).
     fn user(text: &str) -> Result<RuleSet, String> {
         RuleSet::parse(Path::new("suggest.toml"), text, Some(&RuleSet::default()))
+            .map_err(|e| e.to_string())
     }
 
     #[test]
@@ -338,7 +343,7 @@ mod tests {
     #[test]
     fn a_file_without_a_base_must_be_complete() {
         let e = RuleSet::parse(Path::new("x.toml"), "accept_as = \"exclude\"\n", None).unwrap_err();
-        assert!(e.contains("missing"), "{e}");
+        assert!(e.message.contains("missing"), "{e}");
     }
 
     #[test]
