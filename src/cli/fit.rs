@@ -184,6 +184,17 @@ pub(crate) fn fit_subject(
         eprintln!("{w}");
     }
     let subject = &loaded.subject;
+    let sc = plan::scope(path);
+    match (&sc.session, &sc.note) {
+        (Some(_), _) => eprintln!(
+            "warning: {}: a session fitted on its own starts from an untrained model; fit its \
+             subject folder {} to learn across every session",
+            path.display(),
+            sc.root.display()
+        ),
+        (None, Some(note)) => eprintln!("warning: {note}"),
+        _ => {}
+    }
     let request = plan::fit::FitRequest {
         obs: args.obs.request(),
         dt: args.dt,

@@ -121,22 +121,27 @@ pub fn run(args: Args) -> CmdResult {
         (Some(alpha), Some(gamma)) => params(&args, alpha, gamma)?,
         _ => saved_fit_params(&args.path, &args)?,
     };
-    let loaded = match data::load(&args.path) {
-        Ok(l) => l,
-        Err(failure) => {
-            for d in &failure.diagnostics {
-                eprintln!("{d}");
+    let sc = crate::plan::scope(&args.path);
+    let mut only = sc.session.clone();
+    let loaded = match data::load(&sc.root) {
+        Ok(l) => {
+            if let Some(n) = &sc.note {
+                eprintln!("model: {n}");
             }
-            return Err(CliError::failed(format!(
-                "{}: data did not load ({} problem(s) above); nothing written",
-                args.path.display(),
-                failure.diagnostics.iter().filter(|d| d.is_error()).count()
-            )));
+            l
         }
+        Err(failure) if only.is_some() => {
+            only = None;
+            let why = format!(
+                "{} problem(s); `trialdesk check {}` lists them",
+                failure.diagnostics.iter().filter(|d| d.is_error()).count(),
+                sc.root.display()
+            );
+            eprintln!("model: {}", crate::plan::fallback_note(&args.path, &why));
+            load_or_report(&args.path)?
+        }
+        Err(failure) => return Err(report_failure(&args.path, &failure)),
     };
-    for w in &loaded.warnings {
-        eprintln!("{w}");
-    }
     let subject = &loaded.subject;
     let (spans, skipped) = layout_subject_with_skips(subject, params.dt);
     for s in &skipped {
@@ -155,21 +160,38 @@ pub fn run(args: Args) -> CmdResult {
         )));
     }
     let traces = model::run(&spans, subject.cue_names().len(), &params);
+    // A session read with its history: every session is modelled, only it is written.
+    let wanted = |name: &str| only.as_deref().is_none_or(|o| o == name);
 
     if args.out.as_os_str() != "-" {
         crate::safe_write::replace_with(&args.out, |w| {
-            write_traces(Box::new(w), subject, &spans, &traces, params.dt)
+            write_traces(Box::new(w), subject, &spans, &traces, params.dt, &wanted)
         })
         .map_err(|e| CliError::failed(e.to_string()))?;
         return Ok(0);
     }
     let sink: Box<dyn Write> = Box::new(std::io::stdout().lock());
-    match write_traces(sink, subject, &spans, &traces, params.dt) {
+    match write_traces(sink, subject, &spans, &traces, params.dt, &wanted) {
         Ok(()) => Ok(0),
         // `trialdesk model ... --out - | head` is not a failure.
         Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(0),
         Err(e) => Err(CliError::failed(format!("{}: {e}", args.out.display()))),
     }
+}
+
+fn report_failure(path: &Path, failure: &data::LoadFailure) -> CliError {
+    for d in &failure.diagnostics {
+        eprintln!("{d}");
+    }
+    CliError::failed(format!(
+        "{}: data did not load ({} problem(s) above); nothing written",
+        path.display(),
+        failure.diagnostics.iter().filter(|d| d.is_error()).count()
+    ))
+}
+
+fn load_or_report(path: &Path) -> Result<data::Loaded, CliError> {
+    data::load(path).map_err(|f| report_failure(path, &f))
 }
 
 fn write_traces(
@@ -178,6 +200,7 @@ fn write_traces(
     spans: &[model::TrialSpan],
     traces: &model::TdRun,
     dt: f64,
+    wanted: &dyn Fn(&str) -> bool,
 ) -> std::io::Result<()> {
     let mut out = csv::Writer::from_writer(std::io::BufWriter::new(sink));
     out.write_record([
@@ -194,6 +217,9 @@ fn write_traces(
     ])?;
     for (i, span) in spans.iter().enumerate() {
         let session = &subject.sessions[span.session];
+        if !wanted(&session.name) {
+            continue;
+        }
         let number = session.trials[span.trial].number.to_string();
         let labels = trial_labels(subject, span);
         let cue = crate::text::for_csv(&labels.cue);

@@ -91,10 +91,28 @@ pub fn run(args: Args) -> CmdResult {
             "review needs an interactive terminal (for lists use `trialdesk marks` or `trialdesk summary`)",
         ));
     }
-    let loaded = data::load(&args.path).map_err(|f| {
+    let report = |f: data::LoadFailure| {
         let lines: Vec<String> = f.diagnostics.iter().map(|d| d.to_string()).collect();
         CliError::failed(lines.join("\n"))
-    })?;
+    };
+    // A session inside a subject folder is reviewed with its subject's history.
+    let sc = crate::plan::scope(&args.path);
+    let mut only = sc.session.clone();
+    let mut scope_note = sc.note.clone();
+    let loaded = match data::load(&sc.root) {
+        Ok(l) => l,
+        Err(f) if only.is_some() => {
+            only = None;
+            let why = format!(
+                "{} problem(s); `trialdesk check {}` lists them",
+                f.diagnostics.iter().filter(|d| d.is_error()).count(),
+                sc.root.display()
+            );
+            scope_note = Some(crate::plan::fallback_note(&args.path, &why));
+            data::load(&args.path).map_err(report)?
+        }
+        Err(f) => return Err(report(f)),
+    };
     if loaded.subject.sessions.is_empty() {
         return Err(CliError::failed(format!(
             "{}: no session folders (a session folder holds session.toml)",
@@ -125,6 +143,12 @@ pub fn run(args: Args) -> CmdResult {
     };
     let follow_settings = args.follow.then(|| settings.clone());
     let mut state = app::build_state_with_rules(loaded.subject, opts, keymap, &settings, rules);
+    if let Some(i) = only
+        .as_ref()
+        .and_then(|n| state.subject.sessions.iter().position(|s| &s.name == n))
+    {
+        update::open_session(&mut state, i);
+    }
     // The newest session in training order is the one being recorded.
     let follower = match follow_settings {
         Some(settings) => {
@@ -144,6 +168,14 @@ pub fn run(args: Args) -> CmdResult {
             args.path.display()
         );
         update::notice(&mut state, text, Tone::Warn);
+    }
+    if let Some(n) = scope_note {
+        let tone = if only.is_some() {
+            Tone::Info
+        } else {
+            Tone::Warn
+        };
+        update::notice(&mut state, n, tone);
     }
     if let Some(p) = rules_problem {
         update::notice(&mut state, p, Tone::Warn);

@@ -12,10 +12,12 @@
 pub mod fit;
 mod marks;
 mod saved;
+mod scope;
 mod signal;
 
 pub use marks::{standing_marks, MarksPolicy, StandingMarks, UNREADABLE_HINT};
 pub use saved::CheckedFit;
+pub use scope::{fallback_note, scope, Scope};
 pub use signal::{choose_signal, signal_name, SignalChoice, SignalRequest};
 
 use crate::data::Subject;
