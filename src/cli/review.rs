@@ -78,9 +78,11 @@ pub fn run(args: Args) -> CmdResult {
         .reviewer
         .or(cfg.reviewer)
         .unwrap_or_else(crate::marks::reviewer_name);
+    let caps = crate::tui::caps::from_env();
     let opts = Options {
-        ascii: args.ascii,
-        color: color_allowed(std::env::var_os("NO_COLOR").as_deref()),
+        // The terminal's capabilities: no colour codes for a vt100, no UTF-8 for a C locale.
+        ascii: args.ascii || !caps.unicode,
+        color: caps.color,
         reviewer,
         reasons: cfg
             .reasons
@@ -266,22 +268,4 @@ pub fn save_unsaved_elsewhere(
         out.push((session.dir.clone(), result));
     }
     out
-}
-
-/// Colour unless NO_COLOR is set to a non-empty value (no-color.org).
-pub fn color_allowed(no_color: Option<&std::ffi::OsStr>) -> bool {
-    no_color.is_none_or(|v| v.is_empty())
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-    use std::ffi::OsStr;
-
-    #[test]
-    fn no_color_rule() {
-        assert!(color_allowed(None));
-        assert!(color_allowed(Some(OsStr::new(""))));
-        assert!(!color_allowed(Some(OsStr::new("1"))));
-    }
 }

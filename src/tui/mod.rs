@@ -9,6 +9,7 @@
 
 pub mod action;
 pub mod app;
+pub mod caps;
 pub mod config;
 pub mod derived;
 pub mod follow;
