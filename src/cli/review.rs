@@ -24,8 +24,8 @@ pub struct Args {
     /// A keymap file laid over the others, or a shipped layout name (default, one_handed)
     #[arg(long, value_name = "FILE")]
     pub keymap: Option<String>,
-    /// Plain ASCII drawing: no box-drawing or block characters
-    #[arg(long)]
+    /// Plain ASCII drawing: set from the global `--ascii`
+    #[arg(skip)]
     pub ascii: bool,
     /// Name for the reviewer column (default: config.toml's reviewer, else the login name)
     #[arg(long, value_name = "NAME")]
@@ -64,6 +64,36 @@ pub fn keymap_for(cfg_dir: Option<&Path>, flag: Option<&str>) -> Result<Keymap, 
     Keymap::build(&layers).map_err(|e| CliError::failed(format!("keymap: {e}")))
 }
 
+/// The reviewer shows one subject: a cohort folder (a folder of subject folders) is refused
+/// with the command that opens each of its subjects, before any terminal is needed.
+fn cohort_refusal(path: &Path) -> Result<(), CliError> {
+    if !path.is_dir()
+        || path.join(data::meta::SESSION_FILE).is_file()
+        || crate::cohort::is_subject_dir(path)
+    {
+        return Ok(());
+    }
+    let Ok(subjects) = crate::cohort::discover_subjects(path) else {
+        return Ok(());
+    };
+    let shown: Vec<String> = subjects
+        .iter()
+        .take(8)
+        .map(|s| format!("  trialdesk review {}", s.path.display()))
+        .collect();
+    let more = match subjects.len().saturating_sub(shown.len()) {
+        0 => String::new(),
+        n => format!("\n  ... and {n} more"),
+    };
+    Err(CliError::usage(format!(
+        "{} is a cohort folder of {} subject(s); the reviewer opens one subject at a time:\n{}{more}\n\
+         (`trialdesk summary`, `fit` and `plot` take the whole cohort folder)",
+        path.display(),
+        subjects.len(),
+        shown.join("\n"),
+    )))
+}
+
 pub fn run(args: Args) -> CmdResult {
     let cfg_dir = config::config_dir();
     let cfg = match &cfg_dir {
@@ -83,6 +113,7 @@ pub fn run(args: Args) -> CmdResult {
             .reasons
             .unwrap_or_else(|| DEFAULT_REASONS.iter().map(|s| s.to_string()).collect()),
     };
+    cohort_refusal(&args.path)?;
     if !std::io::stdout().is_terminal() || !std::io::stdin().is_terminal() {
         return Err(CliError::usage(
             "review needs an interactive terminal (for lists use `trialdesk marks` or `trialdesk summary`)",

@@ -192,22 +192,26 @@ impl Theme {
 /// Neutralise a data string (note, unit id, cue name, reviewer, reason, file name) before it is
 /// drawn: control characters (C0, DEL, C1 — including ESC, which could start a terminal escape
 /// sequence) become `?`; invisible direction overrides and zero-width characters, which can make
-/// text read differently from what it is, become `?` too; in ASCII mode every non-ASCII
-/// character becomes `?`. Every string from the data goes through here; nothing else is needed
-/// because ratatui writes cell contents, never raw escape sequences of ours.
+/// text read differently from what it is, become `?` too; in ASCII mode every other non-ASCII
+/// character is written in its ASCII spelling (`ΔF/F` → `dF/F`, `α` → `alpha`, `é` → `e`:
+/// [`crate::ascii::spelling`]), or `?` when it has none. Every string from the data goes
+/// through here; nothing else is needed because ratatui writes cell contents, never raw escape
+/// sequences of ours.
 pub fn clean(s: &str, ascii: bool) -> String {
-    s.chars()
-        .map(|c| {
-            let invisible = matches!(c,
-                '\u{200B}'..='\u{200F}' | '\u{202A}'..='\u{202E}' | '\u{2060}'..='\u{2069}'
-                | '\u{FEFF}' | '\u{00AD}');
-            if c.is_control() || invisible || (ascii && !c.is_ascii()) {
-                '?'
-            } else {
-                c
-            }
-        })
-        .collect()
+    let mut out = String::with_capacity(s.len());
+    for c in s.chars() {
+        let invisible = matches!(c,
+            '\u{200B}'..='\u{200F}' | '\u{202A}'..='\u{202E}' | '\u{2060}'..='\u{2069}'
+            | '\u{FEFF}' | '\u{00AD}');
+        if c.is_control() || invisible {
+            out.push('?');
+        } else if ascii && !c.is_ascii() {
+            out.push_str(crate::ascii::spelling(c).unwrap_or("?"));
+        } else {
+            out.push(c);
+        }
+    }
+    out
 }
 
 #[cfg(test)]
@@ -220,6 +224,8 @@ mod tests {
         assert_eq!(clean("a\nb\tc\r\u{9b}", false), "a?b?c??");
         assert_eq!(clean("u\u{202E}1", false), "u?1");
         assert_eq!(clean("tône", false), "tône");
-        assert_eq!(clean("tône", true), "t?ne");
+        assert_eq!(clean("tône", true), "tone");
+        assert_eq!(clean("ΔF/F, α — γ", true), "dF/F, alpha - gamma");
+        assert_eq!(clean("a😀b", true), "a?b");
     }
 }
