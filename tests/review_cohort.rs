@@ -86,3 +86,20 @@ fn each_subject_of_a_cohort_reviews_and_marks_its_own_sessions() {
     assert!(rows[1].starts_with("1,exclude,"), "{rows:?}");
     assert_eq!(marks_csv(&b, session), "", "the other subject is untouched");
 }
+
+#[test]
+fn a_subject_whose_sessions_are_grouped_by_month_is_not_a_cohort() {
+    let (_tmp, root) = cohort();
+    let a = root.join("m-071");
+    let month = a.join("2026-03");
+    std::fs::create_dir(&month).unwrap();
+    for e in std::fs::read_dir(&a).unwrap().filter_map(Result::ok) {
+        if e.path().join("session.toml").is_file() {
+            std::fs::rename(e.path(), month.join(e.file_name())).unwrap();
+        }
+    }
+    let (code, err) = review(&a);
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("interactive terminal"), "{err}");
+    assert!(!err.contains("cohort"), "{err}");
+}

@@ -64,22 +64,18 @@ pub fn keymap_for(cfg_dir: Option<&Path>, flag: Option<&str>) -> Result<Keymap, 
     Keymap::build(&layers).map_err(|e| CliError::failed(format!("keymap: {e}")))
 }
 
-/// The reviewer shows one subject: a cohort folder (a folder of subject folders) is refused
-/// with the command that opens each of its subjects, before any terminal is needed.
+/// The reviewer shows one subject: a cohort folder is refused with the command that opens each
+/// of its subjects, before any terminal is needed. A cohort folder is what `summary` takes as
+/// one ([`crate::summary::cohort::cohort_subject_dirs`]: sub-folders whose sessions name at
+/// least two animals), so a subject folder that groups its sessions by month still opens.
 fn cohort_refusal(path: &Path) -> Result<(), CliError> {
-    if !path.is_dir()
-        || path.join(data::meta::SESSION_FILE).is_file()
-        || crate::cohort::is_subject_dir(path)
-    {
-        return Ok(());
-    }
-    let Ok(subjects) = crate::cohort::discover_subjects(path) else {
+    let Some(subjects) = crate::summary::cohort::cohort_subject_dirs(path) else {
         return Ok(());
     };
     let shown: Vec<String> = subjects
         .iter()
         .take(8)
-        .map(|s| format!("  trialdesk review {}", s.path.display()))
+        .map(|s| format!("  trialdesk review {}", s.display()))
         .collect();
     let more = match subjects.len().saturating_sub(shown.len()) {
         0 => String::new(),
