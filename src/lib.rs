@@ -4,6 +4,7 @@
 //! terminal code; `cli` and `tui` are thin shells over it. Start reading at `data` (what a session
 //! is), then `model` (the TD learner), then `fit`.
 
+pub mod ascii;
 pub mod check;
 pub mod cli;
 pub mod cohort;

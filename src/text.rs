@@ -28,17 +28,20 @@ pub fn is_dangerous(c: char) -> bool {
 }
 
 /// For the reviewer's cells: dangerous characters (newlines too) become `?`; with `ascii`
-/// every non-ASCII character as well.
+/// every other non-ASCII character is written in its ASCII spelling
+/// ([`crate::ascii::spelling`]: `Δ` → `d`, `α` → `alpha`, `é` → `e`), or `?` without one.
 pub fn for_screen(s: &str, ascii: bool) -> String {
-    s.chars()
-        .map(|c| {
-            if is_dangerous(c) || (ascii && !c.is_ascii()) {
-                '?'
-            } else {
-                c
-            }
-        })
-        .collect()
+    let mut out = String::with_capacity(s.len());
+    for c in s.chars() {
+        if is_dangerous(c) {
+            out.push('?');
+        } else if ascii && !c.is_ascii() {
+            out.push_str(crate::ascii::spelling(c).unwrap_or("?"));
+        } else {
+            out.push(c);
+        }
+    }
+    out
 }
 
 fn escaped(s: &str, keep_newline: bool) -> Cow<'_, str> {
@@ -166,7 +169,8 @@ mod tests {
         ] {
             assert!(!out.chars().any(is_dangerous), "{out:?}");
         }
-        assert_eq!(for_screen("tône", true), "t?ne");
+        assert_eq!(for_screen("tône", true), "tone");
+        assert_eq!(for_screen("ΔF/F", true), "dF/F");
         assert_eq!(for_csv("=SUM(A1)"), "'=SUM(A1)");
         assert_eq!(for_csv("-0.5"), "-0.5");
         assert_eq!(for_csv("-x"), "'-x");

@@ -51,7 +51,7 @@ pub fn run(args: Args) -> CmdResult {
         plural(report.sessions_found),
     ));
     let text = crate::text::for_text(&text);
-    let mut stdout = io::stdout().lock();
+    let mut stdout = super::out::stdout();
     match stdout
         .write_all(text.as_bytes())
         .and_then(|_| stdout.flush())

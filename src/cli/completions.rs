@@ -29,7 +29,7 @@ pub struct ManArgs {
 
 /// Write `bytes` to stdout; a closed pipe (`| head`) is not an error.
 fn to_stdout(bytes: &[u8]) -> CmdResult {
-    let mut out = std::io::stdout().lock();
+    let mut out = super::out::stdout();
     match out.write_all(bytes).and_then(|_| out.flush()) {
         Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => Err(e.into()),
         _ => Ok(0),

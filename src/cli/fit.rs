@@ -261,7 +261,7 @@ fn fit_error(path: &Path, e: FitError) -> CliError {
 
 /// Write `text` to stdout; a closed pipe (`| head`) is not an error.
 fn print(text: &str) -> Result<(), CliError> {
-    let mut stdout = std::io::stdout().lock();
+    let mut stdout = super::out::stdout();
     match stdout
         .write_all(text.as_bytes())
         .and_then(|_| stdout.flush())

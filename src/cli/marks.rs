@@ -94,8 +94,7 @@ pub fn run(args: Args) -> CmdResult {
             .map_err(|e| CliError::failed(e.to_string()))?;
         eprintln!("wrote {} row(s) to {}", lines.len(), file.display());
     }
-    let stdout = std::io::stdout();
-    let mut out = std::io::BufWriter::new(stdout.lock());
+    let mut out = std::io::BufWriter::new(super::out::stdout());
     let written = match args.format {
         Format::Csv => write_csv(&mut out, &lines),
         Format::Table => write_table(&mut out, &lines, sessions.len(), args.all),

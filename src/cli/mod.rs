@@ -1,6 +1,22 @@
 //! The command-line shell: parses arguments (clap), calls the library, maps outcomes to exit
 //! codes (0 success, 1 invalid data or failed job, 2 usage error). Each command lives in its
 //! own file with its own `Args` struct and `run`.
+//!
+//! `println!` and `eprintln!` inside `cli` are the two macros below, not std's: they send the
+//! text through [`out::text`], so the global `--ascii` covers every line a command prints.
+//! Results streamed to standard output go through [`out::stdout`].
+
+/// std's `println!`, in ASCII spelling under `--ascii` (see [`out`]).
+macro_rules! println {
+    () => { std::println!() };
+    ($($arg:tt)*) => { std::println!("{}", $crate::cli::out::text(&std::format!($($arg)*))) };
+}
+
+/// std's `eprintln!`, in ASCII spelling under `--ascii` (see [`out`]).
+macro_rules! eprintln {
+    () => { std::eprintln!() };
+    ($($arg:tt)*) => { std::eprintln!("{}", $crate::cli::out::text(&std::format!($($arg)*))) };
+}
 
 pub mod check;
 pub mod completions;
@@ -9,6 +25,7 @@ pub mod marks;
 pub mod merge;
 pub mod model;
 pub mod obs_args;
+pub mod out;
 pub mod plot;
 pub mod review;
 pub mod simulate;
@@ -24,6 +41,10 @@ use std::fmt;
     about = "Review, mark and model Pavlovian conditioning sessions recorded with dopamine activity"
 )]
 pub struct Cli {
+    /// Plain ASCII output: no box-drawing or block characters in the reviewer, and Greek
+    /// letters, dashes and signs spelled out (dF/F, alpha, R^2, >=) in everything printed
+    #[arg(long, global = true)]
+    pub ascii: bool,
     #[command(subcommand)]
     pub command: Command,
 }
@@ -106,16 +127,37 @@ where
     I: IntoIterator<Item = T>,
     T: Into<std::ffi::OsString> + Clone,
 {
+    let args: Vec<std::ffi::OsString> = args.into_iter().map(Into::into).collect();
+    // Known before parsing, so help and usage errors are ASCII too.
+    let ascii = args
+        .iter()
+        .skip(1)
+        .take_while(|a| *a != "--")
+        .any(|a| a == "--ascii");
+    out::set_ascii(ascii);
     let cli = match Cli::try_parse_from(args) {
         Ok(cli) => cli,
         Err(e) => {
             let code = if e.use_stderr() { 2 } else { 0 };
-            let _ = e.print();
+            if ascii {
+                let text = e.render().to_string();
+                if e.use_stderr() {
+                    std::eprint!("{}", out::text(&text));
+                } else {
+                    std::print!("{}", out::text(&text));
+                }
+            } else {
+                let _ = e.print();
+            }
             return code;
         }
     };
+    out::set_ascii(cli.ascii);
     let result = match cli.command {
-        Command::Review(a) => review::run(a),
+        Command::Review(mut a) => {
+            a.ascii = cli.ascii;
+            review::run(a)
+        }
         Command::Fit(a) => fit::run(a),
         Command::Model(a) => model::run(a),
         Command::Check(a) => check::run(a),

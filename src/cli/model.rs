@@ -170,7 +170,7 @@ pub fn run(args: Args) -> CmdResult {
         .map_err(|e| CliError::failed(e.to_string()))?;
         return Ok(0);
     }
-    let sink: Box<dyn Write> = Box::new(std::io::stdout().lock());
+    let sink: Box<dyn Write> = super::out::stdout();
     match write_traces(sink, subject, &spans, &traces, params.dt, &wanted) {
         Ok(()) => Ok(0),
         // `trialdesk model ... --out - | head` is not a failure.

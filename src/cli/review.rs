@@ -25,8 +25,8 @@ pub struct Args {
     /// A keymap file laid over the others, or a shipped layout name (default, one_handed)
     #[arg(long, value_name = "FILE")]
     pub keymap: Option<String>,
-    /// Plain ASCII drawing: no box-drawing or block characters
-    #[arg(long)]
+    /// Plain ASCII drawing: set from the global `--ascii`
+    #[arg(skip)]
     pub ascii: bool,
     /// Name for the reviewer column (default: config.toml's reviewer, else the login name)
     #[arg(long, value_name = "NAME")]
@@ -67,6 +67,32 @@ pub fn keymap_for(cfg_dir: Option<&Path>, flag: Option<&str>) -> Result<Keymap, 
     Keymap::build(&layers).map_err(|e| CliError::failed(format!("keymap: {e}")))
 }
 
+/// The reviewer shows one subject: a cohort folder is refused with the command that opens each
+/// of its subjects, before any terminal is needed. A cohort folder is what `summary` takes as
+/// one ([`crate::summary::cohort::cohort_subject_dirs`]: sub-folders whose sessions name at
+/// least two animals), so a subject folder that groups its sessions by month still opens.
+fn cohort_refusal(path: &Path) -> Result<(), CliError> {
+    let Some(subjects) = crate::summary::cohort::cohort_subject_dirs(path) else {
+        return Ok(());
+    };
+    let shown: Vec<String> = subjects
+        .iter()
+        .take(8)
+        .map(|s| format!("  trialdesk review {}", s.display()))
+        .collect();
+    let more = match subjects.len().saturating_sub(shown.len()) {
+        0 => String::new(),
+        n => format!("\n  ... and {n} more"),
+    };
+    Err(CliError::usage(format!(
+        "{} is a cohort folder of {} subject(s); the reviewer opens one subject at a time:\n{}{more}\n\
+         (`trialdesk summary`, `fit` and `plot` take the whole cohort folder)",
+        path.display(),
+        subjects.len(),
+        shown.join("\n"),
+    )))
+}
+
 pub fn run(args: Args) -> CmdResult {
     let cfg_dir = config::config_dir();
     let cfg = match &cfg_dir {
@@ -88,6 +114,7 @@ pub fn run(args: Args) -> CmdResult {
             .reasons
             .unwrap_or_else(|| DEFAULT_REASONS.iter().map(|s| s.to_string()).collect()),
     };
+    cohort_refusal(&args.path)?;
     if !std::io::stdout().is_terminal() || !std::io::stdin().is_terminal() {
         return Err(CliError::usage(
             "review needs an interactive terminal (for lists use `trialdesk marks` or `trialdesk summary`)",

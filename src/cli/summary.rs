@@ -124,7 +124,7 @@ pub fn run(args: Args) -> CmdResult {
         Some(path) => crate::safe_write::replace_file(path, text.as_bytes())
             .map_err(|e| CliError::failed(e.to_string()))?,
         None => {
-            let mut out = std::io::stdout().lock();
+            let mut out = super::out::stdout();
             match out.write_all(text.as_bytes()).and_then(|_| out.flush()) {
                 Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => {}
                 r => r?,

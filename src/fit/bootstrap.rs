@@ -186,7 +186,9 @@ pub struct GammaProfile {
     pub gamma_best: f64,
 }
 
-/// Half the 95 % χ²₁ quantile (3.84/2): a likelihood-ratio drop below it is not significant.
+/// Half the 95 % χ²₁ quantile (3.84/2): a likelihood-ratio drop below it is not significant
+/// (the likelihood-ratio test's χ² approximation, Wilks 1938, *Ann Math Stat* 9:60, citation
+/// from memory; 3.841 is the χ²₁ quantile, a closed-form value).
 pub const FLAT_DROP: f64 = 1.92;
 /// Multipliers of the fitted time constant τ = −dt/ln γ at which the profile is evaluated.
 pub const PROFILE_TAU_FACTORS: [f64; 4] = [0.5, 0.75, 1.5, 2.0];

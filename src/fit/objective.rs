@@ -69,12 +69,14 @@ pub fn gaussian_loglik(rss: f64, n: usize) -> f64 {
     -0.5 * n * ((2.0 * std::f64::consts::PI * rss / n).ln() + 1.0)
 }
 
-/// Akaike information criterion, 2k − 2lnL.
+/// Akaike information criterion, 2k − 2lnL (Akaike 1974, *IEEE Trans Autom Control*
+/// 19:716, citation from memory; the formula as methods.md §4 states it).
 pub fn aic(loglik: f64, k: usize) -> f64 {
     2.0 * k as f64 - 2.0 * loglik
 }
 
-/// Schwarz's Bayesian information criterion, k·ln n − 2lnL.
+/// Schwarz's Bayesian information criterion, k·ln n − 2lnL (Schwarz 1978, *Ann Stat* 6:461;
+/// methods.md §4).
 pub fn bic(loglik: f64, k: usize, n: usize) -> f64 {
     k as f64 * (n as f64).ln() - 2.0 * loglik
 }
@@ -162,7 +164,9 @@ pub fn goodness(data: &FitData, idx: &[usize], predicted: &[f64]) -> (f64, f64) 
 }
 
 /// Bounds of the search on the logit scale: keeps α in about [6e-6, 0.99999] and γ, λ likewise,
-/// where the likelihood is flat anyway, so the simplex cannot run off to infinity.
+/// where the likelihood is flat anyway, so the simplex cannot run off to infinity. (Searching
+/// (0, 1) parameters on the logit scale is our choice, methods.md §4 [C], not a published
+/// recipe.)
 pub const Z_BOUND: f64 = 12.0;
 
 pub fn expit(z: f64) -> f64 {

@@ -1,5 +1,9 @@
 //! The search over learning parameters: a coarse grid picks starts, Nelder–Mead (argmin's
 //! implementation) refines each on the logit scale, starts run in parallel (rayon).
+//!
+//! Nelder–Mead is the downhill simplex method of Nelder & Mead 1965 (*Comput J* 7:308,
+//! citation from memory). Grid plus bounded multi-start search is methods.md §4's plan [C];
+//! the grid's size and the number of starts are our defaults, not published values.
 
 use super::objective::{LearnParams, LinearFit, Problem};
 use super::Progress;

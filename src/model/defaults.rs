@@ -14,10 +14,11 @@ pub const REPRESENTATION: Representation = Representation::Csc;
 pub const REPRESENTATION_NAME: &str = "csc";
 /// Learning rate of the simulated learner.
 pub const ALPHA: f64 = 0.02;
-/// Discount per 50 ms bin of the simulated learner (τ ≈ 2.5 s, Ludvig, Sutton & Kehoe 2008's
-/// value).
+/// Discount per 50 ms bin of the simulated learner (τ ≈ 2.5 s): Ludvig, Sutton & Kehoe 2008's
+/// value as the authors' script and two re-implementations give it (methods.md §1.3, [S]).
 pub const GAMMA: f64 = 0.98;
-/// Eligibility-trace decay per bin of the simulated learner.
+/// Eligibility-trace decay per bin of the simulated learner: our choice (Ludvig et al. 2008
+/// and 2012 used 0.95, methods.md §1.3 [S]).
 pub const LAMBDA: f64 = 0.9;
 /// λ of `trialdesk model` when `--lambda` is not given (the design brief's model contract).
 pub const MODEL_LAMBDA: f64 = 0.0;

@@ -5,7 +5,13 @@
 
 use super::layout::TrialSpan;
 
-/// Parameters of the microstimulus representation (Ludvig, Sutton & Kehoe 2008).
+/// Parameters of the microstimulus representation (Ludvig, Sutton & Kehoe 2008, *Neural
+/// Comput* 20:3034).
+///
+/// Defaults: σ = 0.08 and d = 0.985 per 50 ms are the values of Ludvig et al. 2008 and 2012 as
+/// the authors' script and two re-implementations give them (methods.md §1.3, tagged [S]:
+/// secondary sources, not read in the papers). m = 20 is the design brief's choice, between the
+/// 50 of the 2008 paper and the 6 of the 2012 one (same source and tag).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct MicrostimulusParams {
     /// Number of microstimuli per stimulus.
@@ -28,10 +34,14 @@ impl Default for MicrostimulusParams {
 
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Representation {
-    /// Complete serial compound: one feature per cue and bin index.
+    /// Complete serial compound (tapped delay line): one feature per cue and bin index
+    /// (Sutton & Barto 1990; Montague, Dayan & Sejnowski 1996; Schultz, Dayan & Montague
+    /// 1997; methods.md §1.3).
     Csc,
-    /// One feature per cue, 1 in every bin of its trials.
+    /// One feature per cue, 1 in every bin of its trials (the presence representation of
+    /// Ludvig et al. 2012, there at level 0.2; methods.md §1.3, [S]).
     Presence,
+    /// Microstimuli of a decaying memory trace (Ludvig, Sutton & Kehoe 2008).
     Microstimulus(MicrostimulusParams),
 }
 
@@ -54,7 +64,9 @@ impl Representation {
     }
 }
 
-/// Microstimulus heights x(i), i = 1..m, for a trace of height y.
+/// Microstimulus heights x(i) = y·(1/√(2π))·exp(−(y − i/m)²/(2σ²)), i = 1..m, for a trace of
+/// height y (Ludvig, Sutton & Kehoe 2008; the prefactor 1/√(2π), not 1/(σ√(2π)), as in the
+/// authors' script, methods.md §1.3 [S], and the design brief).
 pub fn microstimuli(y: f64, p: &MicrostimulusParams, out: &mut Vec<f64>) {
     let norm = 1.0 / (2.0 * std::f64::consts::PI).sqrt();
     out.clear();

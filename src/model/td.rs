@@ -47,7 +47,9 @@ pub struct Step {
     pub delta: f64,
 }
 
-/// Linear TD(λ) with accumulating traces over sparse features.
+/// Linear TD(λ) with accumulating traces over sparse features (semi-gradient TD(λ), Sutton &
+/// Barto 2018, ch. 12; the equation numbers 12.5–12.7 that methods.md §1.1 gives are from
+/// memory).
 ///
 /// The trace is kept sparse too: `trace` holds the features with a (possibly decayed) non-zero
 /// trace since the last [`Learner::reset_trace`], contiguous so the per-step loops stream

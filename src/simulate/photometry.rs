@@ -22,8 +22,12 @@ pub struct PhotometryParams {
     pub f0_control: f64,
     /// Peak ΔF/F per µL of δ.
     pub amp_per_ul: f64,
+    /// Rise and decay time constants of the sensor kernel, seconds. A decay of hundreds of ms
+    /// is what methods.md §4 notes for dopamine sensors (tagged from memory there); 0.1 s and
+    /// 0.6 s are our demo values, not a published sensor's.
     pub tau_rise_s: f64,
     pub tau_decay_s: f64,
+    /// Sensor onset after the model's bin, seconds (as the spike units' latency).
     pub latency_s: f64,
     /// Gaussian noise sd of each sample, as a fraction of that channel's F0.
     pub noise_frac: f64,
@@ -83,7 +87,8 @@ impl PhotometryParams {
     }
 }
 
-/// Photobleaching: both channels decay as 1 − f + f·exp(−t/τ).
+/// Photobleaching: both channels decay as 1 − f + f·exp(−t/τ). One exponential is our
+/// simplification; published bleaching models use two (Keevers et al. 2025, methods.md §5).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Bleaching {
     pub fraction: f64,

@@ -59,6 +59,9 @@ pub struct ScheduleParams {
     pub uncued_fraction: f64,
     /// Reward size in µL (sweet water); also the model's reward magnitude.
     pub reward_ul: f64,
+    /// ITI: minimum plus an exponential with this mean. methods.md §6 takes an exponential ITI
+    /// as its default (mean 15 s, range 8–60 s from Jeong et al. 2022 and Floeder et al. 2024);
+    /// the demo's 6 s + exponential(12 s) is our choice within that range.
     pub iti_mean_s: f64,
     pub iti_min_s: f64,
     /// Quiet time before the first and after the last trial.

@@ -20,7 +20,8 @@ pub struct UnitParams {
     /// Gain drawn uniformly per unit, extra spikes/s per unit of δ (δ is in µL).
     pub gain_min: f64,
     pub gain_max: f64,
-    /// Response latency after the model's bin, seconds.
+    /// Response latency after the model's bin, seconds (dopamine responses start within
+    /// 100 ms of the event: Schultz 2007, methods.md §6; 50 ms is our default).
     pub latency_s: f64,
 }
 

@@ -190,7 +190,8 @@ impl Theme {
 }
 
 /// Neutralise a data string before it is drawn: the screen policy of [`crate::text`]
-/// (control and invisible characters become `?`; in ASCII mode every non-ASCII character too).
+/// (control and invisible characters become `?`; in ASCII mode every other non-ASCII character
+/// is written in its ASCII spelling, `ΔF/F` → `dF/F`, or `?` when it has none).
 /// ratatui writes cell contents, never raw escape sequences of ours, so nothing else is needed.
 pub fn clean(s: &str, ascii: bool) -> String {
     crate::text::for_screen(s, ascii)
@@ -206,6 +207,8 @@ mod tests {
         assert_eq!(clean("a\nb\tc\r\u{9b}", false), "a?b?c??");
         assert_eq!(clean("u\u{202E}1", false), "u?1");
         assert_eq!(clean("tône", false), "tône");
-        assert_eq!(clean("tône", true), "t?ne");
+        assert_eq!(clean("tône", true), "tone");
+        assert_eq!(clean("ΔF/F, α — γ", true), "dF/F, alpha - gamma");
+        assert_eq!(clean("a😀b", true), "a?b");
     }
 }

@@ -43,7 +43,8 @@ impl Bar {
 
 impl Progress for Bar {
     fn phase(&self, name: &str, total: u64) {
-        self.bar.set_message(name.to_string());
+        self.bar
+            .set_message(crate::cli::out::text(name).into_owned());
         if total > 0 {
             self.bar.set_length(total);
         } else {

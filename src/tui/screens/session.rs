@@ -22,7 +22,7 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         Some(why) => theme.clean(why),
         None => format!(
             "{} per trial, aligned on cue onset (uncued: reward)",
-            view.label
+            theme.clean(&view.label)
         ),
     };
     put(buf, area, 1, 0, &title, theme.style(Role::Title));

@@ -103,7 +103,7 @@ fn render_detail(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
     };
     let obs_title = match &view.missing {
         Some(why) => format!("observed: {}", theme.clean(why)),
-        None => format!("observed {}", view.label),
+        None => format!("observed {}", theme.clean(&view.label)),
     };
     trace::render(
         buf,
