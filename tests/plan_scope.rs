@@ -99,3 +99,41 @@ fn a_lone_session_is_modelled_untrained_with_a_warning() {
     let err = String::from_utf8_lossy(&fit.stderr);
     assert!(err.contains("starts from an untrained model"), "{err}");
 }
+
+/// A day whose trials.csv is broken is left out of a review, named with its first error;
+/// the other days load. A problem outside any one session still fails the subject.
+#[test]
+fn a_bad_day_leaves_the_other_days_reviewable() {
+    let tmp = tempfile::tempdir().unwrap();
+    let subject = tmp.path().join("m-041");
+    let o = run(&[
+        "simulate",
+        subject.to_str().unwrap(),
+        "--days",
+        "3",
+        "--trials-per-day",
+        "20",
+    ]);
+    assert!(o.status.success());
+    let bad = last_session(&subject);
+    let trials = bad.join("trials.csv");
+    let mut text = std::fs::read_to_string(&trials).unwrap();
+    text.push_str("not,a,trial,row\n");
+    std::fs::write(&trials, text).unwrap();
+
+    assert!(trialdesk::data::load(&subject).is_err());
+    let partial = trialdesk::data::load_partial(&subject).unwrap();
+    assert_eq!(partial.loaded.subject.sessions.len(), 2);
+    assert_eq!(partial.left_out.len(), 1);
+    assert_eq!(partial.left_out[0].0, bad);
+    assert!(partial.left_out[0].1.file.starts_with(&bad));
+
+    // Every day broken: nothing to review, the failure lists the problems.
+    for s in std::fs::read_dir(&subject).unwrap() {
+        let p = s.unwrap().path().join("trials.csv");
+        if p.is_file() {
+            std::fs::write(&p, "nonsense\n").unwrap();
+        }
+    }
+    assert!(trialdesk::data::load_partial(&subject).is_err());
+}

@@ -128,7 +128,14 @@ pub fn run(args: Args) -> CmdResult {
     let sc = crate::plan::scope(&args.path);
     let mut only = sc.session.clone();
     let mut scope_note = sc.note.clone();
-    let loaded = match data::load(&sc.root) {
+    let mut left_out = Vec::new();
+    let mut load = |p: &Path| {
+        data::load_partial(p).map(|partial| {
+            left_out = partial.left_out;
+            partial.loaded
+        })
+    };
+    let loaded = match load(&sc.root) {
         Ok(l) => l,
         Err(f) if only.is_some() => {
             only = None;
@@ -138,10 +145,20 @@ pub fn run(args: Args) -> CmdResult {
                 sc.root.display()
             );
             scope_note = Some(crate::plan::fallback_note(&args.path, &why));
-            data::load(&args.path).map_err(report)?
+            load(&args.path).map_err(report)?
         }
         Err(f) => return Err(report(f)),
     };
+    // One bad day does not keep the others from being reviewed; say which day and why.
+    let left_out_note = left_out.first().map(|(dir, first)| {
+        format!(
+            "{} session(s) left out, their files have errors (first: {}); the model learns \
+             without them; `trialdesk check {}` lists every problem",
+            left_out.len(),
+            first,
+            dir.display()
+        )
+    });
     if loaded.subject.sessions.is_empty() {
         return Err(CliError::failed(format!(
             "{}: no session folders (a session folder holds session.toml)",
@@ -208,6 +225,9 @@ pub fn run(args: Args) -> CmdResult {
     }
     if let Some(p) = rules_problem {
         update::notice(&mut state, p, Tone::Warn);
+    }
+    if let Some(n) = left_out_note {
+        update::notice(&mut state, n, Tone::Error);
     }
     if let Some(f) = &follower {
         // While recording, the caution matters more than older warnings.

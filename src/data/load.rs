@@ -70,6 +70,65 @@ pub fn load(path: &Path) -> Result<Loaded, LoadFailure> {
     })
 }
 
+/// A subject read for reviewing: the sessions that loaded, and the ones left out because of
+/// errors in their own files (each with its first error), so one bad day does not keep the
+/// others from being reviewed.
+#[derive(Debug)]
+pub struct Partial {
+    pub loaded: Loaded,
+    pub left_out: Vec<(PathBuf, Diagnostic)>,
+}
+
+/// As [`load`], but sessions whose own files have errors are left out instead of failing the
+/// whole subject. Fails when no session loads, or when an error is not inside a session that
+/// was left out (a problem across sessions concerns the ones that loaded too).
+pub fn load_partial(path: &Path) -> Result<Partial, LoadFailure> {
+    let scanned = scan(path);
+    let loaded_dirs: Vec<&Path> = scanned
+        .subject
+        .sessions
+        .iter()
+        .map(|s| s.dir.as_path())
+        .collect();
+    let failed: Vec<&PathBuf> = scanned
+        .session_dirs
+        .iter()
+        .filter(|d| !loaded_dirs.contains(&d.as_path()))
+        .collect();
+    let in_failed = |d: &Diagnostic| failed.iter().any(|f| d.file.starts_with(f));
+    let stray = scanned
+        .diagnostics
+        .iter()
+        .any(|d| d.is_error() && !in_failed(d));
+    if stray || scanned.subject.sessions.is_empty() {
+        return Err(LoadFailure {
+            diagnostics: scanned.diagnostics,
+        });
+    }
+    let left_out = failed
+        .iter()
+        .filter_map(|f| {
+            let first = scanned
+                .diagnostics
+                .iter()
+                .find(|d| d.is_error() && d.file.starts_with(f))?;
+            Some(((*f).clone(), first.clone()))
+        })
+        .collect();
+    let warnings = scanned
+        .diagnostics
+        .into_iter()
+        .filter(|d| !d.is_error())
+        .collect();
+    Ok(Partial {
+        loaded: Loaded {
+            subject: scanned.subject,
+            warnings,
+        },
+        left_out,
+    })
+}
+
 /// What a full walk found: the sessions that loaded cleanly (in training order) and every
 /// diagnostic, errors and warnings, in folder order.
 #[derive(Debug)]

@@ -14,7 +14,7 @@ pub mod number;
 pub mod tables;
 
 pub use diag::{Diagnostic, Severity};
-pub use load::{load, scan, LoadFailure, Loaded, Scan};
+pub use load::{load, load_partial, scan, LoadFailure, Loaded, Partial, Scan};
 
 use std::path::PathBuf;
 
