@@ -200,7 +200,7 @@ pub fn trials_with_events(events: &[RawEvent]) -> HashSet<i64> {
 }
 
 /// Events against trials.csv: unknown trial, an event more than [`FAR_S`] from its trial's
-/// own cue or reward, and a reward (in either file) before the trial's first cue.
+/// own cue or reward (from its first event, for a trial given only in events.csv), and a reward (in either file) before the trial's first cue.
 pub fn check_events(
     trials_path: &Path,
     events_path: &Path,
@@ -214,6 +214,11 @@ pub fn check_events(
         if let Some(c) = t.cue_s {
             first_cue.insert(t.number, c);
         }
+    }
+    let mut first_event: HashMap<i64, f64> = HashMap::new();
+    for e in events {
+        let f = first_event.entry(e.trial).or_insert(e.onset_s);
+        *f = f.min(e.onset_s);
     }
     for e in events.iter().filter(|e| e.kind == EventKind::Cue) {
         let c = first_cue.entry(e.trial).or_insert(e.onset_s);
@@ -232,31 +237,30 @@ pub fn check_events(
             );
             continue;
         };
-        let anchor = match (t.cue_s, t.reward_s) {
-            (Some(c), _) => Some(("cue", c)),
-            (None, Some(r)) => Some(("reward", r)),
-            (None, None) => None,
+        // A trial given only in events.csv is anchored on its first event.
+        let (what, at) = match (t.cue_s, t.reward_s) {
+            (Some(c), _) => ("cue", c),
+            (None, Some(r)) => ("reward", r),
+            (None, None) => ("first event", first_event[&e.trial]),
         };
-        if let Some((what, at)) = anchor {
-            let gap = (e.onset_s - at).abs();
-            if gap > FAR_S {
-                out.push(
-                    Diagnostic::error(
-                        events_path,
-                        format!(
-                            "event at {} s is {gap:.3} s from its trial's {what} at {at} s",
-                            e.onset_s
-                        ),
-                    )
-                    .at_line(e.line)
-                    .column("onset_s")
-                    .expected(format!(
-                        "events within {FAR_S} s of their trial's own cue or reward (trial {})",
-                        e.trial
-                    )),
-                );
-                continue;
-            }
+        let gap = (e.onset_s - at).abs();
+        if gap > FAR_S {
+            out.push(
+                Diagnostic::error(
+                    events_path,
+                    format!(
+                        "event at {} s is {gap:.3} s from its trial's {what} at {at} s",
+                        e.onset_s
+                    ),
+                )
+                .at_line(e.line)
+                .column("onset_s")
+                .expected(format!(
+                    "events within {FAR_S} s of their trial's own cue or reward (trial {})",
+                    e.trial
+                )),
+            );
+            continue;
         }
         if let (EventKind::Reward, Some(&cue)) = (e.kind, first_cue.get(&e.trial)) {
             if e.onset_s < cue {
