@@ -134,8 +134,8 @@ fn fit_points_follow_their_events_and_marks_drop_all_of_a_trial() {
         .find(|p| p.label.as_deref() == Some("omission:tone-a"))
         .unwrap();
     assert_eq!((om.kind, om.event_bin), (WindowKind::Reward, 20));
-    // The plain trial: two unlabelled points, as before.
+    // The plain trial: its cue and reward pair, named like the others in this subject.
     let t3 = of_trial(3);
-    assert_eq!(t3.len(), 2);
-    assert!(t3.iter().all(|p| p.label.is_none()));
+    let names: Vec<_> = t3.iter().map(|p| p.label.as_deref().unwrap()).collect();
+    assert_eq!(names, ["cue:tone-a", "reward:1"]);
 }

@@ -50,8 +50,9 @@ pub struct ObsPoint {
     /// The bin (within the span) of the event the window follows.
     pub event_bin: u32,
     /// For a trial with an event list, which event the window follows (`cue:<name>`,
-    /// `reward:<n>`, `omission:<name>`, see [`crate::obs::events`]); `None` for the plain
-    /// cue and reward windows, named by `kind` alone.
+    /// `reward:<n>`, `omission:<name>`, see [`crate::obs::events`]; plain trials of such a
+    /// subject get the same form); `None` in a subject without event lists, whose windows are
+    /// named by `kind` alone, as before.
     pub label: Option<String>,
     /// Observed response (window mean minus pre-cue baseline).
     pub observed: f64,
@@ -178,6 +179,10 @@ pub fn build(
         }
     }
 
+    // In a subject with event lists, plain trials' windows are named the same way, so that a
+    // probe of one cue alone can be told from another (a subject without any keeps the bare
+    // `cue` and `reward`, as before).
+    let any_events = spans.iter().any(|s| s.events.is_some());
     let mut points = Vec::with_capacity(observations.len() * 2);
     for o in observations {
         let Some(&si) = index.get(&(o.session, o.trial)) else {
@@ -212,7 +217,7 @@ pub fn build(
                 first_bin: bins.start as u32,
                 end_bin: bins.end as u32,
                 event_bin: event as u32,
-                label: None,
+                label: any_events.then(|| plain_label(subject, o, kind)),
                 observed: value,
                 excluded,
             });
@@ -231,6 +236,18 @@ pub fn build(
         points,
         exclusions,
         weighted: None,
+    }
+}
+
+/// The label a plain trial's window gets beside trials with event lists: `cue:<name>`,
+/// `reward:1`, or `omission:<name>`.
+fn plain_label(subject: &Subject, o: &TrialObs, kind: WindowKind) -> String {
+    let session = &subject.sessions[o.session];
+    let name = session.cue_name(&session.trials[o.trial]).unwrap_or("");
+    match (kind, o.omission) {
+        (WindowKind::Cue, _) => format!("cue:{name}"),
+        (WindowKind::Reward, true) => format!("omission:{name}"),
+        (WindowKind::Reward, false) => "reward:1".to_string(),
     }
 }
 
