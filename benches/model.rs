@@ -43,6 +43,7 @@ fn big_subject() -> Subject {
                             cue_s: None,
                             reward_s: Some(t),
                             reward_ul: 3.0,
+                            ..Default::default()
                         };
                     }
                     let cue = [0, 0, 1, 2][i % 4];
@@ -54,6 +55,7 @@ fn big_subject() -> Subject {
                         cue_s: Some(t),
                         reward_s,
                         reward_ul: if reward_s.is_some() { 3.0 } else { 0.0 },
+                        ..Default::default()
                     }
                 })
                 .collect();

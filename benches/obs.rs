@@ -37,6 +37,7 @@ fn subject(trials: usize, units: usize) -> Subject {
                 cue_s: Some(cue_s),
                 reward_s: (i % 10 != 0).then_some(cue_s + 1.5),
                 reward_ul: 3.0,
+                ..Default::default()
             }
         })
         .collect();

@@ -140,6 +140,47 @@ const CASES: &[(&str, &str)] = &[
     ),
     ("toml_syntax", "toml_syntax/session.toml:4: not valid TOML"),
     (
+        "events_unknown_trial",
+        "events_unknown_trial/events.csv:4: trial: trial 7 is not in trials.csv",
+    ),
+    (
+        "events_undeclared_cue",
+        "events_undeclared_cue/events.csv:4: name: cue `tone-mid` is not declared",
+    ),
+    (
+        "events_unknown_kind",
+        "events_unknown_kind/events.csv:4: kind: unknown kind `light`",
+    ),
+    (
+        "events_offset_before_onset",
+        "events_offset_before_onset/events.csv:4: offset_s: cue offset at 9.5 s comes before",
+    ),
+    (
+        "events_reward_without_size",
+        "events_reward_without_size/events.csv:4: size: reward event without a size",
+    ),
+    (
+        "events_reward_size_zero",
+        "events_reward_size_zero/events.csv:4: size: reward size 0 is not > 0",
+    ),
+    (
+        "events_identical_rows",
+        "events_identical_rows/events.csv:4: onset_s: the same event as line 2",
+    ),
+    (
+        "events_far_from_trial",
+        "events_far_from_trial/events.csv:4: onset_s: event at 200 s is 180.000 s from",
+    ),
+    (
+        "events_reward_before_cue",
+        "events_reward_before_cue/events.csv:4: onset_s: reward at 39 s comes before the \
+         trial's first cue at 40 s",
+    ),
+    (
+        "cue_off_before_onset",
+        "cue_off_before_onset/trials.csv:2: cue_off_s: cue offset at 9 s comes before its onset",
+    ),
+    (
         "mixed_subjects",
         "mixed_subjects/day2/session.toml: subject: subject `m-042` differs",
     ),

@@ -4,6 +4,7 @@
 use proptest::prelude::*;
 use std::path::Path;
 use trialdesk::data::csvio::{LineGuard, MAX_LINE_BYTES};
+use trialdesk::data::events::read_events;
 use trialdesk::data::meta::{normalize_time, parse_meta, valid_iso_date};
 use trialdesk::data::number::parse_plain_decimal;
 use trialdesk::data::tables::{read_licks, read_photometry, read_spikes, read_trials, Span};
@@ -17,6 +18,7 @@ fn read_all(bytes: &[u8]) -> Vec<Diagnostic> {
     let _ = read_spikes(p, bytes, Some(Span { end_s: 50.0 }), &mut out);
     let _ = read_licks(p, bytes, None, &mut out);
     let _ = read_photometry(p, bytes, &mut out);
+    let _ = read_events(p, bytes, Some(&cues[..]), &mut out);
     let _ = parse_meta(Path::new("session.toml"), bytes, &mut out);
     out
 }
@@ -33,6 +35,8 @@ fn csvish() -> impl Strategy<Value = Vec<u8>> {
         "unit,time_s\n",
         "time_s\n",
         "time_s,signal,control\n",
+        "trial,kind,name,onset_s,offset_s,size\n",
+        "trial,cue,cue_s,reward_s,reward_ul,cue_off_s\n",
     ]);
     let token = prop::sample::select(vec![
         "",
@@ -49,6 +53,8 @@ fn csvish() -> impl Strategy<Value = Vec<u8>> {
         "abc",
         "tone-hi",
         "tone-lo",
+        "cue",
+        "reward",
         "u1",
         "\"",
         "\"a,b\"",

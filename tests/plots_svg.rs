@@ -77,6 +77,7 @@ fn trial(session: usize, trial: usize, kind: TrialKind) -> TrialObs {
         omission: kind == TrialKind::Omission,
         anticipatory_lick_rate: None,
         kind,
+        events: Vec::new(),
     }
 }
 

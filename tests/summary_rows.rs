@@ -15,6 +15,7 @@ fn trial(number: i64, cue: Option<usize>, cue_s: Option<f64>, reward_s: Option<f
         cue_s,
         reward_s,
         reward_ul: if reward_s.is_some() { 2.0 } else { 0.0 },
+        ..Default::default()
     }
 }
 

@@ -92,6 +92,12 @@ pub struct Args {
     /// Replace an earlier simulated subject in OUT (its session folders and truth.toml)
     #[arg(long)]
     pub force: bool,
+    /// A design file (TOML: [[cue]] tables, then [[phase]] tables with days, trials_per_day
+    /// and [[phase.trial]] types listing cue and reward events with probabilities; see
+    /// README). Replaces --cue, --days, --trials-per-day and --uncued-fraction; writes
+    /// events.csv for trials with more than one cue or reward.
+    #[arg(long, value_name = "FILE")]
+    pub design: Option<PathBuf>,
 }
 
 /// The subject id a folder implies: its own name (`demo_data/m-041` → `m-041`).
@@ -165,6 +171,15 @@ pub fn config(args: &Args) -> Result<SimConfig, CliError> {
     for text in &args.faults {
         let (kind, rate) = FaultParams::parse_one(text).map_err(CliError::usage)?;
         c.faults.rates.push((kind, rate));
+    }
+    if let Some(path) = &args.design {
+        let text = std::fs::read_to_string(path)
+            .map_err(|e| CliError::usage(format!("--design {}: {e}", path.display())))?;
+        let d = simulate::design::Design::parse(&text)
+            .map_err(|e| CliError::usage(format!("--design {}: {e}", path.display())))?;
+        c.schedule.days = d.days();
+        c.schedule.trials_per_day = d.phases.iter().map(|p| p.trials_per_day).max().unwrap_or(1);
+        c.design = Some(d);
     }
     c.validate().map_err(CliError::usage)?;
     Ok(c)

@@ -15,11 +15,12 @@ const SHOWN_PER_KIND: usize = 5;
 
 /// Trials against the cues of `session.toml`: warnings only (the errors are the readers').
 /// Works on the rows as read, so it runs even when other files of the session have errors.
+/// `event_cues`: cue names used by events.csv rows (they count as used).
 pub fn check_trials(
     meta: &SessionMeta,
-    meta_path: &Path,
-    path: &Path,
+    (meta_path, path): (&Path, &Path),
     raw: &[RawTrial],
+    event_cues: &[&str],
     out: &mut Vec<Diagnostic>,
 ) {
     let cue_of = |t: &RawTrial| {
@@ -114,7 +115,7 @@ pub fn check_trials(
         }
     }
     for (cue, used) in meta.cues.iter().zip(used) {
-        if !used {
+        if !used && !event_cues.contains(&cue.name.as_str()) {
             out.push(
                 Diagnostic::warning(
                     meta_path,
@@ -203,16 +204,12 @@ mod tests {
                 cue_s: Some(i as f64 * 10.0),
                 reward_s: Some(i as f64 * 10.0 + 1.0),
                 reward_ul: None,
+                cue_off_s: None,
             })
             .collect();
         let mut out = Vec::new();
-        check_trials(
-            &meta,
-            Path::new("s.toml"),
-            Path::new("t.csv"),
-            &raw,
-            &mut out,
-        );
+        let paths = (Path::new("s.toml"), Path::new("t.csv"));
+        check_trials(&meta, paths, &raw, &[], &mut out);
         let lines: Vec<Option<u64>> = out.iter().map(|d| d.line).collect();
         assert_eq!(
             lines,

@@ -330,6 +330,7 @@ impl<R: BufRead> Table<R> {
             diags.drain_into(out);
             return None;
         }
+        warn_lookalike_columns(path, header_line, &names, specs, &mut diags);
         Some(Table {
             rdr,
             record: csv::ByteRecord::new(),
@@ -501,6 +502,28 @@ impl<R: BufRead> Table<R> {
 
 /// At most 40 characters of a bad value, for messages, on one line: control characters
 /// (a newline inside quotes, ESC) are shown escaped.
+/// A column that is not read but looks like a misspelling of one that is (it would otherwise
+/// be ignored without a word, as extra columns are).
+fn warn_lookalike_columns(
+    path: &Path,
+    line: u64,
+    names: &[String],
+    specs: &[ColumnSpec],
+    diags: &mut FileDiags,
+) {
+    let known: Vec<&str> = specs.iter().map(|s| s.name).collect();
+    for n in names {
+        if let Some(k) = super::lookalike::lookalike(n, &known) {
+            let msg = format!("column `{}` is not read: did you mean `{k}`?", shorten(n));
+            diags.push(
+                Diagnostic::warning(path, msg)
+                    .at_line(line)
+                    .column(n.as_str()),
+            );
+        }
+    }
+}
+
 pub fn shorten(text: &str) -> String {
     let mut s = String::new();
     for c in text.chars().take(40) {

@@ -6,6 +6,7 @@
 //! [`scan`] is the same walk for `check`: it keeps going and returns whatever loaded.
 
 use super::consistency;
+use super::events::{self, EVENTS_FILE};
 use super::meta::{read_meta_partial, SESSION_FILE};
 use super::tables::{self, RawTrial, Span, LICKS_FILE, PHOTOMETRY_FILE, SPIKES_FILE, TRIALS_FILE};
 use super::{Diagnostic, Session, SessionMeta, Subject, Trial};
@@ -290,10 +291,21 @@ pub fn read_session(dir: &Path, out: &mut Vec<Diagnostic>) -> Option<Session> {
         .as_ref()
         .map(|m| m.meta.cues.iter().map(|c| c.name.as_str()).collect());
 
+    let events_path = dir.join(EVENTS_FILE);
+    let raw_events = optional_file(dir, EVENTS_FILE, out, |p, r, out| {
+        events::read_events(p, r, declared.as_deref(), out)
+    });
+    let with_events = raw_events
+        .as_deref()
+        .map(events::trials_with_events)
+        .unwrap_or_default();
+
     let trials_path = dir.join(TRIALS_FILE);
     let raw_trials = if trials_path.exists() {
         match open(&trials_path) {
-            Ok(r) => tables::read_trials(&trials_path, r, declared.as_deref(), out),
+            Ok(r) => {
+                tables::read_trials_with(&trials_path, r, declared.as_deref(), &with_events, out)
+            }
             Err(e) => {
                 out.push(Diagnostic::error(&trials_path, e));
                 None
@@ -321,8 +333,18 @@ pub fn read_session(dir: &Path, out: &mut Vec<Diagnostic>) -> Option<Session> {
     // Warnings built on a file with errors would mostly echo those errors.
     if let (Some(m), Some(raw)) = (&meta, &raw_trials) {
         if m.ok && raw.errors == 0 {
-            consistency::check_trials(&m.meta, &meta_path, &trials_path, &raw.value, out);
+            // A cue used only in events.csv is used.
+            let event_cues: Vec<&str> = raw_events
+                .iter()
+                .flatten()
+                .filter_map(|e| e.name.as_deref())
+                .collect();
+            let paths = (meta_path.as_path(), trials_path.as_path());
+            consistency::check_trials(&m.meta, paths, &raw.value, &event_cues, out);
         }
+    }
+    if let (Some(raw), Some(ev)) = (&raw_trials, &raw_events) {
+        events::check_events(&trials_path, &events_path, &raw.value, ev, out);
     }
     let errors_after = out.iter().filter(|d| d.is_error()).count();
     let (Some(meta), Some(raw)) = (meta, raw_trials) else {
@@ -331,7 +353,10 @@ pub fn read_session(dir: &Path, out: &mut Vec<Diagnostic>) -> Option<Session> {
     if errors_after > errors_before || !meta.ok {
         return None;
     }
-    let trials = match_cues(&meta.meta, &raw.value);
+    let mut trials = match_cues(&meta.meta, &raw.value);
+    if let Some(ev) = &raw_events {
+        events::attach(&meta.meta, &mut trials, ev);
+    }
     Some(Session {
         dir: dir.to_path_buf(),
         name,
@@ -389,6 +414,8 @@ pub(crate) fn match_cues(meta: &SessionMeta, raw: &[RawTrial]) -> Vec<Trial> {
                     Some(_) => r.reward_ul.unwrap_or(0.0),
                     None => 0.0,
                 },
+                cue_off_s: r.cue_off_s,
+                events: Vec::new(),
             })
         })
         .collect()

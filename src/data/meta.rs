@@ -126,6 +126,7 @@ pub fn parse_meta_partial(
             return None;
         }
     };
+    super::lookalike::unknown_meta_keys(path, text, out);
     let before = out.iter().filter(|d| d.is_error()).count();
     let at = |span: std::ops::Range<usize>| line_of(bytes, span.start);
     let err = |line: u64, col: &str, msg: String, exp: &str| {

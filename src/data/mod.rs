@@ -7,8 +7,10 @@
 mod consistency;
 pub mod csvio;
 pub mod diag;
+pub mod events;
 pub mod follow;
 pub mod load;
+mod lookalike;
 pub mod meta;
 pub mod number;
 pub mod tables;
@@ -62,7 +64,7 @@ pub struct CueDef {
     pub reward_delay_s: Option<f64>,
 }
 
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Default)]
 pub struct Trial {
     /// The `trial` column (unique, increasing).
     pub number: i64,
@@ -72,6 +74,66 @@ pub struct Trial {
     pub reward_s: Option<f64>,
     /// 0 when no reward.
     pub reward_ul: f64,
+    /// The optional `cue_off_s` column: when the trials.csv cue goes off (`None`: on to the
+    /// end of the trial's span).
+    pub cue_off_s: Option<f64>,
+    /// The trial's rows of the optional `events.csv`, in time order (empty without one).
+    pub events: Vec<TrialEvent>,
+}
+
+/// One cue or reward event of a trial (a row of `events.csv`, or the trials.csv cue and
+/// reward seen as events by [`Trial::all_events`]).
+#[derive(Debug, Clone, PartialEq)]
+pub struct TrialEvent {
+    pub kind: EventKind,
+    /// For a cue: index into `SessionMeta::cues`.
+    pub cue: Option<usize>,
+    pub onset_s: f64,
+    /// Cue offset; `None`: on to the end of the trial's span (and always for rewards).
+    pub offset_s: Option<f64>,
+    /// Reward size (same unit as `reward_ul`); 0 for cues.
+    pub size: f64,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum EventKind {
+    Cue,
+    Reward,
+}
+
+impl Trial {
+    /// True when the trial is more than the one cue and one reward of trials.csv (rows in
+    /// events.csv or a cue offset): the model then lays it out from its event list.
+    pub fn has_events(&self) -> bool {
+        !self.events.is_empty() || self.cue_off_s.is_some()
+    }
+
+    /// Every event of the trial in time order (stable: trials.csv's own cue and reward first
+    /// among equal times): its trials.csv cue and reward, if any, plus its events.csv rows.
+    pub fn all_events(&self) -> Vec<TrialEvent> {
+        let mut all = Vec::with_capacity(self.events.len() + 2);
+        if let (Some(c), Some(t)) = (self.cue, self.cue_s) {
+            all.push(TrialEvent {
+                kind: EventKind::Cue,
+                cue: Some(c),
+                onset_s: t,
+                offset_s: self.cue_off_s,
+                size: 0.0,
+            });
+        }
+        if let Some(t) = self.reward_s {
+            all.push(TrialEvent {
+                kind: EventKind::Reward,
+                cue: None,
+                onset_s: t,
+                offset_s: None,
+                size: self.reward_ul,
+            });
+        }
+        all.extend(self.events.iter().cloned());
+        all.sort_by(|a, b| a.onset_s.total_cmp(&b.onset_s));
+        all
+    }
 }
 
 /// Sorted single units: spike times per unit, each list sorted.

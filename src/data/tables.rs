@@ -4,10 +4,10 @@
 //! and sorts what can be sorted (with a warning). Generic over `BufRead` so tests and property
 //! tests can feed bytes directly.
 
-use super::csvio::{optional, required, shorten, Table};
+use super::csvio::{optional, required, shorten, ColumnSpec, Table};
 use super::diag::Diagnostic;
 use super::{Photometry, Spikes};
-use std::collections::HashMap;
+use std::collections::{HashMap, HashSet};
 use std::hash::{BuildHasherDefault, Hasher};
 use std::io::BufRead;
 use std::path::Path;
@@ -28,6 +28,8 @@ pub struct RawTrial {
     pub reward_s: Option<f64>,
     /// `None` when the field is empty.
     pub reward_ul: Option<f64>,
+    /// The optional `cue_off_s` column.
+    pub cue_off_s: Option<f64>,
 }
 
 /// A table that read, and how many errors it had (its good rows are kept either way).
@@ -54,7 +56,20 @@ pub fn read_trials<R: BufRead>(
     declared: Option<&[&str]>,
     out: &mut Vec<Diagnostic>,
 ) -> Option<Parsed<Vec<RawTrial>>> {
-    let specs = TRIAL_COLS.map(required);
+    read_trials_with(path, reader, declared, &HashSet::new(), out)
+}
+
+/// [`read_trials`] for a session with an `events.csv`: the trials in `with_events` have rows
+/// there, so a row with neither cue nor reward of its own is fine for them.
+pub fn read_trials_with<R: BufRead>(
+    path: &Path,
+    reader: R,
+    declared: Option<&[&str]>,
+    with_events: &HashSet<i64>,
+    out: &mut Vec<Diagnostic>,
+) -> Option<Parsed<Vec<RawTrial>>> {
+    let mut specs: Vec<ColumnSpec> = TRIAL_COLS.map(required).into();
+    specs.push(optional("cue_off_s"));
     let mut t = Table::new(path, reader, &specs, out)?;
     let mut trials: Vec<RawTrial> = Vec::new();
     let mut last_number: Option<(i64, u64)> = None;
@@ -79,9 +94,26 @@ pub fn read_trials<R: BufRead>(
         let cue_s = t.non_negative(2, "cue_s", "a time in seconds");
         let reward_s = t.non_negative(3, "reward_s", "a time in seconds");
         let reward_ul = t.non_negative(4, "reward_ul", "a reward size in µl");
-        let (Ok(cue_s), Ok(reward_s), Ok(reward_ul)) = (cue_s, reward_s, reward_ul) else {
+        let cue_off_s = t.non_negative(5, "cue_off_s", "the cue offset in seconds");
+        let (Ok(cue_s), Ok(reward_s), Ok(reward_ul), Ok(cue_off_s)) =
+            (cue_s, reward_s, reward_ul, cue_off_s)
+        else {
             continue;
         };
+        match (cue_s, cue_off_s) {
+            (Some(on), Some(off)) if off < on => {
+                let msg = format!("cue offset at {off} s comes before its onset at {on} s");
+                t.diags
+                    .error_at(line, "cue_off_s", msg, "cue_off_s ≥ cue_s, or empty");
+            }
+            (None, Some(_)) => t.diags.error_at(
+                line,
+                "cue_off_s",
+                "cue offset given but no cue onset".into(),
+                "empty cue_off_s on a trial without a cue",
+            ),
+            _ => {}
+        }
         match (&cue, cue_s) {
             (Some(name), None) => {
                 let msg = format!("cue `{}` without an onset time", shorten(name));
@@ -96,7 +128,8 @@ pub fn read_trials<R: BufRead>(
             ),
             _ => {}
         }
-        if cue.is_none() && cue_s.is_none() && reward_s.is_none() {
+        let has_events = number.is_some_and(|n| with_events.contains(&n));
+        if cue.is_none() && cue_s.is_none() && reward_s.is_none() && !has_events {
             t.diags.error_at(
                 line,
                 "trial",
@@ -118,6 +151,7 @@ pub fn read_trials<R: BufRead>(
                 cue_s,
                 reward_s,
                 reward_ul,
+                cue_off_s,
             });
         }
     }

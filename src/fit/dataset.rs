@@ -5,8 +5,9 @@
 
 use crate::data::Subject;
 use crate::marks::MarkState;
+use crate::model::layout::bin_of;
 use crate::model::{layout_subject, TrialSpan};
-use crate::obs::{event_bins, window_bins, ObsOptions, TrialObs};
+use crate::obs::{event_bins, window_bins, EventWindow, ObsOptions, TrialObs};
 use std::collections::{BTreeMap, HashMap};
 
 /// Which event a response window follows.
@@ -46,6 +47,13 @@ pub struct ObsPoint {
     /// back by the response latency and clipped to the span.
     pub first_bin: u32,
     pub end_bin: u32,
+    /// The bin (within the span) of the event the window follows.
+    pub event_bin: u32,
+    /// For a trial with an event list, which event the window follows (`cue:<name>`,
+    /// `reward:<n>`, `omission:<name>`, see [`crate::obs::events`]; plain trials of such a
+    /// subject get the same form); `None` in a subject without event lists, whose windows are
+    /// named by `kind` alone, as before.
+    pub label: Option<String>,
     /// Observed response (window mean minus pre-cue baseline).
     pub observed: f64,
     /// The trial is marked `exclude` (and marks are honoured): out of the likelihood.
@@ -171,6 +179,10 @@ pub fn build(
         }
     }
 
+    // In a subject with event lists, plain trials' windows are named the same way, so that a
+    // probe of one cue alone can be told from another (a subject without any keeps the bare
+    // `cue` and `reward`, as before).
+    let any_events = spans.iter().any(|s| s.events.is_some());
     let mut points = Vec::with_capacity(observations.len() * 2);
     for o in observations {
         let Some(&si) = index.get(&(o.session, o.trial)) else {
@@ -178,6 +190,10 @@ pub fn build(
         };
         let span = &spans[si];
         let excluded = !ignore_marks && excluded_mark(o.session, o.trial).is_some();
+        if !o.events.is_empty() || span.events.is_some() {
+            event_points(&mut points, o, si, span, obs_opts, dt, excluded);
+            continue;
+        }
         let (cue_bin, reward_bin) = event_bins(span);
         for (kind, value, event, window) in [
             (WindowKind::Cue, o.cue, cue_bin, obs_opts.cue_window),
@@ -200,6 +216,8 @@ pub fn build(
                 kind,
                 first_bin: bins.start as u32,
                 end_bin: bins.end as u32,
+                event_bin: event as u32,
+                label: any_events.then(|| plain_label(subject, o, kind)),
                 observed: value,
                 excluded,
             });
@@ -218,6 +236,60 @@ pub fn build(
         points,
         exclusions,
         weighted: None,
+    }
+}
+
+/// The label a plain trial's window gets beside trials with event lists: `cue:<name>`,
+/// `reward:1`, or `omission:<name>`.
+fn plain_label(subject: &Subject, o: &TrialObs, kind: WindowKind) -> String {
+    let session = &subject.sessions[o.session];
+    let name = session.cue_name(&session.trials[o.trial]).unwrap_or("");
+    match (kind, o.omission) {
+        (WindowKind::Cue, _) => format!("cue:{name}"),
+        (WindowKind::Reward, true) => format!("omission:{name}"),
+        (WindowKind::Reward, false) => "reward:1".to_string(),
+    }
+}
+
+/// One point per event observation of a trial with an event list, each at its own event's
+/// bin (from its time: `dt` may differ from the bins the observations were planned with).
+fn event_points(
+    points: &mut Vec<ObsPoint>,
+    o: &TrialObs,
+    si: usize,
+    span: &TrialSpan,
+    obs_opts: &ObsOptions,
+    dt: f64,
+    excluded: bool,
+) {
+    for e in &o.events {
+        let Some(value) = e.value else {
+            continue;
+        };
+        let (kind, window) = match e.window {
+            EventWindow::Cue => (WindowKind::Cue, obs_opts.cue_window),
+            EventWindow::Reward | EventWindow::Omission => {
+                (WindowKind::Reward, obs_opts.reward_window)
+            }
+        };
+        let event = bin_of(e.time_s, span.t0, dt);
+        if event < 0 {
+            continue;
+        }
+        let bins = window_bins(span, event as usize, window, obs_opts.latency, dt);
+        if bins.is_empty() {
+            continue;
+        }
+        points.push(ObsPoint {
+            span: si,
+            kind,
+            first_bin: bins.start as u32,
+            end_bin: bins.end as u32,
+            event_bin: event as u32,
+            label: Some(e.label.clone()),
+            observed: value,
+            excluded,
+        });
     }
 }
 
@@ -297,12 +369,11 @@ pub fn with_sensor_kernel(mut data: FitData, kernel: SensorKernel, obs: &ObsOpti
         .iter()
         .map(|p| {
             let span = &data.spans[p.span];
-            let (cue, reward) = event_bins(span);
-            let (event, window) = match p.kind {
-                WindowKind::Cue => (cue, obs.cue_window),
-                WindowKind::Reward => (reward, obs.reward_window),
+            let window = match p.kind {
+                WindowKind::Cue => obs.cue_window,
+                WindowKind::Reward => obs.reward_window,
             };
-            let w = kernel_weights(kernel, span, event.unwrap_or(0), window, data.dt);
+            let w = kernel_weights(kernel, span, p.event_bin as usize, window, data.dt);
             // Bins whose response has died out or not yet begun add nothing.
             let first = w.iter().position(|&x| x > 1e-9).unwrap_or(w.len());
             let end = w.iter().rposition(|&x| x > 1e-9).map_or(first, |i| i + 1);

@@ -150,7 +150,8 @@ pub fn write_trials_csv(
         out.write_record([
             crate::text::for_csv(session).as_ref(),
             &trial.to_string(),
-            p.kind.name(),
+            // Data text (cue names): neutralised like the session name.
+            crate::util::csv_safe_cell(p.label.as_deref().unwrap_or(p.kind.name())).as_ref(),
             &fmt_f64(p.observed),
             &fmt_f64(pred),
             if p.excluded { "true" } else { "false" },

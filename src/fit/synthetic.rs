@@ -79,6 +79,7 @@ pub fn subject(spec: &SyntheticSpec) -> Subject {
                         cue_s: (!uncued).then_some(t),
                         reward_s: rewarded.then_some(if uncued { t } else { t + spec.delay_s }),
                         reward_ul: if rewarded { spec.reward_ul } else { 0.0 },
+                        ..Default::default()
                     }
                 })
                 .collect();
@@ -147,6 +148,7 @@ pub fn observations(spec: &SyntheticSpec, subj: &Subject, obs_opts: &ObsOptions)
                 omission: kind == TrialKind::Omission,
                 anticipatory_lick_rate: None,
                 kind,
+                events: Vec::new(),
             }
         })
         .collect()

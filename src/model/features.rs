@@ -3,7 +3,7 @@
 //! Features are sparse: a bin touches at most one cue's features plus the reward's
 //! microstimuli, so the learner only ever visits those.
 
-use super::layout::TrialSpan;
+use super::layout::{SpanEvents, TrialSpan};
 
 /// Parameters of the microstimulus representation (Ludvig, Sutton & Kehoe 2008, *Neural
 /// Comput* 20:3034).
@@ -105,8 +105,17 @@ impl FeatureSpace {
             Representation::Csc => {
                 let mut len = vec![0usize; n_cues];
                 for s in spans {
-                    if let Some(c) = s.cue {
-                        len[c] = len[c].max(s.n_bins);
+                    match &s.events {
+                        None => {
+                            if let Some(c) = s.cue {
+                                len[c] = len[c].max(s.n_bins);
+                            }
+                        }
+                        Some(ev) => {
+                            for c in &ev.cues {
+                                len[c.cue] = len[c.cue].max(s.n_bins - c.onset);
+                            }
+                        }
                     }
                 }
                 let mut off = 0;
@@ -139,6 +148,9 @@ impl FeatureSpace {
     /// Append the active features of bin `k` of `span` to `out`.
     #[inline]
     pub fn active(&self, span: &TrialSpan, k: usize, out: &mut Vec<(u32, f64)>) {
+        if let Some(ev) = &span.events {
+            return self.active_events(ev, k, out);
+        }
         match self.repr {
             Representation::Csc => {
                 if let Some(c) = span.cue {
@@ -169,6 +181,57 @@ impl FeatureSpace {
                 }
             }
         }
+    }
+}
+
+impl FeatureSpace {
+    /// Summed features of an event list: csc one-hot (cue, k − o_c) for k ≥ o_c, presence 1 for
+    /// o_c ≤ k < off_c, microstimuli of y = d^(k − o_c) for k ≥ o_c; every delivered reward's
+    /// microstimuli from its bin on. The same feature may come from two events (a cue given
+    /// twice): its values add up, entry by entry.
+    fn active_events(&self, ev: &SpanEvents, k: usize, out: &mut Vec<(u32, f64)>) {
+        let start = out.len();
+        match self.repr {
+            Representation::Csc => {
+                for c in ev.cues.iter().filter(|c| k >= c.onset) {
+                    push_add(
+                        out,
+                        start,
+                        (self.csc_offset[c.cue] + k - c.onset) as u32,
+                        1.0,
+                    );
+                }
+            }
+            Representation::Presence => {
+                for c in ev.cues.iter().filter(|c| c.onset <= k && k < c.offset) {
+                    push_add(out, start, c.cue as u32, 1.0);
+                }
+            }
+            Representation::Microstimulus(_) => {
+                let m = self.ms_m;
+                for c in ev.cues.iter().filter(|c| k >= c.onset) {
+                    let row = &self.ms_table[(k - c.onset) * m..(k - c.onset + 1) * m];
+                    for (i, &v) in row.iter().enumerate() {
+                        push_add(out, start, (c.cue * m + i) as u32, v);
+                    }
+                }
+                let base = self.n_cues * m;
+                for &(rb, _) in ev.rewards.iter().filter(|&&(rb, _)| k >= rb) {
+                    let row = &self.ms_table[(k - rb) * m..(k - rb + 1) * m];
+                    for (i, &v) in row.iter().enumerate() {
+                        push_add(out, start, (base + i) as u32, v);
+                    }
+                }
+            }
+        }
+    }
+}
+
+/// Add `v` to feature `i` among `out[start..]`, or append it (keeps indices distinct).
+fn push_add(out: &mut Vec<(u32, f64)>, start: usize, i: u32, v: f64) {
+    match out[start..].iter_mut().find(|e| e.0 == i) {
+        Some(e) => e.1 += v,
+        None => out.push((i, v)),
     }
 }
 

@@ -8,7 +8,8 @@ use crate::data::Subject;
 /// Description of one trial span.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct TrialLabels {
-    /// The trial's cue name; empty for an uncued reward.
+    /// The trial's cue name (a trial with several: the names joined by `+`); empty for an
+    /// uncued reward.
     pub cue: String,
     /// `cs_plus` (the cue declares a reward delay), `cs_minus` (a cue never rewarded) or
     /// `uncued`.
@@ -24,6 +25,41 @@ pub struct TrialLabels {
 pub fn trial_labels(subject: &Subject, span: &TrialSpan) -> TrialLabels {
     let session = &subject.sessions[span.session];
     let trial = &session.trials[span.trial];
+    if let Some(ev) = &span.events {
+        // A trial with an event list: its cues present joined by `+` (a compound reads
+        // `tone-a+light-b`), CS+ when any of them declares a reward delay.
+        let mut names: Vec<&str> = Vec::new();
+        for c in &ev.cues {
+            let name = session.meta.cues[c.session_cue].name.as_str();
+            if !names.contains(&name) {
+                names.push(name);
+            }
+        }
+        let cs_plus = ev
+            .cues
+            .iter()
+            .any(|c| session.meta.cues[c.session_cue].reward_delay_s.is_some());
+        let trial_type = match (names.is_empty(), cs_plus) {
+            (true, _) => "uncued",
+            (false, true) => "cs_plus",
+            (false, false) => "cs_minus",
+        };
+        let outcome = match (ev.rewards.is_empty(), trial_type) {
+            (false, _) => "reward",
+            (true, "cs_plus") => "omission",
+            (true, _) => "none",
+        };
+        return TrialLabels {
+            cue: names.join("+"),
+            trial_type,
+            outcome,
+            aligned_to: if names.is_empty() {
+                "reward"
+            } else {
+                "cue_onset"
+            },
+        };
+    }
     let cue = trial.cue.map(|c| &session.meta.cues[c]);
     let trial_type = match cue {
         Some(c) if c.reward_delay_s.is_some() => "cs_plus",

@@ -22,6 +22,90 @@ pub struct TrialSpan {
     pub reward: f64,
     /// Bin of the expected reward (cue's delay), also on omission trials; `None` if never rewarded.
     pub expected_reward_bin: Option<usize>,
+    /// The trial's event list, for a trial with more than one cue and one reward (events.csv
+    /// rows or a cue offset). `None` for the plain single-cue trial, which the fields above
+    /// describe completely. When present, the fields above summarise it: `cue` is the first
+    /// cue, `reward_bin` the first reward, `reward` the total, `expected_reward_bin` the first
+    /// expected time.
+    pub events: Option<Box<SpanEvents>>,
+}
+
+/// The events of one trial in model bins (the "Trial events" section of the brief).
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct SpanEvents {
+    /// Cue events in time order.
+    pub cues: Vec<SpanCue>,
+    /// Delivered rewards as (bin, size), in time order.
+    pub rewards: Vec<(usize, f64)>,
+    /// Expected reward bins: onset + `reward_delay_s` of every cue event whose cue declares
+    /// one, in time order.
+    pub expected: Vec<usize>,
+}
+
+/// One cue event in model bins.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SpanCue {
+    /// Subject-level cue index (position in `Subject::cue_names`).
+    pub cue: usize,
+    /// Index into the session's `[[cue]]` tables.
+    pub session_cue: usize,
+    pub onset: usize,
+    /// First bin the cue is off (its offset's bin), or the span's length.
+    pub offset: usize,
+}
+
+impl TrialSpan {
+    /// r_k: the reward delivered in bin `k` (the sum over reward events in that bin).
+    #[inline]
+    pub fn reward_at(&self, k: usize) -> f64 {
+        match &self.events {
+            None => {
+                if self.reward_bin == Some(k) {
+                    self.reward
+                } else {
+                    0.0
+                }
+            }
+            Some(ev) => ev
+                .rewards
+                .iter()
+                .filter(|&&(b, _)| b == k)
+                .map(|&(_, r)| r)
+                .sum(),
+        }
+    }
+
+    /// Subject-level indices of the cues present on the trial, each once, in time order.
+    pub fn cues_present(&self) -> Vec<usize> {
+        match &self.events {
+            None => self.cue.into_iter().collect(),
+            Some(ev) => {
+                let mut present: Vec<usize> = Vec::new();
+                for c in &ev.cues {
+                    if !present.contains(&c.cue) {
+                        present.push(c.cue);
+                    }
+                }
+                present
+            }
+        }
+    }
+
+    /// Bins of every delivered reward (one for a plain trial with a reward).
+    pub fn reward_bins(&self) -> Vec<usize> {
+        match &self.events {
+            None => self.reward_bin.into_iter().collect(),
+            Some(ev) => ev.rewards.iter().map(|&(b, _)| b).collect(),
+        }
+    }
+
+    /// Bins of every expected reward (one for a plain trial whose cue declares a delay).
+    pub fn expected_bins(&self) -> Vec<usize> {
+        match &self.events {
+            None => self.expected_reward_bin.into_iter().collect(),
+            Some(ev) => ev.expected.clone(),
+        }
+    }
 }
 
 /// The bin an event at `t` falls in, for a span starting at `t0`.
@@ -104,6 +188,9 @@ fn layout_trial(
     cue_map: &[usize],
     dt: f64,
 ) -> Result<TrialSpan, &'static str> {
+    if trial.has_events() {
+        return super::layout_events::layout_events(session, trial, cue_map, dt);
+    }
     let (t0, cue) = match (trial.cue, trial.cue_s, trial.reward_s) {
         (Some(c), Some(cs), _) => (cs, Some(cue_map[c])),
         (Some(_), None, _) => return Err("cue named but no cue_s"),
@@ -150,6 +237,7 @@ fn layout_trial(
             0.0
         },
         expected_reward_bin,
+        events: None,
     })
 }
 

@@ -11,11 +11,14 @@ pub mod defaults;
 pub mod features;
 pub mod labels;
 pub mod layout;
+mod layout_events;
 pub mod rw;
 pub mod td;
 
 pub use features::{FeatureSpace, MicrostimulusParams, Representation};
-pub use layout::{layout_subject, layout_subject_with_skips, SkippedTrial, TrialSpan};
+pub use layout::{
+    layout_subject, layout_subject_with_skips, SkippedTrial, SpanCue, SpanEvents, TrialSpan,
+};
 pub use td::{run, run_in, Learner, TdParams, TdRun};
 
 /// Default model bin width, seconds ([`defaults::DT`]).

@@ -9,6 +9,9 @@
 //! - at the cue: δ_cue = Σ_present V − 0 (the inter-trial expectation is 0, as TD's x₋₁ = 0);
 //! - at the reward (or the expected reward time on omission): δ_reward = λ_US − Σ_present V.
 //!
+//! A trial with an event list (the "Trial events" extension): the cues present are the set
+//! of cue names among its cue events, λ_US its total reward.
+//!
 //! Uncued trials (a free reward): no cue is present, so the prediction is 0, δ_reward is the
 //! whole reward, δ_cue is 0 (there is no cue event), and no V changes — RW only updates the
 //! cues present. We do not add a context cue: it would be a free extra parameter the TD model
@@ -75,6 +78,15 @@ pub fn run(spans: &[TrialSpan], n_cues: usize, rate: f64) -> Vec<RwTrial> {
     spans
         .iter()
         .map(|span| match span.cue {
+            Some(_) if span.events.is_some() => {
+                // The cues present (each once) and the trial's total reward.
+                let s = learner.trial(&span.cues_present(), span.reward);
+                RwTrial {
+                    value: s.prediction,
+                    delta_cue: s.prediction,
+                    delta_reward: s.error,
+                }
+            }
             Some(c) => {
                 let s = learner.trial(&[c], span.reward);
                 RwTrial {

@@ -215,11 +215,7 @@ pub fn run_in(space: &FeatureSpace, spans: &[TrialSpan], params: &TdParams) -> T
             if k < span.n_bins {
                 space.active(span, k, &mut cur);
             }
-            let r = if span.reward_bin == Some(k) {
-                span.reward
-            } else {
-                0.0
-            };
+            let r = span.reward_at(k);
             let s = learner.step(&prev, &cur, r);
             if k < span.n_bins {
                 value.push(s.value);
@@ -251,6 +247,7 @@ mod tests {
             reward_bin,
             reward: if reward_bin.is_some() { 1.0 } else { 0.0 },
             expected_reward_bin: reward_bin,
+            events: None,
         }
     }
 

@@ -16,10 +16,12 @@
 //! window were cache misses, a cursor sweep streams each train once.
 
 pub mod activity;
+pub mod events;
 pub mod photometry;
 pub mod window;
 
 pub use activity::{activity_trace, SessionActivity};
+pub use events::{EventObs, EventWindow};
 pub use photometry::photometry_activity;
 pub use window::{event_bins, window_bins, window_delta_sums, WindowDeltas};
 
@@ -139,6 +141,9 @@ pub enum TrialKind {
 
 impl TrialKind {
     pub fn of(session: &Session, trial: &Trial) -> Option<TrialKind> {
+        if trial.has_events() {
+            return events::kind_of(session, trial);
+        }
         match (trial.cue.is_some(), trial.reward_s.is_some()) {
             (true, true) => Some(TrialKind::Rewarded),
             (true, false) if expected_reward_time(session, trial).is_some() => {
@@ -176,6 +181,11 @@ pub struct TrialObs {
     /// without licks.csv, without a cue, or without an expected reward time.
     pub anticipatory_lick_rate: Option<f64>,
     pub kind: TrialKind,
+    /// A trial with an event list (events.csv, cue_off_s): one observation per cue event,
+    /// per delivered reward and per expected time of an omission ([`events::plan`]); `cue`
+    /// and `reward` above then hold the first cue's and the first reward's (or omission's).
+    /// Empty for plain trials.
+    pub events: Vec<EventObs>,
 }
 
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -218,12 +228,20 @@ fn paren_hint(h: &str) -> String {
 
 /// Cue onset + the cue's reward delay; `None` for uncued trials and never-rewarded cues.
 pub fn expected_reward_time(session: &Session, trial: &Trial) -> Option<f64> {
+    if trial.has_events() {
+        let events = trial.all_events();
+        let times = events::expected_times(session, &events);
+        return times.iter().map(|&(_, t)| t).reduce(f64::min);
+    }
     let cue = trial.cue?;
     Some(trial.cue_s? + session.meta.cues[cue].reward_delay_s?)
 }
 
 /// The time a trial is aligned on: cue onset, or the reward for uncued trials (as the model).
 pub fn alignment_time(trial: &Trial) -> Option<f64> {
+    if trial.has_events() {
+        return events::alignment(trial);
+    }
     match trial.cue {
         Some(_) => trial.cue_s,
         None => trial.reward_s,
@@ -263,7 +281,10 @@ pub fn observe_lenient(
                 Some((span.trial, p))
             })
             .collect();
-        let windows: Vec<(f64, f64)> = plans.iter().flat_map(|(_, p)| p.windows()).collect();
+        let windows: Vec<(f64, f64)> = plans
+            .iter()
+            .flat_map(|(_, p)| p.windows().into_iter().chain(p.extra_windows(opts)))
+            .collect();
         let means = match SessionActivity::new(session, &opts.signal) {
             Ok(act) => act.means(&windows),
             Err(e) => {
@@ -271,11 +292,16 @@ pub fn observe_lenient(
                 vec![None; windows.len()]
             }
         };
-        for ((ti, p), m) in plans.iter().zip(means.chunks_exact(3)) {
+        let mut at = 0;
+        for (ti, p) in &plans {
+            let m = &means[at..at + 3 + p.extra.len()];
+            at += m.len();
+            let mut o = p.finish(session, &session.trials[*ti], m[0], m[1], m[2]);
+            p.finish_events(&mut o, m[0], &m[3..]);
             out.push(TrialObs {
                 session: chunk[0].session,
                 trial: *ti,
-                ..p.finish(session, &session.trials[*ti], m[0], m[1], m[2])
+                ..o
             });
         }
     }
@@ -291,7 +317,13 @@ pub fn observe_trial(
 ) -> Option<TrialObs> {
     let p = plan(session, trial, opts)?;
     let [b, c, r] = p.windows().map(|(lo, hi)| act.mean(lo, hi));
-    Some(p.finish(session, trial, b, c, r))
+    let mut o = p.finish(session, trial, b, c, r);
+    let extra: Vec<Option<f64>> = p
+        .extra_windows(opts)
+        .map(|(lo, hi)| act.mean(lo, hi))
+        .collect();
+    p.finish_events(&mut o, b, &extra);
+    Some(o)
 }
 
 /// The windows one trial is measured in.
@@ -300,6 +332,8 @@ struct Plan {
     baseline: (f64, f64),
     cue: Option<(f64, f64)>,
     reward: Option<(f64, f64)>,
+    /// Event observations of a trial with an event list (empty otherwise).
+    extra: Vec<EventObs>,
 }
 
 /// Stands in for an absent event's window; measures nothing.
@@ -332,7 +366,25 @@ impl Plan {
             omission: self.kind == TrialKind::Omission,
             anticipatory_lick_rate: anticipatory_lick_rate(session, trial),
             kind: self.kind,
+            events: Vec::new(),
         }
+    }
+
+    fn extra_windows<'a>(&'a self, opts: &'a ObsOptions) -> impl Iterator<Item = (f64, f64)> + 'a {
+        self.extra.iter().map(|e| events::window_of(e, opts))
+    }
+
+    /// The event observations, measured: window mean − baseline.
+    fn finish_events(&self, o: &mut TrialObs, base: Option<f64>, means: &[Option<f64>]) {
+        o.events = self
+            .extra
+            .iter()
+            .zip(means)
+            .map(|(e, m)| EventObs {
+                value: (|| Some((*m)? - base?))(),
+                ..e.clone()
+            })
+            .collect();
     }
 }
 
@@ -340,6 +392,23 @@ fn plan(session: &Session, trial: &Trial, opts: &ObsOptions) -> Option<Plan> {
     let kind = TrialKind::of(session, trial)?;
     let t0 = alignment_time(trial)?;
     let after = |event: f64, w: (f64, f64)| (event + w.0, event + w.1);
+    if trial.has_events() {
+        // The first cue (at t0) and the first reward or expected time stand for the trial in
+        // per-trial tables; the fitter uses every event observation.
+        let extra = events::plan(session, trial);
+        let first = |w: EventWindow| extra.iter().find(|e| e.window == w).map(|e| e.time_s);
+        let cue = first(EventWindow::Cue).map(|t| after(t, opts.cue_window));
+        let reward = first(EventWindow::Reward)
+            .or_else(|| first(EventWindow::Omission))
+            .map(|t| after(t, opts.reward_window));
+        return Some(Plan {
+            kind,
+            baseline: after(t0, opts.baseline),
+            cue,
+            reward,
+            extra,
+        });
+    }
     let cue = match (trial.cue, trial.cue_s) {
         (Some(_), Some(cs)) => Some(after(cs, opts.cue_window)),
         _ => None,
@@ -354,6 +423,7 @@ fn plan(session: &Session, trial: &Trial, opts: &ObsOptions) -> Option<Plan> {
         baseline: after(t0, opts.baseline),
         cue,
         reward,
+        extra: Vec::new(),
     })
 }
 

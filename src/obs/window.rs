@@ -79,6 +79,7 @@ mod tests {
             reward_bin: Some(30),
             reward: 1.0,
             expected_reward_bin: Some(30),
+            events: None,
         }
     }
 

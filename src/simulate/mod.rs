@@ -11,6 +11,7 @@
 //! and told apart by stream number, so the same seed gives the same bytes and turning one
 //! output (say photometry) on or off leaves the others unchanged.
 
+pub mod design;
 pub mod faults;
 pub mod licks;
 pub mod photometry;
@@ -43,6 +44,9 @@ pub struct SimConfig {
     pub photometry: Option<PhotometryParams>,
     /// Injected faults (all off by default; see [`faults`]).
     pub faults: FaultParams,
+    /// A design file's phases and trial types (`--design`): replaces the cue list, days and
+    /// trials per day of `schedule` (its subject, dates, ITI and margins still apply).
+    pub design: Option<design::Design>,
 }
 
 impl Default for SimConfig {
@@ -55,6 +59,7 @@ impl Default for SimConfig {
             licks: LickParams::default(),
             photometry: None,
             faults: FaultParams::default(),
+            design: None,
         }
     }
 }
@@ -110,17 +115,27 @@ pub fn round_time(t: f64) -> f64 {
 /// Run the whole simulation in memory.
 pub fn simulate(config: &SimConfig) -> Result<Simulated, String> {
     config.validate()?;
-    let mut plan = schedule::draw(&config.schedule, config.seed)?;
     let mut injected = Vec::new();
-    let delays: Vec<f64> = config.schedule.cues.iter().map(|c| c.delay_s).collect();
-    faults::shift_rewards(
-        &mut plan,
-        &delays,
-        &config.faults,
-        config.seed,
-        &mut injected,
-    );
-    let mut subject = schedule::to_subject(&config.schedule, &plan);
+    let (plan, mut subject) = match &config.design {
+        Some(d) => {
+            let plan = design::draw(d, &config.schedule, config.seed)?;
+            let subject = design::to_subject(d, &config.schedule, &plan);
+            (plan, subject)
+        }
+        None => {
+            let mut plan = schedule::draw(&config.schedule, config.seed)?;
+            let delays: Vec<f64> = config.schedule.cues.iter().map(|c| c.delay_s).collect();
+            faults::shift_rewards(
+                &mut plan,
+                &delays,
+                &config.faults,
+                config.seed,
+                &mut injected,
+            );
+            let subject = schedule::to_subject(&config.schedule, &plan);
+            (plan, subject)
+        }
+    };
     let spans = layout_subject(&subject, config.td.dt);
     let n_cues = subject.cue_names().len();
     let td = run(&spans, n_cues, &config.td);
@@ -201,6 +216,18 @@ impl SimConfig {
         let s = &self.schedule;
         let t = &self.td;
         let check = |ok: bool, what: &str| if ok { Ok(()) } else { Err(what.to_string()) };
+        if let Some(d) = &self.design {
+            check(
+                !self.faults.any(),
+                "--fault cannot be combined with --design",
+            )?;
+            let trials: usize = d.phases.iter().map(|p| p.days * p.trials_per_day).sum();
+            check(d.days() <= 3650, "a design may run at most 3650 days")?;
+            check(
+                trials <= 1_000_000,
+                "a design may have at most 1000000 trials",
+            )?;
+        }
         check(s.days >= 1, "--days must be at least 1")?;
         check(s.trials_per_day >= 1, "--trials-per-day must be at least 1")?;
         check(

@@ -145,6 +145,7 @@ pub fn draw(p: &ScheduleParams, seed: u64) -> Result<Vec<SessionPlan>, String> {
                         cue_s: Some(onset),
                         reward_s,
                         reward_ul: if rewarded { p.reward_ul } else { 0.0 },
+                        ..Default::default()
                     };
                     (trial, end)
                 }
@@ -155,6 +156,7 @@ pub fn draw(p: &ScheduleParams, seed: u64) -> Result<Vec<SessionPlan>, String> {
                         cue_s: None,
                         reward_s: Some(onset),
                         reward_ul: p.reward_ul,
+                        ..Default::default()
                     },
                     onset,
                 ),

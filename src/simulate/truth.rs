@@ -18,6 +18,11 @@ pub struct Truth {
     /// per trial in `faults.csv`.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub faults: Option<FaultsTruth>,
+    /// Present only for `--design`: the design file's cues, phases and trial types as read
+    /// (the schedule's days then count the design's days, trials_per_day is the largest of
+    /// its phases', and its cue list is empty).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub design: Option<super::design::Design>,
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -157,7 +162,7 @@ impl Truth {
                 rig: s.rig.clone(),
                 start_date: s.start_date.clone(),
                 start_time: s.start_time.clone(),
-                days: s.days,
+                days: c.design.as_ref().map_or(s.days, |d| d.days()),
                 trials_per_day: s.trials_per_day,
                 cue_duration_s: s.cue_duration_s,
                 uncued_fraction: s.uncued_fraction,
@@ -171,6 +176,7 @@ impl Truth {
                 cue: s
                     .cues
                     .iter()
+                    .filter(|_| c.design.is_none())
                     .map(|q| CueTruth {
                         name: q.name.clone(),
                         reward_prob: q.reward_prob,
@@ -252,6 +258,7 @@ impl Truth {
                     .filter(|(_, r)| *r > 0.0)
                     .collect(),
             }),
+            design: c.design.clone(),
         }
     }
 

@@ -6,7 +6,7 @@
 
 use super::truth::Truth;
 use super::Simulated;
-use crate::data::Session;
+use crate::data::{EventKind, Session};
 use crate::util::fmt_f64;
 use serde::Serialize;
 use std::fs;
@@ -37,9 +37,10 @@ fn io_at(path: &Path) -> impl FnOnce(io::Error) -> WriteError + '_ {
 }
 
 /// The files a session folder of ours may hold (marks.csv: a reviewer may have added one).
-const SESSION_FILES: [&str; 6] = [
+const SESSION_FILES: [&str; 7] = [
     "session.toml",
     "trials.csv",
+    "events.csv",
     "spikes.csv",
     "licks.csv",
     "photometry.csv",
@@ -154,10 +155,14 @@ fn write_session(session: &Session, dir: &Path) -> Result<(), WriteError> {
     crate::safe_write::replace_file(&path, toml_text.as_bytes())?;
 
     let opt = |x: Option<f64>| x.map(fmt_f64).unwrap_or_default();
+    // cue_off_s and events.csv only when a design asked for them: plain subjects are
+    // written exactly as before.
+    let offsets = session.trials.iter().any(|t| t.cue_off_s.is_some());
     write_csv(&dir.join("trials.csv"), |w| {
-        writeln!(w, "trial,cue,cue_s,reward_s,reward_ul")?;
+        let extra = if offsets { ",cue_off_s" } else { "" };
+        writeln!(w, "trial,cue,cue_s,reward_s,reward_ul{extra}")?;
         for t in &session.trials {
-            writeln!(
+            write!(
                 w,
                 "{},{},{},{},{}",
                 t.number,
@@ -166,9 +171,30 @@ fn write_session(session: &Session, dir: &Path) -> Result<(), WriteError> {
                 opt(t.reward_s),
                 fmt_f64(t.reward_ul)
             )?;
+            match offsets {
+                true => writeln!(w, ",{}", opt(t.cue_off_s))?,
+                false => writeln!(w)?,
+            }
         }
         Ok(())
     })?;
+    if session.trials.iter().any(|t| !t.events.is_empty()) {
+        write_csv(&dir.join("events.csv"), |w| {
+            writeln!(w, "trial,kind,name,onset_s,offset_s,size")?;
+            for t in &session.trials {
+                for e in &t.events {
+                    let name = e.cue.map_or("", |c| session.meta.cues[c].name.as_str());
+                    let (kind, size) = match e.kind {
+                        EventKind::Cue => ("cue", String::new()),
+                        EventKind::Reward => ("reward", fmt_f64(e.size)),
+                    };
+                    let (on, off) = (fmt_f64(e.onset_s), opt(e.offset_s));
+                    writeln!(w, "{},{kind},{name},{on},{off},{size}", t.number)?;
+                }
+            }
+            Ok(())
+        })?;
+    }
     if let Some(spikes) = &session.spikes {
         write_csv(&dir.join("spikes.csv"), |w| {
             writeln!(w, "unit,time_s")?;

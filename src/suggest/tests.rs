@@ -18,6 +18,7 @@ fn session(n: usize, rewarded: impl Fn(usize) -> bool) -> Session {
                 cue_s: Some(cue),
                 reward_s: r.then_some(cue + 1.5),
                 reward_ul: if r { 3.0 } else { 0.0 },
+                ..Default::default()
             }
         })
         .collect();

@@ -20,6 +20,7 @@ pub fn cued(number: i64, cue: usize, cue_s: f64, reward: Option<(f64, f64)>) -> 
         cue_s: Some(cue_s),
         reward_s: reward.map(|r| r.0),
         reward_ul: reward.map_or(0.0, |r| r.1),
+        ..Default::default()
     }
 }
 
@@ -31,6 +32,7 @@ pub fn uncued(number: i64, reward_s: f64, size: f64) -> Trial {
         cue_s: None,
         reward_s: Some(reward_s),
         reward_ul: size,
+        ..Default::default()
     }
 }
 

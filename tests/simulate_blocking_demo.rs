@@ -1,0 +1,103 @@
+//! demo_data/m-052 (a blocking experiment from demo_data/blocking.toml) is exactly what its
+//! README command makes, and it shows blocking: on the probe day the light that was added to an
+//! already trained tone (B) draws a smaller cue response than the light of the control compound
+//! trained from scratch (D) — Kamin's blocking, as Rescorla & Wagner (1972) and TD predict.
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+use std::process::Command;
+use trialdesk::obs::{observe, ObsOptions};
+
+fn repo(rel: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join(rel)
+}
+
+fn tree(root: &Path) -> BTreeMap<String, Vec<u8>> {
+    fn walk(root: &Path, dir: &Path, out: &mut BTreeMap<String, Vec<u8>>) {
+        for entry in std::fs::read_dir(dir).unwrap() {
+            let path = entry.unwrap().path();
+            if path.is_dir() {
+                walk(root, &path, out);
+            } else {
+                let rel = path
+                    .strip_prefix(root)
+                    .unwrap()
+                    .to_string_lossy()
+                    .into_owned();
+                out.insert(rel, std::fs::read(&path).unwrap());
+            }
+        }
+    }
+    let mut out = BTreeMap::new();
+    walk(root, root, &mut out);
+    out
+}
+
+/// The README line that makes m-052, as arguments after `trialdesk simulate`.
+fn readme_command() -> Vec<String> {
+    let readme = std::fs::read_to_string(repo("demo_data/README.md")).unwrap();
+    let line = readme
+        .lines()
+        .map(str::trim)
+        .find(|l| l.starts_with("trialdesk simulate demo_data/m-052 "))
+        .expect("README gives the command");
+    line.split_whitespace().skip(3).map(String::from).collect()
+}
+
+#[test]
+fn the_blocking_demo_is_remade_byte_for_byte_and_stays_small() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("m-052");
+    let o = Command::new(env!("CARGO_BIN_EXE_trialdesk"))
+        .current_dir(repo(""))
+        .arg("simulate")
+        .arg(&out)
+        .args(readme_command())
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let ours = tree(&out);
+    let shipped = tree(&repo("demo_data/m-052"));
+    assert_eq!(
+        ours.keys().collect::<Vec<_>>(),
+        shipped.keys().collect::<Vec<_>>()
+    );
+    for (name, bytes) in &ours {
+        assert!(
+            bytes == &shipped[name],
+            "{name} differs from the shipped demo"
+        );
+    }
+    let total: usize = shipped.values().map(Vec::len).sum();
+    assert!(total < 3 << 20, "{total} bytes");
+    assert!(shipped.keys().any(|k| k.ends_with("events.csv")));
+}
+
+#[test]
+fn the_blocked_light_answers_less_than_the_control_light() {
+    let subject = trialdesk::data::load(&repo("demo_data/m-052"))
+        .unwrap()
+        .subject;
+    let obs = observe(&subject, &ObsOptions::default()).unwrap();
+    let last = subject.sessions.len() - 1;
+    // Probe trials: a light alone (a plain single-cue trial: its cue window is `cue`).
+    let session = &subject.sessions[last];
+    let mean_probe = |name: &str| {
+        let v: Vec<f64> = obs
+            .iter()
+            .filter(|o| o.session == last)
+            .filter(|o| {
+                let t = &session.trials[o.trial];
+                !t.has_events() && session.cue_name(t) == Some(name)
+            })
+            .filter_map(|o| o.cue)
+            .collect();
+        assert!(v.len() >= 3, "{name}: {} probe trials", v.len());
+        v.iter().sum::<f64>() / v.len() as f64
+    };
+    let (b, d) = (mean_probe("light-b"), mean_probe("light-d"));
+    assert!(
+        d > b + 1.0,
+        "blocked B {b} vs control D {d} (spikes/s above baseline)"
+    );
+}
