@@ -243,6 +243,7 @@ fn legends_of_curves_whose_highest_values_come_first_cover_no_data() {
             omission: kinds[i % 4] == TrialKind::Omission,
             anticipatory_lick_rate: None,
             kind: kinds[i % 4],
+            events: Vec::new(),
         })
         .collect();
     let deltas: Vec<Option<WindowDeltas>> = obs

@@ -9,6 +9,7 @@ pub mod csvio;
 pub mod diag;
 pub mod events;
 pub mod follow;
+mod guard;
 pub mod load;
 mod lookalike;
 pub mod meta;

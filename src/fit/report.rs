@@ -151,7 +151,7 @@ pub fn write_trials_csv(
             crate::text::for_csv(session).as_ref(),
             &trial.to_string(),
             // Data text (cue names): neutralised like the session name.
-            crate::util::csv_safe_cell(p.label.as_deref().unwrap_or(p.kind.name())).as_ref(),
+            crate::text::for_csv(p.label.as_deref().unwrap_or(p.kind.name())).as_ref(),
             &fmt_f64(p.observed),
             &fmt_f64(pred),
             if p.excluded { "true" } else { "false" },
