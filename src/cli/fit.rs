@@ -78,6 +78,10 @@ pub struct Args {
     /// Bootstrap replicates for the confidence intervals (0: none)
     #[arg(long, default_value_t = 50)]
     pub bootstrap: usize,
+    /// Observation model: gaussian or poisson (spike counts) [default: poisson for spikes,
+    /// gaussian for photometry]
+    #[arg(long)]
+    pub likelihood: Option<String>,
     /// What the bootstrap resamples: trials or sessions
     #[arg(long, default_value = "trials")]
     pub bootstrap_by: String,
@@ -149,7 +153,16 @@ fn fit_options(args: &Args) -> Result<FitOptions, CliError> {
             args.bootstrap_by
         ))
     })?;
+    let likelihood = match args.likelihood.as_deref() {
+        None => None,
+        Some(l) => Some(fit::Likelihood::parse(l).ok_or_else(|| {
+            CliError::usage(format!(
+                "--likelihood '{l}' is not known (expected gaussian or poisson)"
+            ))
+        })?),
+    };
     Ok(FitOptions {
+        likelihood,
         representation,
         lambda: args.lambda,
         bootstrap: args.bootstrap,
@@ -408,6 +421,7 @@ pub(crate) fn fit_subject(
     if let Some(k) = kernel {
         data = dataset::with_sensor_kernel(data, k, &obs_opts);
     }
+    data.counts = dataset::spike_counts(&data, subject, &obs_opts);
 
     if announce {
         eprintln!(
@@ -488,6 +502,7 @@ pub(crate) fn fit_subject(
             baseline_window_s: Some([obs_opts.baseline.0, obs_opts.baseline.1]),
             sensor_rise_s: kernel.map(|k| k.rise_s),
             sensor_decay_s: kernel.map(|k| k.decay_s),
+            likelihood: Some(outcome.best.linear.likelihood.name().to_string()),
         };
         match saved::save(&subject.root, &savedfit) {
             Ok(path) => text.push_str(&format!("Fitted parameters saved to {}\n", path.display())),

@@ -15,8 +15,10 @@
 pub mod bootstrap;
 pub mod compare;
 pub mod dataset;
+pub mod likelihood;
 pub mod objective;
 pub mod optimise;
+pub mod profile;
 pub mod report;
 pub mod saved;
 pub mod sensitivity;
@@ -25,6 +27,7 @@ pub mod synthetic;
 pub use bootstrap::{GammaProfile, Intervals, ResampleUnit};
 pub use compare::ModelRow;
 pub use dataset::{Exclusions, FitData, ObsPoint, WindowKind};
+pub use likelihood::{Likelihood, WindowCount};
 pub use objective::{LearnParams, LinearFit, ModelSpec, Problem};
 pub use optimise::{FitResult, SearchOptions};
 
@@ -55,6 +58,11 @@ pub enum FitError {
         trial: i64,
         window: &'static str,
     },
+    #[error(
+        "the poisson likelihood needs spike counts per window, and these observations have \
+         none (photometry?); use --likelihood gaussian"
+    )]
+    NoCounts,
     #[error("the optimiser found no parameters with a finite likelihood for {model}")]
     NoFiniteFit { model: String },
 }
@@ -77,6 +85,9 @@ pub struct FitOptions {
     /// Fit the other models for the comparison table.
     pub compare: bool,
     pub search: SearchOptions,
+    /// Observation model; `None`: [`likelihood::SPIKE_DEFAULT`] where the data carry spike
+    /// counts, Gaussian otherwise (photometry).
+    pub likelihood: Option<Likelihood>,
 }
 
 impl Default for FitOptions {
@@ -94,6 +105,7 @@ impl Default for FitOptions {
             holdout_sessions: None,
             compare: true,
             search: SearchOptions::default(),
+            likelihood: None,
         }
     }
 }
@@ -104,6 +116,18 @@ impl FitOptions {
         self.lambda.is_none()
     }
 
+    /// The likelihood a fit of `data` uses: the one asked for, else Poisson for spike counts
+    /// ([`likelihood::SPIKE_DEFAULT`]) and Gaussian for everything else. Poisson without
+    /// counts falls back to Gaussian ([`run_fit`] refuses that combination first).
+    pub fn likelihood_for(&self, data: &FitData) -> Likelihood {
+        match (self.likelihood, data.counts.is_some()) {
+            (Some(Likelihood::Poisson), false) => Likelihood::Gaussian,
+            (Some(l), _) => l,
+            (None, true) => likelihood::SPIKE_DEFAULT,
+            (None, false) => Likelihood::Gaussian,
+        }
+    }
+
     /// The search problem of `model` on `data` under these options.
     pub fn problem<'a>(&self, data: &'a FitData, model: ModelSpec) -> Problem<'a> {
         Problem::new(
@@ -112,6 +136,7 @@ impl FitOptions {
             self.lambda.is_none(),
             self.lambda.unwrap_or(0.0),
         )
+        .with_likelihood(self.likelihood_for(data))
     }
 }
 
@@ -201,6 +226,9 @@ pub fn run_fit(
     progress: &dyn Progress,
 ) -> Result<FitOutcome, FitError> {
     let included = validate(data)?;
+    if opts.likelihood == Some(Likelihood::Poisson) && data.counts.is_none() {
+        return Err(FitError::NoCounts);
+    }
     let model = ModelSpec::Td(opts.representation);
     let problem = opts.problem(data, model);
 
@@ -211,13 +239,7 @@ pub fn run_fit(
                 model: model.name().to_string(),
             }
         })?;
-    let x = problem.predictors(&best.params);
-    let predicted: Vec<f64> = data
-        .points
-        .iter()
-        .zip(&x)
-        .map(|(p, &xi)| best.linear.predict(p.kind, xi))
-        .collect();
+    let predicted = problem.predict_responses(&best.params, &best.linear);
     let (r_squared, rmse) = objective::goodness(data, &included, &predicted);
 
     let mut warnings = Vec::new();
@@ -288,10 +310,14 @@ pub fn run_fit(
     };
 
     let without_exclusions = if included.len() < data.points.len() {
-        progress.phase("fit without exclusions", opts.search.max_iters);
+        progress.phase(
+            "fit without exclusions",
+            opts.search.budget(&problem) as u64,
+        );
         let all: Vec<usize> = (0..data.points.len()).collect();
-        // Warm start from the marked fit; the estimate is the all-windows optimum.
-        optimise::refine(&problem, &all, &best.z, &opts.search, opts.search.max_iters)
+        // The same multi-start search a separate `--ignore-marks` run makes, so the same data
+        // give the same optimum (a warm start from the marked fit could stop in another mode).
+        optimise::fit_multistart(&problem, &all, &opts.search, progress)
     } else {
         None
     };
@@ -301,6 +327,7 @@ pub fn run_fit(
     } else {
         Vec::new()
     };
+    warnings.extend(compare::warnings(&comparison, model));
 
     Ok(FitOutcome {
         model,
