@@ -19,7 +19,9 @@
 //! photometry-after). A small version runs in CI.
 
 use trialdesk::fit::synthetic::{fit_data, spike_fit_data, SpikeSpec, SyntheticSpec};
-use trialdesk::fit::{report, run_fit, FitData, FitOptions, Likelihood, NoProgress, ResampleUnit};
+use trialdesk::fit::{
+    profile, report, run_fit, FitData, FitOptions, Likelihood, NoProgress, ResampleUnit,
+};
 
 const SETS: [(f64, f64, f64); 4] = [
     (0.1, 0.98, 0.5),
@@ -43,6 +45,10 @@ struct Tally {
     /// γ covered by a bootstrap interval (the report before profile intervals: a flat
     /// profile withheld it, a miss).
     cover_gamma_bootstrap: usize,
+    /// γ covered by its profile-likelihood interval (computed here for every subject).
+    cover_gamma_profile: usize,
+    /// γ covered by the envelope of the bootstrap and profile-likelihood intervals.
+    cover_gamma_envelope: usize,
     bias: [f64; 3],
     failed: usize,
 }
@@ -74,6 +80,24 @@ fn run(label: &str, subjects: &[(SyntheticSpec, FitData)], opts: &FitOptions) ->
                 t.cover_gamma_bootstrap += 1;
             }
         }
+        if std::env::var("COVERAGE_PROFILE").is_ok() {
+            let problem = opts.problem(data, out.model);
+            let pi =
+                profile::profile_interval(&problem, &data.included(), &out.best, 1, &opts.search);
+            let (plo, phi) = (pi.lower.unwrap_or(0.0), pi.upper.unwrap_or(1.0));
+            let covers = |lo: f64, hi: f64| lo <= spec.gamma && spec.gamma <= hi;
+            if covers(plo, phi) {
+                t.cover_gamma_profile += 1;
+            }
+            let boot = out
+                .intervals
+                .as_ref()
+                .and_then(|iv| iv.interval(|r| Some(r.params.gamma)));
+            let (elo, ehi) = boot.map_or((plo, phi), |(a, b)| (a.min(plo), b.max(phi)));
+            if covers(elo, ehi) {
+                t.cover_gamma_envelope += 1;
+            }
+        }
         // The intervals as reported (params.csv), whatever method made them.
         let rows = report::param_rows(&out, data, opts.lambda_fitted());
         for (k, name) in ["alpha", "gamma", "lambda"].iter().enumerate() {
@@ -100,6 +124,13 @@ fn run(label: &str, subjects: &[(SyntheticSpec, FitData)], opts: &FitOptions) ->
         t.withheld_gamma,
         t.failed,
     );
+    if std::env::var("COVERAGE_PROFILE").is_ok() {
+        println!(
+            "  γ profile-likelihood interval covers {:.0}%, envelope of bootstrap and profile {:.0}%",
+            100.0 * t.cover_gamma_profile as f64 / n,
+            100.0 * t.cover_gamma_envelope as f64 / n
+        );
+    }
     t
 }
 

@@ -82,7 +82,7 @@ pub struct Args {
     /// gaussian for photometry]
     #[arg(long)]
     pub likelihood: Option<String>,
-    /// What the bootstrap resamples: trials or sessions
+    /// What the bootstrap resamples: trials, blocks (20 neighbouring trials) or sessions
     #[arg(long, default_value = "trials")]
     pub bootstrap_by: String,
     /// Random seed of the bootstrap
@@ -149,7 +149,7 @@ fn fit_options(args: &Args) -> Result<FitOptions, CliError> {
     }
     let resample = ResampleUnit::parse(&args.bootstrap_by).ok_or_else(|| {
         CliError::usage(format!(
-            "--bootstrap-by '{}' is not known (expected trials or sessions)",
+            "--bootstrap-by '{}' is not known (expected trials, blocks or sessions)",
             args.bootstrap_by
         ))
     })?;

@@ -3,10 +3,12 @@
 //! Where to start: [`dataset::FitData`] is what a fit sees — the subject's trial spans in
 //! training order and one [`dataset::ObsPoint`] per observed response window, each flagged
 //! `excluded` or not. [`objective::Problem`] turns learning parameters into per-window δ sums
-//! and scores them (gain and baselines in closed form, σ² profiled out);
+//! and scores them under the chosen [`likelihood`] (Gaussian: gain and baselines in closed
+//! form, σ² profiled out; Poisson on spike counts: gain and baselines by Fisher scoring);
 //! [`optimise::fit_multistart`] searches the learning parameters; [`bootstrap`] gives
-//! percentile intervals and the γ profile check; [`compare`] fits every model and scores it on
-//! held-out sessions; [`report`] writes the text report and CSV tables; [`saved`] keeps the
+//! percentile intervals and the γ profile check, [`profile`] profile-likelihood intervals
+//! where the bootstrap fails (flat γ); [`compare`] fits every model, scores it on held-out
+//! sessions and warns when its criteria disagree; [`report`] writes the text report and CSV tables; [`saved`] keeps the
 //! chosen fit in the subject folder. [`run_fit`] runs the whole job.
 //!
 //! Excluded trials: their observations leave the likelihood, but every trial stays in the spans,
