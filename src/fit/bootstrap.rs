@@ -195,7 +195,8 @@ pub struct GammaProfile {
     pub flat: bool,
     pub gamma_best: f64,
     /// 95 % profile-likelihood interval of γ, computed when the profile is flat (the
-    /// bootstrap's interval is then withheld); a missing end is unbounded (one-sided).
+    /// bootstrap's interval is then withheld) or when asked for (intervals are reported); a
+    /// missing end is unbounded (one-sided).
     pub interval: Option<super::profile::ProfileInterval>,
 }
 
@@ -228,13 +229,15 @@ pub fn tau_s(gamma: f64, dt: f64) -> f64 {
     }
 }
 
-/// Profile γ: fix it at τ multiples of the optimum, re-optimise α (and λ if free).
+/// Profile γ: fix it at τ multiples of the optimum, re-optimise α (and λ if free); with
+/// `with_interval` (or a flat profile) also γ's profile-likelihood interval.
 pub fn gamma_profile(
     problem: &Problem,
     idx: &[usize],
     best: &FitResult,
     opts: &SearchOptions,
     progress: &dyn Progress,
+    with_interval: bool,
 ) -> GammaProfile {
     let dt = problem.data.dt;
     let tau = tau_s(best.params.gamma, dt);
@@ -282,7 +285,8 @@ pub fn gamma_profile(
             .unwrap_or(f64::INFINITY)
     };
     let flat = drop_at(0.5) < FLAT_DROP && drop_at(2.0) < FLAT_DROP;
-    let interval = flat.then(|| super::profile::profile_interval(problem, idx, best, 1, opts));
+    let interval = (flat || with_interval)
+        .then(|| super::profile::profile_interval(problem, idx, best, 1, opts));
     GammaProfile {
         points,
         flat,

@@ -269,7 +269,17 @@ pub fn run_fit(
 
     let gamma_profile = if problem.has_gamma() {
         progress.phase("checking γ", 4 * opts.search.max_iters_refine);
-        let prof = bootstrap::gamma_profile(&problem, &included, &best, &opts.search, progress);
+        // With intervals requested, γ's profile-likelihood interval joins the bootstrap's: on
+        // simulated photometry-like subjects the bootstrap's γ interval covered the truth
+        // 80 % of the time, the profile-likelihood one 95 % (tests/fit_coverage.rs).
+        let prof = bootstrap::gamma_profile(
+            &problem,
+            &included,
+            &best,
+            &opts.search,
+            progress,
+            opts.bootstrap > 0,
+        );
         if prof.flat {
             warnings.push(prof.warning(data.dt));
         }

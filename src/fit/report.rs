@@ -66,21 +66,14 @@ pub fn param_rows(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -> Vec<
         rows.push(ParamRow {
             name: "gamma",
             estimate: p.gamma,
-            interval: if gamma_flat {
-                gamma_profile_bounds(out)
-            } else {
-                iv(&|r| Some(r.params.gamma))
-            },
+            interval: gamma_interval(out, gamma_flat, iv(&|r| Some(r.params.gamma))),
         });
         // τ is monotone in γ, so its interval is γ's mapped through.
         rows.push(ParamRow {
             name: "tau_s",
             estimate: tau_s(p.gamma, dt),
-            interval: if gamma_flat {
-                gamma_profile_bounds(out).map(|(a, b)| (tau_s(a, dt), tau_s(b, dt)))
-            } else {
-                iv(&|r| Some(tau_s(r.params.gamma, dt)))
-            },
+            interval: gamma_interval(out, gamma_flat, iv(&|r| Some(r.params.gamma)))
+                .map(|(a, b)| (tau_s(a, dt), tau_s(b, dt))),
         });
         if lambda_fitted {
             rows.push(ParamRow {
@@ -124,6 +117,25 @@ impl ParamRow {
 pub fn gamma_profile_bounds(out: &FitOutcome) -> Option<(f64, f64)> {
     let pi = out.gamma_profile.as_ref()?.interval?;
     Some((pi.lower.unwrap_or(0.0), pi.upper.unwrap_or(1.0)))
+}
+
+/// γ's reported interval: the profile-likelihood one when the profile is flat (the bootstrap's
+/// is withheld), else the envelope of the bootstrap percentile and profile-likelihood
+/// intervals (either alone when the other is missing). The bootstrap's alone undercovered γ
+/// (80 % of 95 % intervals on simulated subjects; the profile's 95 %: tests/fit_coverage.rs).
+pub fn gamma_interval(
+    out: &FitOutcome,
+    flat: bool,
+    bootstrap: Option<(f64, f64)>,
+) -> Option<(f64, f64)> {
+    let profile = gamma_profile_bounds(out);
+    if flat {
+        return profile;
+    }
+    match (bootstrap, profile) {
+        (Some((a, b)), Some((c, d))) => Some((a.min(c), b.max(d))),
+        (x, None) | (None, x) => x,
+    }
 }
 
 /// γ's profile-likelihood interval lacks an end.
@@ -276,6 +288,19 @@ pub fn text_report(
             num(r.estimate),
             lo,
             hi
+        );
+    }
+    if out
+        .gamma_profile
+        .as_ref()
+        .is_some_and(|g| g.interval.is_some())
+        && !gamma_interval_withheld(out)
+        && out.intervals.is_some()
+    {
+        let _ = writeln!(
+            s,
+            "  γ and tau_s: the envelope of the bootstrap percentile and the profile-likelihood \
+             intervals (the bootstrap's alone undercovers γ)."
         );
     }
     if rows.iter().any(ParamRow::excludes_estimate) {
