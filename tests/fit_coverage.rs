@@ -11,6 +11,21 @@
 //! bootstrap percentile intervals, or γ's profile-likelihood interval where its profile is flat
 //! (the "γ flat" column counts those).
 //!
+//! Measured (2026-12-03; 20 subjects per row over the four parameter sets, 6 days × 150
+//! trials, 50 replicates resampling trials; coverage of 95 % intervals, mean bias of the
+//! estimates):
+//!
+//! | setting | α | γ | λ | α bias | γ bias | λ bias |
+//! |---|---|---|---|---|---|---|
+//! | spikes, before (Gaussian on rate differences; flat γ: interval withheld, 20 of 20) | 95 % | 0 % | 75 % | +0.019 | +0.0116 | −0.096 |
+//! | spikes, after (Poisson on counts; profile-likelihood γ where flat, 13 of 20) | 90 % | 95 % | 90 % | +0.015 | +0.0019 | −0.028 |
+//! | photometry-like, before (bootstrap only) | 90 % | 80 % | 95 % | +0.0005 | −0.0003 | −0.020 |
+//! | photometry-like, after (γ: envelope of bootstrap and profile likelihood) | 90 % | 95 % | 95 % | +0.0005 | −0.0003 | −0.020 |
+//!
+//! Block resampling (`--bootstrap-by blocks`) exists but did not become the default: trial
+//! resampling covered α and λ at ≥ 90 %, and γ's shortfall was the bootstrap's, mended by the
+//! profile likelihood.
+//!
 //! The full study is ignored by default (minutes on 2 cores):
 //! `cargo test --test fit_coverage -- --ignored --nocapture` prints the table.
 //! Size: `COVERAGE_SUBJECTS` (per setting, default 20: 4 parameter sets × 5 seeds),
