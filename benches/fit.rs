@@ -85,7 +85,7 @@ fn main() {
 
     let t = Instant::now();
     let c = cpu_s();
-    let prof = bootstrap::gamma_profile(&problem, &idx, &best, &opts.search, &NoProgress);
+    let prof = bootstrap::gamma_profile(&problem, &idx, &best, &opts.search, &NoProgress, false);
     println!(
         "gamma profile (4 points): {:.3} s wall, {:.2} s CPU, flat = {}",
         t.elapsed().as_secs_f64(),

@@ -195,3 +195,30 @@ fn ignore_marks_fits_every_window_and_differs() {
     assert!((w.log_likelihood - b.best.log_likelihood).abs() < 1.0);
     assert!(b.without_exclusions.is_none());
 }
+
+/// The report's "all windows" fit and a separate `--ignore-marks` run see the same data and
+/// make the same multi-start search, so they land on the same optimum (a warm start from the
+/// marked fit could stop in another mode of a multimodal likelihood).
+#[test]
+fn all_windows_fit_in_the_report_equals_a_separate_ignore_marks_fit() {
+    let spec = spec();
+    let subj = subject(&spec);
+    let opts = ObsOptions::default();
+    let obs = observations(&spec, &subj, &opts);
+    let data = build(&subj, &obs, &opts, spec.dt, &marks(), false);
+    let fit_opts = FitOptions {
+        lambda: Some(0.0),
+        bootstrap: 0,
+        compare: false,
+        ..Default::default()
+    };
+    let marked = run_fit(&data, &fit_opts, &NoProgress).unwrap();
+    let inside = marked.without_exclusions.expect("the all-windows fit");
+    let separate = run_fit(&data.ignoring_marks(), &fit_opts, &NoProgress).unwrap();
+    assert_eq!(inside.params, separate.best.params);
+    assert_eq!(inside.log_likelihood, separate.best.log_likelihood);
+    assert_ne!(
+        marked.best.params, separate.best.params,
+        "the marks matter here"
+    );
+}

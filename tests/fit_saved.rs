@@ -36,6 +36,7 @@ fn example() -> SavedFit {
         baseline_window_s: Some([-1.0, 0.0]),
         sensor_rise_s: None,
         sensor_decay_s: None,
+        likelihood: None,
     }
 }
 
@@ -80,6 +81,7 @@ fn sensor_kernel_round_trips_and_older_files_have_none() {
     let with_kernel = SavedFit {
         sensor_rise_s: Some(0.1),
         sensor_decay_s: Some(0.6),
+        likelihood: None,
         ..example()
     };
     save(dir.path(), &with_kernel).unwrap();
@@ -137,6 +139,7 @@ fn predictions_rebuilt_from_a_kernel_fit_match_the_fitters_own() {
         },
         sensor_rise_s: Some(kernel.rise_s),
         sensor_decay_s: Some(kernel.decay_s),
+        likelihood: None,
         ..example()
     };
     assert_eq!(fit.sensor_kernel(&obs), Some(kernel));
@@ -153,6 +156,7 @@ fn predictions_rebuilt_from_a_kernel_fit_match_the_fitters_own() {
     let plain_fit = SavedFit {
         sensor_rise_s: None,
         sensor_decay_s: None,
+        likelihood: None,
         ..fit.clone()
     };
     let unweighted = plain_fit

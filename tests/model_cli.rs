@@ -303,6 +303,7 @@ fn saved_fit(alpha: f64) -> trialdesk::fit::saved::SavedFit {
         baseline_window_s: None,
         sensor_rise_s: None,
         sensor_decay_s: None,
+        likelihood: None,
     }
 }
 

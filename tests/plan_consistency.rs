@@ -162,6 +162,7 @@ fn saved_with_dt_zero() -> SavedFit {
         baseline_window_s: None,
         sensor_rise_s: None,
         sensor_decay_s: None,
+        likelihood: None,
     }
 }
 

@@ -366,6 +366,7 @@ fn saved_fit_parameters_are_used_and_labelled() {
         baseline_window_s: None,
         sensor_rise_s: None,
         sensor_decay_s: None,
+        likelihood: None,
     };
     save(&dir, &fit).unwrap();
     let settings = ModelSettings::from_subject(&dir).unwrap();

@@ -49,7 +49,11 @@ pub struct Args {
     /// Bootstrap replicates for the confidence intervals (0: none)
     #[arg(long, default_value_t = 50)]
     pub bootstrap: usize,
-    /// What the bootstrap resamples: trials or sessions
+    /// Observation model: gaussian or poisson (spike counts) [default: poisson for spikes,
+    /// gaussian for photometry]
+    #[arg(long)]
+    pub likelihood: Option<String>,
+    /// What the bootstrap resamples: trials, blocks (20 neighbouring trials) or sessions
     #[arg(long, default_value = "trials")]
     pub bootstrap_by: String,
     /// Random seed of the bootstrap
@@ -101,11 +105,20 @@ fn fit_options(args: &Args) -> Result<FitOptions, CliError> {
     }
     let resample = ResampleUnit::parse(&args.bootstrap_by).ok_or_else(|| {
         CliError::usage(format!(
-            "--bootstrap-by '{}' is not known (expected trials or sessions)",
+            "--bootstrap-by '{}' is not known (expected trials, blocks or sessions)",
             args.bootstrap_by
         ))
     })?;
+    let likelihood = match args.likelihood.as_deref() {
+        None => None,
+        Some(l) => Some(fit::Likelihood::parse(l).ok_or_else(|| {
+            CliError::usage(format!(
+                "--likelihood '{l}' is not known (expected gaussian or poisson)"
+            ))
+        })?),
+    };
     Ok(FitOptions {
+        likelihood,
         representation,
         lambda: args.lambda,
         bootstrap: args.bootstrap,

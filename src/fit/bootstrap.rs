@@ -19,19 +19,27 @@ pub enum ResampleUnit {
     Trials,
     /// Whole sessions: honest about day-to-day drift, coarse with few sessions.
     Sessions,
+    /// Contiguous blocks of [`BLOCK_TRIALS`] trials within a session (the last block of a
+    /// session may be shorter): keeps the serial dependence of neighbouring trials.
+    Blocks,
 }
+
+/// Trials per block of [`ResampleUnit::Blocks`].
+pub const BLOCK_TRIALS: usize = 20;
 
 impl ResampleUnit {
     pub fn name(self) -> &'static str {
         match self {
             ResampleUnit::Trials => "trials",
             ResampleUnit::Sessions => "sessions",
+            ResampleUnit::Blocks => "blocks",
         }
     }
     pub fn parse(s: &str) -> Option<Self> {
         match s {
             "trials" => Some(ResampleUnit::Trials),
             "sessions" => Some(ResampleUnit::Sessions),
+            "blocks" => Some(ResampleUnit::Blocks),
             _ => None,
         }
     }
@@ -120,11 +128,13 @@ pub fn percentile_sorted(sorted: &[f64], q: f64) -> f64 {
 /// Groups of included point indices that are drawn together.
 pub fn resampling_groups(problem: &Problem, idx: &[usize], unit: ResampleUnit) -> Vec<Vec<usize>> {
     let data = problem.data;
-    let mut groups: BTreeMap<usize, Vec<usize>> = BTreeMap::new();
+    let mut groups: BTreeMap<(usize, usize), Vec<usize>> = BTreeMap::new();
     for &i in idx {
+        let span = &data.spans[data.points[i].span];
         let key = match unit {
-            ResampleUnit::Trials => data.points[i].span,
-            ResampleUnit::Sessions => data.session_of(i),
+            ResampleUnit::Trials => (data.points[i].span, 0),
+            ResampleUnit::Sessions => (data.session_of(i), 0),
+            ResampleUnit::Blocks => (span.session, span.trial / BLOCK_TRIALS),
         };
         groups.entry(key).or_default().push(i);
     }
@@ -184,6 +194,10 @@ pub struct GammaProfile {
     /// The profile drops by less than [`FLAT_DROP`] at both τ/2 and 2τ.
     pub flat: bool,
     pub gamma_best: f64,
+    /// 95 % profile-likelihood interval of γ, computed when the profile is flat (the
+    /// bootstrap's interval is then withheld) or when asked for (intervals are reported); a
+    /// missing end is unbounded (one-sided).
+    pub interval: Option<super::profile::ProfileInterval>,
 }
 
 /// Half the 95 % χ²₁ quantile (3.84/2): a likelihood-ratio drop below it is not significant
@@ -217,13 +231,15 @@ pub fn tau_s(gamma: f64, dt: f64) -> f64 {
     }
 }
 
-/// Profile γ: fix it at τ multiples of the optimum, re-optimise α (and λ if free).
+/// Profile γ: fix it at τ multiples of the optimum, re-optimise α (and λ if free); with
+/// `with_interval` (or a flat profile) also γ's profile-likelihood interval.
 pub fn gamma_profile(
     problem: &Problem,
     idx: &[usize],
     best: &FitResult,
     opts: &SearchOptions,
     progress: &dyn Progress,
+    with_interval: bool,
 ) -> GammaProfile {
     let dt = problem.data.dt;
     let tau = tau_s(best.params.gamma, dt);
@@ -271,10 +287,13 @@ pub fn gamma_profile(
             .unwrap_or(f64::INFINITY)
     };
     let flat = drop_at(0.5) < FLAT_DROP && drop_at(2.0) < FLAT_DROP;
+    let interval = (flat || with_interval)
+        .then(|| super::profile::profile_interval(problem, idx, best, 1, opts));
     GammaProfile {
         points,
         flat,
         gamma_best: best.params.gamma,
+        interval,
     }
 }
 

@@ -133,6 +133,63 @@ pub fn verdict(rows: &[ModelRow]) -> Option<Verdict> {
     })
 }
 
+/// Warnings about the comparison for the report: the reported model is not the best by AIC
+/// (naming the best), and AIC, BIC and held-out error do not pick the same model.
+pub fn warnings(rows: &[ModelRow], reported: ModelSpec) -> Vec<String> {
+    let mut out = Vec::new();
+    if let Some(Verdict::Clear {
+        best, delta_aic, ..
+    }) = verdict(rows)
+    {
+        if !same_model(rows[best].model, reported) {
+            let gap = rows
+                .iter()
+                .find(|r| same_model(r.model, reported))
+                .map(|r| r.aic - rows[best].aic)
+                .unwrap_or(delta_aic);
+            out.push(format!(
+                "the reported representation ({}) is not the best by the comparison: {} has the \
+                 lowest AIC, {} lower; its parameters are the ones to read (rerun with \
+                 --representation {}), or say why {} is kept",
+                reported.name(),
+                rows[best].model.name(),
+                super::report::num(gap),
+                rows[best].model.name(),
+                reported.name()
+            ));
+        }
+    }
+    let pick = |score: &dyn Fn(&ModelRow) -> Option<f64>| {
+        rows.iter()
+            .filter_map(|r| Some((score(r)?, r.model.name())))
+            .filter(|(v, _)| v.is_finite())
+            .min_by(|a, b| a.0.total_cmp(&b.0))
+            .map(|(_, n)| n)
+    };
+    let by_aic = pick(&|r| Some(r.aic));
+    let by_bic = pick(&|r| Some(r.bic));
+    let by_heldout = pick(&|r| r.heldout_rmse);
+    let picks: Vec<(&str, &str)> = [
+        ("AIC", by_aic),
+        ("BIC", by_bic),
+        ("held-out RMSE", by_heldout),
+    ]
+    .into_iter()
+    .filter_map(|(k, v)| Some((k, v?)))
+    .collect();
+    if picks.windows(2).any(|w| w[0].1 != w[1].1) {
+        let list: Vec<String> = picks
+            .iter()
+            .map(|(k, v)| format!("{k} prefers {v}"))
+            .collect();
+        out.push(format!(
+            "the comparison's criteria disagree: {}; no single model is best on every count",
+            list.join(", ")
+        ));
+    }
+    out
+}
+
 fn same_model(a: ModelSpec, b: ModelSpec) -> bool {
     a.name() == b.name()
 }
@@ -153,14 +210,11 @@ pub fn heldout_error(
     }
     let fit = refine(problem, train, &full.z, &opts.search, opts.search.max_iters)?;
     progress.tick();
-    let x = problem.predictors(&fit.params);
+    let predicted = problem.predict_responses(&fit.params, &fit.linear);
     let data = problem.data;
     let sse: f64 = test
         .iter()
-        .map(|&i| {
-            let p = &data.points[i];
-            (p.observed - fit.linear.predict(p.kind, x[i])).powi(2)
-        })
+        .map(|&i| (data.points[i].observed - predicted[i]).powi(2))
         .sum();
     let rmse = (sse / test.len() as f64).sqrt();
     rmse.is_finite().then_some((rmse, test.len()))
@@ -203,6 +257,37 @@ mod tests {
         let rows = vec![row(m[0], 100.0), row(m[1], 101.5), row(m[2], 110.0)];
         assert_eq!(verdict(&rows), Some(Verdict::Tie { rows: vec![0, 1] }));
         assert_eq!(verdict(&[]), None);
+    }
+
+    #[test]
+    fn warns_when_the_reported_model_loses_or_criteria_disagree() {
+        let m = models();
+        let mut rows = vec![row(m[0], 300.0), row(m[1], 100.0), row(m[2], 310.0)];
+        let w = warnings(&rows, m[0]);
+        assert_eq!(w.len(), 1, "{w:?}");
+        assert!(w[0].contains("(csc) is not the best"), "{}", w[0]);
+        assert!(
+            w[0].contains("microstimulus has the lowest AIC, 200.0 lower"),
+            "{}",
+            w[0]
+        );
+        assert!(warnings(&rows, m[1]).is_empty());
+        // Held-out error prefers presence, AIC and BIC microstimulus.
+        rows[2].heldout_rmse = Some(0.5);
+        rows[1].heldout_rmse = Some(0.9);
+        let w = warnings(&rows, m[1]);
+        assert_eq!(w.len(), 1, "{w:?}");
+        assert!(
+            w[0].contains("AIC prefers microstimulus, BIC prefers microstimulus, held-out RMSE prefers presence"),
+            "{}",
+            w[0]
+        );
+        // BIC disagreeing with AIC alone is reported too.
+        rows[2].heldout_rmse = None;
+        rows[1].heldout_rmse = None;
+        rows[0].bic = 50.0;
+        let w = warnings(&rows, m[1]);
+        assert!(w.iter().any(|x| x.contains("BIC prefers csc")), "{w:?}");
     }
 
     #[test]

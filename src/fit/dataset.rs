@@ -88,6 +88,9 @@ pub struct FitData {
     /// Photometry: per point, δ weights under the sensor kernel ([`with_sensor_kernel`]); the
     /// predictor is then Σ w_k·δ_k instead of the plain sum over the window's bins.
     pub weighted: Option<Vec<WeightedWindow>>,
+    /// Spikes: per point, the spike count in its window ([`spike_counts`]), for the
+    /// Poisson likelihood.
+    pub counts: Option<Vec<super::likelihood::WindowCount>>,
 }
 
 impl FitData {
@@ -236,6 +239,7 @@ pub fn build(
         points,
         exclusions,
         weighted: None,
+        counts: None,
     }
 }
 
@@ -291,6 +295,59 @@ fn event_points(
             excluded,
         });
     }
+}
+
+/// Every point's spike count: the spikes of the observed units (all, or
+/// `--unit`'s) in the point's window, measured exactly where `obs` measures the response
+/// (cue onset or the delivered/expected reward, plus the window). `None` when the signal is
+/// not spikes, a session has no spikes, or the subject has trials with event lists. Assign to
+/// [`FitData::counts`].
+pub fn spike_counts(
+    data: &FitData,
+    subject: &Subject,
+    obs: &ObsOptions,
+) -> Option<Vec<super::likelihood::WindowCount>> {
+    use crate::obs::{activity::count_in, expected_reward_time, SessionActivity, Signal};
+    if !matches!(obs.signal, Signal::Spikes { .. }) {
+        return None;
+    }
+    // Windows of trials with event lists sit at their own events' times, which the trial's
+    // cue and reward columns do not give: such subjects are fitted on responses (Gaussian).
+    if data.points.iter().any(|p| p.label.is_some()) {
+        return None;
+    }
+    let mut acts: HashMap<usize, SessionActivity> = HashMap::new();
+    let mut counts = Vec::with_capacity(data.points.len());
+    for p in &data.points {
+        let span = &data.spans[p.span];
+        let session = subject.sessions.get(span.session)?;
+        let trial = session.trials.get(span.trial)?;
+        let (event, window) = match p.kind {
+            WindowKind::Cue => (trial.cue_s?, obs.cue_window),
+            WindowKind::Reward => (
+                trial
+                    .reward_s
+                    .or_else(|| expected_reward_time(session, trial))?,
+                obs.reward_window,
+            ),
+        };
+        let act = match acts.entry(span.session) {
+            std::collections::hash_map::Entry::Occupied(e) => e.into_mut(),
+            std::collections::hash_map::Entry::Vacant(e) => {
+                e.insert(SessionActivity::new(session, &obs.signal).ok()?)
+            }
+        };
+        let SessionActivity::Spikes { units } = &*act else {
+            return None;
+        };
+        let (lo, hi) = (event + window.0, event + window.1);
+        let n: usize = units.iter().map(|u| count_in(u, lo, hi)).sum();
+        counts.push(super::likelihood::WindowCount {
+            count: n as f64,
+            exposure: units.len() as f64 * (hi - lo),
+        });
+    }
+    Some(counts)
 }
 
 /// A sensor's impulse response h(u) = exp(−u/decay) − exp(−u/rise) for u ≥ 0 (scaled to peak

@@ -10,6 +10,7 @@
 //! lnL = −n/2·(ln(2π·RSS/n) + 1).
 
 use super::dataset::{FitData, WindowKind};
+use super::likelihood::{self, Likelihood, WindowDeltas};
 use crate::model::{rw, td, FeatureSpace, Representation, TdParams};
 
 /// A model the fitter can score.
@@ -45,6 +46,10 @@ pub struct LinearFit {
     pub baselines: [Option<f64>; 2],
     pub rss: f64,
     pub n: usize,
+    /// The observation model that scored this fit.
+    pub likelihood: Likelihood,
+    /// Maximised log-likelihood (σ² profiled out for the Gaussian).
+    pub loglik: f64,
 }
 
 impl LinearFit {
@@ -57,9 +62,9 @@ impl LinearFit {
         self.baselines.iter().filter(|b| b.is_some()).count()
     }
 
-    /// Profiled Gaussian log-likelihood.
+    /// Maximised log-likelihood under [`LinearFit::likelihood`].
     pub fn log_likelihood(&self) -> f64 {
-        gaussian_loglik(self.rss, self.n)
+        self.loglik
     }
 }
 
@@ -142,6 +147,8 @@ pub fn least_squares(
         baselines,
         rss,
         n: idx.len(),
+        likelihood: Likelihood::Gaussian,
+        loglik: gaussian_loglik(rss, idx.len()),
     })
 }
 
@@ -186,6 +193,8 @@ pub struct Problem<'a> {
     pub fit_lambda: bool,
     /// λ when not fitted.
     pub lambda: f64,
+    /// Observation model; Poisson needs `data.counts`.
+    pub likelihood: Likelihood,
     /// Built once per representation; every evaluation reuses it.
     space: Option<FeatureSpace>,
     observed: Vec<f64>,
@@ -203,10 +212,17 @@ impl<'a> Problem<'a> {
             model,
             fit_lambda: fit_lambda && matches!(model, ModelSpec::Td(_)),
             lambda,
+            likelihood: Likelihood::Gaussian,
             space,
             observed: data.points.iter().map(|p| p.observed).collect(),
             kinds: data.points.iter().map(|p| p.kind).collect(),
         }
+    }
+
+    /// The same problem scored by `likelihood` (Poisson only where the data carry counts).
+    pub fn with_likelihood(mut self, likelihood: Likelihood) -> Self {
+        self.likelihood = likelihood;
+        self
     }
 
     pub fn has_gamma(&self) -> bool {
@@ -221,9 +237,12 @@ impl<'a> Problem<'a> {
         }
     }
 
-    /// Parameters counted by AIC/BIC: learning parameters, gain, baselines, σ.
+    /// Parameters counted by AIC/BIC: learning parameters, gain, baselines, σ (Gaussian).
     pub fn n_params(&self, linear: &LinearFit) -> usize {
-        self.n_free() + 1 + linear.n_baselines() + 1
+        self.n_free()
+            + 1
+            + linear.n_baselines()
+            + usize::from(linear.likelihood == Likelihood::Gaussian)
     }
 
     pub fn to_params(&self, z: &[f64]) -> LearnParams {
@@ -296,6 +315,88 @@ impl<'a> Problem<'a> {
         }
     }
 
+    /// The model's δ in every bin of each point's window (Poisson likelihood); RW has one δ
+    /// per window. Sensor weights are ignored (counts are spikes, not a sensor).
+    pub fn window_deltas(&self, p: &LearnParams) -> WindowDeltas {
+        let data = self.data;
+        let mut out = WindowDeltas {
+            values: Vec::with_capacity(data.points.len() * 6),
+            offsets: Vec::with_capacity(data.points.len() + 1),
+        };
+        out.offsets.push(0);
+        match (self.model, &self.space) {
+            (ModelSpec::Td(repr), Some(space)) => {
+                let params = TdParams {
+                    alpha: p.alpha,
+                    gamma: p.gamma,
+                    lambda: p.lambda,
+                    dt: data.dt,
+                    representation: repr,
+                };
+                let run = td::run_in(space, &data.spans, &params);
+                for pt in &data.points {
+                    let d = run.trial_delta(pt.span);
+                    out.values
+                        .extend_from_slice(&d[pt.first_bin as usize..pt.end_bin as usize]);
+                    out.offsets.push(out.values.len());
+                }
+            }
+            _ => {
+                let x = self.predictors(p);
+                for xi in x {
+                    out.values.push(xi);
+                    out.offsets.push(out.values.len());
+                }
+            }
+        }
+        out
+    }
+
+    /// Profile gain and baselines (closed form for the Gaussian, Fisher scoring for Poisson)
+    /// at learning parameters `p` on the points `idx`.
+    pub fn fit_linear(&self, p: &LearnParams, idx: &[usize]) -> Option<LinearFit> {
+        match (self.likelihood, &self.data.counts) {
+            (Likelihood::Poisson, Some(counts)) => {
+                let deltas = self.window_deltas(p);
+                let f = likelihood::poisson_fit(&deltas, counts, &self.kinds, idx)?;
+                Some(LinearFit {
+                    gain: f.gain,
+                    baselines: f.baselines,
+                    rss: f.rss,
+                    n: idx.len(),
+                    likelihood: Likelihood::Poisson,
+                    loglik: f.log_likelihood,
+                })
+            }
+            _ => self.linear(&self.predictors(p), idx),
+        }
+    }
+
+    /// Predicted response of every point, in the units of `ObsPoint::observed`: baseline +
+    /// gain × predictor (Gaussian); mean softplus rate in the window minus the resting rate
+    /// (Poisson).
+    pub fn predict_responses(&self, p: &LearnParams, fit: &LinearFit) -> Vec<f64> {
+        let points = &self.data.points;
+        match fit.likelihood {
+            Likelihood::Gaussian => points
+                .iter()
+                .zip(self.predictors(p))
+                .map(|(pt, x)| fit.predict(pt.kind, x))
+                .collect(),
+            Likelihood::Poisson => {
+                let d = self.window_deltas(p);
+                points
+                    .iter()
+                    .enumerate()
+                    .map(|(i, pt)| match fit.baselines[pt.kind.index()] {
+                        Some(b) => likelihood::predicted_response(d.of(i), b, fit.gain),
+                        None => f64::NAN,
+                    })
+                    .collect()
+            }
+        }
+    }
+
     /// Closed-form fit on the points `idx` given precomputed predictors.
     pub fn linear(&self, x: &[f64], idx: &[usize]) -> Option<LinearFit> {
         least_squares(x, &self.observed, &self.kinds, idx)
@@ -304,8 +405,7 @@ impl<'a> Problem<'a> {
     /// −lnL at search coordinates `z` on the points `idx`; a huge finite number when the
     /// likelihood is not finite, so the simplex moves away instead of failing.
     pub fn cost(&self, z: &[f64], idx: &[usize]) -> f64 {
-        let x = self.predictors(&self.to_params(z));
-        match self.linear(&x, idx) {
+        match self.fit_linear(&self.to_params(z), idx) {
             Some(lin) => {
                 let nll = -lin.log_likelihood();
                 if nll.is_finite() {

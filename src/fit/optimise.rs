@@ -152,8 +152,7 @@ pub fn evaluate(
     evaluations: usize,
 ) -> Option<FitResult> {
     let params = problem.to_params(z);
-    let x = problem.predictors(&params);
-    let linear = problem.linear(&x, idx)?;
+    let linear = problem.fit_linear(&params, idx)?;
     let log_likelihood = linear.log_likelihood();
     if !log_likelihood.is_finite() || !linear.gain.is_finite() {
         return None;

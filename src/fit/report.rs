@@ -43,9 +43,10 @@ pub struct ParamRow {
 /// The rows of `params.csv`, in order: alpha, gamma (per bin), tau_s (seconds, −dt/ln γ),
 /// lambda (only when fitted), gain, baseline_cue, baseline_reward (when fitted).
 ///
-/// When γ's profile is flat the bootstrap interval of γ and τ is withheld (left empty): warm-
-/// started replicates barely move along a flat direction, so their spread would understate
-/// the uncertainty.
+/// When γ's profile is flat the bootstrap interval of γ and τ is withheld: warm-started
+/// replicates barely move along a flat direction, so their spread would understate the
+/// uncertainty. The profile-likelihood interval stands in for it; an end the profile never
+/// reaches is the range end (γ 0 or 1, τ 0 or infinity): a one-sided bound.
 pub fn param_rows(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -> Vec<ParamRow> {
     let gamma_flat = gamma_interval_withheld(out);
     let p = out.best.params;
@@ -65,13 +66,14 @@ pub fn param_rows(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -> Vec<
         rows.push(ParamRow {
             name: "gamma",
             estimate: p.gamma,
-            interval: iv(&|r| Some(r.params.gamma)).filter(|_| !gamma_flat),
+            interval: gamma_interval(out, gamma_flat, iv(&|r| Some(r.params.gamma))),
         });
-        // τ is monotone in γ, so its percentile interval is γ's mapped through.
+        // τ is monotone in γ, so its interval is γ's mapped through.
         rows.push(ParamRow {
             name: "tau_s",
             estimate: tau_s(p.gamma, dt),
-            interval: iv(&|r| Some(tau_s(r.params.gamma, dt))).filter(|_| !gamma_flat),
+            interval: gamma_interval(out, gamma_flat, iv(&|r| Some(r.params.gamma)))
+                .map(|(a, b)| (tau_s(a, dt), tau_s(b, dt))),
         });
         if lambda_fitted {
             rows.push(ParamRow {
@@ -111,7 +113,40 @@ impl ParamRow {
     }
 }
 
-/// γ's profile is flat and a bootstrap ran: its interval is not reported.
+/// γ's profile-likelihood interval, an unbounded end at γ's range end (0 or 1).
+pub fn gamma_profile_bounds(out: &FitOutcome) -> Option<(f64, f64)> {
+    let pi = out.gamma_profile.as_ref()?.interval?;
+    Some((pi.lower.unwrap_or(0.0), pi.upper.unwrap_or(1.0)))
+}
+
+/// γ's reported interval: the profile-likelihood one when the profile is flat (the bootstrap's
+/// is withheld), else the envelope of the bootstrap percentile and profile-likelihood
+/// intervals (either alone when the other is missing). The bootstrap's alone undercovered γ
+/// (80 % of 95 % intervals on simulated subjects; the profile's 95 %: tests/fit_coverage.rs).
+pub fn gamma_interval(
+    out: &FitOutcome,
+    flat: bool,
+    bootstrap: Option<(f64, f64)>,
+) -> Option<(f64, f64)> {
+    let profile = gamma_profile_bounds(out);
+    if flat {
+        return profile;
+    }
+    match (bootstrap, profile) {
+        (Some((a, b)), Some((c, d))) => Some((a.min(c), b.max(d))),
+        (x, None) | (None, x) => x,
+    }
+}
+
+/// γ's profile-likelihood interval lacks an end.
+pub fn gamma_one_sided(out: &FitOutcome) -> bool {
+    out.gamma_profile
+        .as_ref()
+        .and_then(|g| g.interval)
+        .is_some_and(|pi| pi.lower.is_none() || pi.upper.is_none())
+}
+
+/// γ's profile is flat and a bootstrap ran: its bootstrap interval is not reported.
 pub fn gamma_interval_withheld(out: &FitOutcome) -> bool {
     out.intervals.is_some() && out.gamma_profile.as_ref().is_some_and(|g| g.flat)
 }
@@ -199,6 +234,7 @@ pub fn text_report(
         data.dt
     );
     let _ = writeln!(s, "{}", fitted_and_fixed(out, data, lambda_fitted));
+    let _ = writeln!(s, "likelihood: {}", out.best.linear.likelihood.describe());
     if !ctx.observations.is_empty() {
         let _ = writeln!(s, "observations: {}", ctx.observations);
     }
@@ -235,7 +271,13 @@ pub fn text_report(
             _ => String::new(),
         };
         if matches!(r.name, "gamma" | "tau_s") && gamma_interval_withheld(out) {
-            unit.push_str(" (interval withheld: flat profile, see the warning)");
+            unit.push_str(if gamma_one_sided(out) {
+                " (one-sided profile-likelihood bound: flat profile, bootstrap interval \
+                 withheld, see the warning)"
+            } else {
+                " (profile-likelihood interval: flat profile, bootstrap interval withheld, \
+                 see the warning)"
+            });
         }
         if r.excludes_estimate() {
             unit.push_str(" (! interval excludes the estimate: see the note below)");
@@ -247,6 +289,19 @@ pub fn text_report(
             num(r.estimate),
             lo,
             hi
+        );
+    }
+    if out
+        .gamma_profile
+        .as_ref()
+        .is_some_and(|g| g.interval.is_some())
+        && !gamma_interval_withheld(out)
+        && out.intervals.is_some()
+    {
+        let _ = writeln!(
+            s,
+            "  γ and tau_s: the envelope of the bootstrap percentile and the profile-likelihood \
+             intervals (the bootstrap's alone undercovers γ)."
         );
     }
     if rows.iter().any(ParamRow::excludes_estimate) {
@@ -316,8 +371,12 @@ pub fn fitted_and_fixed(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -
         crate::util::fmt_f64(data.dt)
     ));
     fixed.push(format!("representation {}", out.model.name()));
+    let profiled = match out.best.linear.likelihood {
+        super::Likelihood::Gaussian => "least squares",
+        super::Likelihood::Poisson => "Poisson maximum likelihood",
+    };
     format!(
-        "fitted: {learning} (multi-start Nelder–Mead), gain and baselines (least squares); \
+        "fitted: {learning} (multi-start Nelder–Mead), gain and baselines ({profiled}); \
          fixed: {}",
         fixed.join(", ")
     )
@@ -341,8 +400,9 @@ fn write_comparison(s: &mut String, out: &FitOutcome, data: &FitData, lambda_fit
     };
     let _ = writeln!(
         s,
-        "Model comparison (same {} observations; k counts learning parameters, gain, baselines, σ; {holdout_note}):",
-        out.n_included
+        "Model comparison (same {} observations; k counts learning parameters, gain, baselines{}; {holdout_note}):",
+        out.n_included,
+        if out.best.linear.likelihood == super::Likelihood::Gaussian { ", σ" } else { "" }
     );
     let _ = writeln!(
         s,

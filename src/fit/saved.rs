@@ -2,7 +2,7 @@
 //! and `summary` find them.
 
 use super::dataset::{self, FitData, SensorKernel};
-use super::{LearnParams, ModelSpec, Problem};
+use super::{LearnParams, Likelihood, ModelSpec, Problem};
 use crate::model::{Representation, TrialSpan};
 use crate::obs::{event_bins, window_delta_sums, ObsOptions, Signal, WindowDeltas};
 use serde::{Deserialize, Serialize};
@@ -65,6 +65,9 @@ pub struct SavedFit {
     pub sensor_rise_s: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub sensor_decay_s: Option<f64>,
+    /// `gaussian` or `poisson` (absent: gaussian, as in files written before Poisson fits).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub likelihood: Option<String>,
 }
 
 impl SavedFit {
@@ -104,7 +107,23 @@ impl SavedFit {
             gamma: self.gamma,
             lambda: self.lambda,
         };
-        let x = Problem::new(data, model, false, self.lambda).predictors(&params);
+        let likelihood = match self.likelihood.as_deref() {
+            None => Likelihood::Gaussian,
+            Some(l) => Likelihood::parse(l)?,
+        };
+        let problem = Problem::new(data, model, false, self.lambda).with_likelihood(likelihood);
+        if likelihood == Likelihood::Poisson {
+            let lin = super::LinearFit {
+                gain: self.gain,
+                baselines: [self.baselines.cue, self.baselines.reward],
+                rss: 0.0,
+                n: 0,
+                likelihood,
+                loglik: f64::NAN,
+            };
+            return Some(problem.predict_responses(&params, &lin));
+        }
+        let x = problem.predictors(&params);
         let baselines = [self.baselines.cue, self.baselines.reward];
         Some(
             data.points

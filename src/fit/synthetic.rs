@@ -162,3 +162,104 @@ pub fn fit_data(spec: &SyntheticSpec) -> (Subject, FitData) {
     let data = build(&subj, &obs, &opts, spec.dt, &[] as &[MarkState], false);
     (subj, data)
 }
+
+/// Spiking units for [`spike_fit_data`]: the population's per-unit rate in model bin k is
+/// max(0, baseline + gain·δ_k) (the rectified rate `simulate` draws spikes from).
+#[derive(Debug, Clone, PartialEq)]
+pub struct SpikeSpec {
+    pub units: usize,
+    pub baseline_hz: f64,
+    /// Extra spikes/s per unit δ in a bin.
+    pub gain_hz: f64,
+}
+
+impl Default for SpikeSpec {
+    fn default() -> Self {
+        SpikeSpec {
+            units: 6,
+            baseline_hz: 4.5,
+            gain_hz: 15.0,
+        }
+    }
+}
+
+/// Fitting data from spike counts: each window's count is Poisson with mean units × window
+/// length × the mean rectified rate over its bins, the pre-cue baseline count Poisson at the
+/// resting rate; `observed` is the rate difference (what `obs` measures) and
+/// [`FitData::counts`] holds the counts. The schedule and δ come from `spec` (its gain,
+/// baselines and noise are not used).
+pub fn spike_fit_data(spec: &SyntheticSpec, spikes: &SpikeSpec) -> (Subject, FitData) {
+    use super::likelihood::WindowCount;
+    use crate::fit::WindowKind;
+    use rand_distr::Poisson;
+    use std::collections::HashMap;
+    let subj = subject(spec);
+    let obs_opts = ObsOptions::default();
+    let spans = layout_subject(&subj, spec.dt);
+    let td = TdParams {
+        alpha: spec.alpha,
+        gamma: spec.gamma,
+        lambda: spec.lambda,
+        dt: spec.dt,
+        representation: spec.representation,
+    };
+    let run = run(&spans, subj.cue_names().len(), &td);
+    let mut rng = ChaCha8Rng::seed_from_u64(spec.seed ^ 0x5b1c_e5ed);
+    let units = spikes.units as f64;
+    let draw_count = |mean: f64, rng: &mut ChaCha8Rng| -> f64 {
+        if mean <= 0.0 {
+            0.0
+        } else {
+            Poisson::new(mean).expect("finite mean").sample(rng)
+        }
+    };
+    let mut counts: HashMap<(usize, WindowKind), WindowCount> = HashMap::new();
+    let base_exposure = units * (obs_opts.baseline.1 - obs_opts.baseline.0);
+    let obs: Vec<TrialObs> = spans
+        .iter()
+        .enumerate()
+        .map(|(i, span)| {
+            let delta = run.trial_delta(i);
+            let (cue_bin, reward_bin) = event_bins(span);
+            let base = draw_count(base_exposure * spikes.baseline_hz, &mut rng) / base_exposure;
+            let mut window = |kind: WindowKind, event: Option<usize>, w: (f64, f64)| {
+                let bins = window_bins(span, event?, w, obs_opts.latency, spec.dt);
+                if bins.is_empty() {
+                    return None;
+                }
+                let rate = delta[bins.clone()]
+                    .iter()
+                    .map(|d| (spikes.baseline_hz + spikes.gain_hz * d).max(0.0))
+                    .sum::<f64>()
+                    / bins.len() as f64;
+                let exposure = units * (w.1 - w.0);
+                let count = draw_count(exposure * rate, &mut rng);
+                counts.insert((i, kind), WindowCount { count, exposure });
+                Some(count / exposure - base)
+            };
+            let cue = window(WindowKind::Cue, cue_bin, obs_opts.cue_window);
+            let reward = window(WindowKind::Reward, reward_bin, obs_opts.reward_window);
+            let session = &subj.sessions[span.session];
+            let trial = &session.trials[span.trial];
+            let kind = TrialKind::of(session, trial).expect("cue or reward");
+            TrialObs {
+                session: span.session,
+                trial: span.trial,
+                cue,
+                reward,
+                omission: kind == TrialKind::Omission,
+                anticipatory_lick_rate: None,
+                kind,
+                events: Vec::new(),
+            }
+        })
+        .collect();
+    let mut data = build(&subj, &obs, &obs_opts, spec.dt, &[] as &[MarkState], false);
+    data.counts = Some(
+        data.points
+            .iter()
+            .map(|p| counts[&(p.span, p.kind)])
+            .collect(),
+    );
+    (subj, data)
+}

@@ -76,6 +76,8 @@ impl<'a> FitJob<'a> {
         if let Some(k) = m.kernel {
             data = dataset::with_sensor_kernel(data, k, &m.obs);
         }
+        // Spike counts per window, for the count likelihood (none for photometry).
+        data.counts = dataset::spike_counts(&data, subject, &m.obs);
         Ok(FitJob {
             subject,
             request,
@@ -188,6 +190,7 @@ fn saved_record(
         baseline_window_s: Some([o.baseline.0, o.baseline.1]),
         sensor_rise_s: m.kernel.map(|k| k.rise_s),
         sensor_decay_s: m.kernel.map(|k| k.decay_s),
+        likelihood: Some(outcome.best.linear.likelihood.name().to_string()),
     }
 }
 

@@ -8,6 +8,7 @@
 
 use super::state::SignalKind;
 use crate::data::{Session, Subject};
+use crate::fit;
 use crate::fit::saved::{fitted_window_deltas, SAVED_FIT_FILE};
 use crate::marks::MarkState;
 use crate::model::{self, layout_subject, TdParams, TdRun, TrialSpan, POST_S};
@@ -35,12 +36,43 @@ impl ParamSource {
     }
 }
 
-/// The saved fit's readout mapping, when there is one: prediction = baseline + gain·Σδ.
+/// The saved fit's readout mapping, when there is one: prediction = baseline + gain·Σδ
+/// (Gaussian), or the window's mean softplus rate minus the resting rate (Poisson counts).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Readout {
     pub cue_baseline: f64,
     pub reward_baseline: f64,
     pub gain: f64,
+    pub poisson: bool,
+}
+
+impl Readout {
+    /// Predicted responses of one span's windows, in the units of the observed responses.
+    fn predict(
+        &self,
+        span: &TrialSpan,
+        delta: &[f64],
+        sums: WindowDeltas,
+        obs: &ObsOptions,
+        dt: f64,
+    ) -> WindowDeltas {
+        if !self.poisson {
+            return WindowDeltas {
+                cue: sums.cue.map(|d| self.cue_baseline + self.gain * d),
+                reward: sums.reward.map(|d| self.reward_baseline + self.gain * d),
+            };
+        }
+        let window = |event: Option<usize>, w: (f64, f64), b: f64| -> Option<f64> {
+            let r = obs::window_bins(span, event?, w, obs.latency, dt);
+            let r = r.start.min(delta.len())..r.end.min(delta.len());
+            (!r.is_empty()).then(|| fit::likelihood::predicted_response(&delta[r], b, self.gain))
+        };
+        let (cue, reward) = obs::event_bins(span);
+        WindowDeltas {
+            cue: window(cue, obs.cue_window, self.cue_baseline),
+            reward: window(reward, obs.reward_window, self.reward_baseline),
+        }
+    }
 }
 
 /// The parameters in force and what goes with them.
@@ -97,6 +129,7 @@ impl ModelSettings {
             cue_baseline: f.baselines.cue.unwrap_or(0.0),
             reward_baseline: f.baselines.reward.unwrap_or(0.0),
             gain: f.gain,
+            poisson: f.likelihood.as_deref() == Some("poisson"),
         };
         Ok(ModelSettings {
             params: c.params,
@@ -142,6 +175,8 @@ pub struct ModelView {
     pub span_of: Vec<Vec<Option<usize>>>,
     /// Per span, δ summed over the cue and reward observation windows.
     pub window_deltas: Vec<WindowDeltas>,
+    /// Per span, the saved fit's predicted cue and reward responses; Σδ without a fit.
+    pub predicted: Vec<WindowDeltas>,
     /// The observation windows those sums use.
     /// What is measured (signal, windows, sensor kernel), as the core plan decided it.
     pub measurement: Measurement,
@@ -166,6 +201,14 @@ impl ModelView {
             .iter()
             .enumerate()
             .map(|(i, s)| fitted_window_deltas(kernel, s, run.trial_delta(i), obs, params.dt))
+            .collect::<Vec<_>>();
+        let predicted = spans
+            .iter()
+            .enumerate()
+            .map(|(i, s)| match &settings.readout {
+                Some(r) => r.predict(s, run.trial_delta(i), window_deltas[i], obs, params.dt),
+                None => window_deltas[i],
+            })
             .collect();
         ModelView {
             params,
@@ -176,6 +219,7 @@ impl ModelView {
             run,
             span_of,
             window_deltas,
+            predicted,
             measurement: m.clone(),
         }
     }

@@ -78,13 +78,7 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
     );
     let readout = m.readout;
     let pred_head = if readout.is_some() { "pred" } else { "sum d" };
-    // With a saved fit: baseline + gain·Σδ; without one the raw Σδ (no readout to apply).
-    let predicted = |d: Option<f64>, cue: bool| -> Option<f64> {
-        match readout {
-            Some(r) => d.map(|d| if cue { r.cue_baseline } else { r.reward_baseline } + r.gain * d),
-            None => d,
-        }
-    };
+    // With a saved fit its predicted responses; without one the raw Σδ (`ModelView::predicted`).
     y += 1;
     if m.readout.is_none() {
         line(
@@ -101,7 +95,7 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         );
     }
     if area.height >= 30 {
-        render_sparks(buf, area, &mut y, state, theme, &predicted);
+        render_sparks(buf, area, &mut y, state, theme);
     }
     let header = format!(
         "{:>6} {:<7} {:>9} {:>9}   {:>9} {:>9}",
@@ -131,12 +125,12 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
     let shown = |ti: usize| {
         state.span_of(ti).into_iter().flat_map(move |i| {
             let o = state.obs[i].as_ref();
-            let w = m.window_deltas[i];
+            let w = m.predicted[i];
             [
                 o.and_then(|o| o.cue),
                 o.and_then(|o| o.reward),
-                predicted(w.cue, true),
-                predicted(w.reward, false),
+                w.cue,
+                w.reward,
             ]
         })
     };
@@ -145,7 +139,7 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         let trial = &session.trials[ti];
         let dy = dy as u16;
         let (obs, wd) = match state.span_of(ti) {
-            Some(i) => (state.obs[i].as_ref(), Some(m.window_deltas[i])),
+            Some(i) => (state.obs[i].as_ref(), Some(m.predicted[i])),
             None => (None, None),
         };
         let (glyph, role) = theme.mark_glyph(state.mark_of(trial.number).map(|t| t.kind));
@@ -154,9 +148,9 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
             trial.number,
             outcome_tag(crate::obs::TrialKind::of(session, trial)),
             num(obs.and_then(|o| o.cue), dec),
-            num(predicted(wd.and_then(|w| w.cue), true), dec),
+            num(wd.and_then(|w| w.cue), dec),
             num(obs.and_then(|o| o.reward), dec),
-            num(predicted(wd.and_then(|w| w.reward), false), dec),
+            num(wd.and_then(|w| w.reward), dec),
         );
         let current = ti == state.trial;
         if current {
@@ -174,14 +168,7 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
 
 /// Observed and predicted responses across the session's trials, one line each (excluded
 /// trials are gaps; each line is scaled to its own range, so compare shapes, not heights).
-fn render_sparks(
-    buf: &mut Buffer,
-    area: Rect,
-    y: &mut u16,
-    state: &State,
-    theme: &Theme,
-    predicted: &dyn Fn(Option<f64>, bool) -> Option<f64>,
-) {
+fn render_sparks(buf: &mut Buffer, area: Rect, y: &mut u16, state: &State, theme: &Theme) {
     let session = state.current_session();
     let n = session.trials.len();
     let series = |f: &dyn Fn(usize) -> Option<f64>| -> Vec<f64> {
@@ -208,8 +195,12 @@ fn render_sparks(
         }
     };
     let pred = |ti: usize, cue: bool| {
-        let w = state.model.window_deltas[state.span_of(ti)?];
-        predicted(if cue { w.cue } else { w.reward }, cue)
+        let w = state.model.predicted[state.span_of(ti)?];
+        if cue {
+            w.cue
+        } else {
+            w.reward
+        }
     };
     let width = area.width.saturating_sub(18) as usize;
     let lines: [(&str, Vec<f64>); 4] = [
