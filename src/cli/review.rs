@@ -245,7 +245,7 @@ pub fn run(args: Args) -> CmdResult {
     match (result, rescued) {
         (Ok(()), None) => Ok(0),
         (Ok(()), Some(lines)) => Err(CliError::failed(lines)),
-        (Err(e), None) => Err(CliError::failed(e)),
+        (Err(e), None) => Err(CliError::failed(e.to_string())),
         (Err(e), Some(lines)) => Err(CliError::failed(format!("{e}\n{lines}"))),
     }
 }

@@ -181,7 +181,7 @@ pub fn config(args: &Args) -> Result<SimConfig, CliError> {
         c.schedule.trials_per_day = d.phases.iter().map(|p| p.trials_per_day).max().unwrap_or(1);
         c.design = Some(d);
     }
-    c.validate().map_err(CliError::usage)?;
+    c.validate().map_err(|e| CliError::usage(e.to_string()))?;
     Ok(c)
 }
 
@@ -209,7 +209,7 @@ fn photometry_on<'a>(
 
 pub fn run(args: Args) -> CmdResult {
     let config = config(&args)?;
-    let sim = simulate::simulate(&config).map_err(CliError::failed)?;
+    let sim = simulate::simulate(&config).map_err(|e| CliError::failed(e.to_string()))?;
     simulate::write_subject(&sim, &args.out, args.force)
         .map_err(|e| CliError::failed(e.to_string()))?;
     let trials: usize = sim.subject.sessions.iter().map(|s| s.trials.len()).sum();

@@ -98,9 +98,17 @@ fn one() -> f64 {
 
 impl Design {
     /// Parse and validate a design file's text; errors name the phase and trial type.
-    pub fn parse(text: &str) -> Result<Design, String> {
-        let d: Design = toml::from_str(text).map_err(|e| e.message().trim().to_string())?;
-        d.validate()?;
+    pub fn parse(text: &str) -> Result<Design, super::SimError> {
+        let d: Design = toml::from_str(text).map_err(|e| super::SimError::Design {
+            line: e
+                .span()
+                .map(|s| crate::util::line_at(text.as_bytes(), s.start)),
+            message: e.message().trim().replace('\n', " "),
+        })?;
+        d.validate().map_err(|message| super::SimError::Design {
+            line: None,
+            message,
+        })?;
         Ok(d)
     }
 
@@ -376,7 +384,7 @@ rewards = [{ at_s = 1.5, size = 2.0 }, { at_s = 2.0, size = 1.0, p = 0.0 }]
             "{ name = \"light-b\", off_s = 1.0 }",
             "{ name = \"odour\" }",
         );
-        let e = Design::parse(&undeclared).unwrap_err();
+        let e = Design::parse(&undeclared).unwrap_err().to_string();
         assert!(
             e.contains("trial type \"AB+\": cue \"odour\" is not declared"),
             "{e}"

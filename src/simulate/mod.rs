@@ -112,8 +112,30 @@ pub fn round_time(t: f64) -> f64 {
     (t * 1e4).round() / 1e4
 }
 
+/// Why a simulation cannot run. Settings are checked before anything is drawn, so every
+/// error is about what was asked, never a half-written subject.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum SimError {
+    /// An option or setting out of range or malformed (the message names it).
+    #[error("{0}")]
+    Setting(String),
+    /// The design file: its line when the TOML parser gives one, and what is wrong.
+    #[error("{}{message}", line.map(|l| format!("line {l}: ")).unwrap_or_default())]
+    Design {
+        line: Option<usize>,
+        message: String,
+    },
+}
+
+/// The checks inside the simulator word their findings; each becomes a setting error.
+impl From<String> for SimError {
+    fn from(message: String) -> Self {
+        SimError::Setting(message)
+    }
+}
+
 /// Run the whole simulation in memory.
-pub fn simulate(config: &SimConfig) -> Result<Simulated, String> {
+pub fn simulate(config: &SimConfig) -> Result<Simulated, SimError> {
     config.validate()?;
     let mut injected = Vec::new();
     let (plan, mut subject) = match &config.design {
@@ -212,7 +234,7 @@ pub fn simulate(config: &SimConfig) -> Result<Simulated, String> {
 
 impl SimConfig {
     /// Reject parameters that would make a meaningless or endless simulation.
-    pub fn validate(&self) -> Result<(), String> {
+    pub fn validate(&self) -> Result<(), SimError> {
         let s = &self.schedule;
         let t = &self.td;
         let check = |ok: bool, what: &str| if ok { Ok(()) } else { Err(what.to_string()) };

@@ -135,6 +135,15 @@ pub fn draw<B: Backend>(terminal: &mut Terminal<B>, state: &State) -> Result<(),
     Ok(())
 }
 
+/// Why the reviewer's loop ended early: the terminal could not be drawn on or read.
+#[derive(Debug, thiserror::Error)]
+pub enum LoopError {
+    #[error("terminal: {0}")]
+    Draw(String),
+    #[error(transparent)]
+    Input(super::input::Gone),
+}
+
 /// Run until quit, until `stop` is raised (SIGTERM/SIGHUP), or until the terminal goes away
 /// (its input hangs up, ends or fails; drawing fails). Waits for input at most a quarter of a
 /// second at a time, so the stop flag is seen promptly, and never retries a failing terminal.
@@ -144,11 +153,11 @@ pub fn run_loop<B: Backend>(
     state: &mut State,
     stop: &AtomicBool,
     mut follower: Option<Follower>,
-) -> Result<(), String>
+) -> Result<(), LoopError>
 where
     B::Error: std::fmt::Display,
 {
-    let err = |e: &dyn std::fmt::Display| format!("terminal: {e}");
+    let err = |e: &dyn std::fmt::Display| LoopError::Draw(e.to_string());
     draw(terminal, state).map_err(|e| err(&e))?;
     let mut last_refresh = Instant::now();
     while !state.quit && !stop.load(Ordering::Relaxed) {
@@ -156,7 +165,7 @@ where
             .saturating_sub(last_refresh.elapsed())
             .min(Duration::from_millis(250));
         let mut dirty = false;
-        match input.wait(wait).map_err(|e| e.to_string())? {
+        match input.wait(wait).map_err(LoopError::Input)? {
             Input::Keys(keys) => {
                 for key in &keys {
                     handle_key(state, key);

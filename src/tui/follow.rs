@@ -27,13 +27,17 @@ impl Follower {
     /// Follow `session` (index `index`) from the current end of its trials, spikes and licks
     /// files. A file missing now is not picked up later (the rig writes all three from the
     /// start); a header that cannot be read is an error.
-    pub fn start(index: usize, session: &Session, settings: ModelSettings) -> Result<Self, String> {
+    pub fn start(
+        index: usize,
+        session: &Session,
+        settings: ModelSettings,
+    ) -> Result<Self, crate::data::Diagnostic> {
         let mut tails = Vec::new();
         for kind in [TableKind::Trials, TableKind::Spikes, TableKind::Licks] {
             match Tail::at_end(&session.dir, kind, &session.meta) {
                 Ok(Some(t)) => tails.push(t),
                 Ok(None) => {}
-                Err(d) => return Err(d.to_string()),
+                Err(d) => return Err(d),
             }
         }
         Ok(Follower {
