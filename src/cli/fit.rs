@@ -167,6 +167,8 @@ pub(crate) struct SubjectFit {
     pub n_excluded: usize,
     /// The fit is done but `trialdesk-fit.toml` could not be written beside the data.
     pub save_error: Option<String>,
+    /// The saved fit this one replaced was made with other options (what differed).
+    pub replaced: Option<String>,
 }
 
 /// Load, observe, fit and report one subject (or session) folder; writes the tables into
@@ -242,9 +244,28 @@ pub(crate) fn fit_subject(
         ));
     }
     let mut save_error = None;
+    let mut replaced = None;
     if !args.no_save {
+        // A saved fit made another way (other signal, windows, likelihood...) is replaced
+        // knowingly: say what differed, so a fit run one folder off is noticed.
+        let before = saved::load_saved(&subject.root).and_then(Result::ok);
         match saved::save(&subject.root, &run.saved) {
-            Ok(path) => text.push_str(&format!("Fitted parameters saved to {}\n", path.display())),
+            Ok(path) => {
+                text.push_str(&format!("Fitted parameters saved to {}\n", path.display()));
+                if let Some(old) = before {
+                    let changes = saved::option_changes(&old, &run.saved);
+                    if !changes.is_empty() {
+                        let line = format!(
+                            "{} replaced a fit of {} made with other options: {}",
+                            path.display(),
+                            crate::text::for_text(&old.fitted_at),
+                            changes.join(", ")
+                        );
+                        text.push_str(&format!("Note: {line}\n"));
+                        replaced = Some(line);
+                    }
+                }
+            }
             Err(e) => {
                 save_error = Some(format!(
                     "fit done, but not saved: {e} (the report is complete; \
@@ -260,6 +281,7 @@ pub(crate) fn fit_subject(
         n_excluded: run.n_excluded,
         outcome: run.outcome,
         save_error,
+        replaced,
     })
 }
 

@@ -256,6 +256,60 @@ pub fn save(subject_root: &Path, fit: &SavedFit) -> Result<PathBuf, SavedFitErro
     Ok(path)
 }
 
+/// What makes `new` a different analysis from `old` (besides the fitted values): signal,
+/// unit, windows, latency, sensor kernel, likelihood, representation, bin width, whether marks
+/// were honoured. Each as "field old -> new"; empty when they were made the same way.
+pub fn option_changes(old: &SavedFit, new: &SavedFit) -> Vec<String> {
+    fn show<T: std::fmt::Debug>(v: &Option<T>) -> String {
+        match v {
+            Some(x) => format!("{x:?}").replace('"', ""),
+            None => "unset".to_string(),
+        }
+    }
+    let mut out = Vec::new();
+    let mut field = |name: &str, a: String, b: String| {
+        if a != b {
+            out.push(format!("{name} {a} -> {b}"));
+        }
+    };
+    field("signal", show(&old.signal), show(&new.signal));
+    field("unit", show(&old.unit), show(&new.unit));
+    field(
+        "cue window",
+        show(&old.cue_window_s),
+        show(&new.cue_window_s),
+    );
+    field(
+        "reward window",
+        show(&old.reward_window_s),
+        show(&new.reward_window_s),
+    );
+    field(
+        "baseline window",
+        show(&old.baseline_window_s),
+        show(&new.baseline_window_s),
+    );
+    field("latency", show(&old.latency_s), show(&new.latency_s));
+    field(
+        "sensor decay",
+        show(&old.sensor_decay_s),
+        show(&new.sensor_decay_s),
+    );
+    field("likelihood", show(&old.likelihood), show(&new.likelihood));
+    field(
+        "representation",
+        old.representation.clone(),
+        new.representation.clone(),
+    );
+    field("dt", old.dt.to_string(), new.dt.to_string());
+    field(
+        "ignore marks",
+        old.ignore_marks.to_string(),
+        new.ignore_marks.to_string(),
+    );
+    out
+}
+
 /// Now as RFC 3339 UTC, seconds precision.
 pub fn now_rfc3339() -> String {
     humantime::format_rfc3339_seconds(std::time::SystemTime::now()).to_string()

@@ -126,6 +126,21 @@ pub(super) fn run(args: &Args, opts: &FitOptions, which: Shard) -> CmdResult {
             None => ": fit one subject folder, or add --out DIR".to_string(),
         }
     );
+    let replaced: Vec<&String> = run
+        .results
+        .iter()
+        .filter_map(|r| r.result.as_ref().ok()?.replaced.as_ref())
+        .collect();
+    if !replaced.is_empty() {
+        let _ = writeln!(
+            s,
+            "Saved fits replaced that were made with other options ({}):",
+            replaced.len()
+        );
+        for r in replaced {
+            let _ = writeln!(s, "  {r}");
+        }
+    }
     if let Some(dir) = &args.out {
         let _ = writeln!(
             s,
