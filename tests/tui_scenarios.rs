@@ -483,3 +483,40 @@ fn photometry_traces_are_built_once_per_session() {
     assert_eq!(st.signal, trialdesk::tui::state::SignalKind::Photometry);
     assert_eq!(st.view.label, "cached");
 }
+
+/// A journal locked by a stuck process: the mark is kept in memory with a NOT SAVED line that
+/// names the lock (never a stale "saved:"), and it is written on the first refresh after the
+/// lock is released.
+#[test]
+fn a_stuck_lock_is_reported_and_the_mark_kept_until_it_is_released() {
+    let (_tmp, dir) = fixture_copy();
+    let path = dir.join(DAY1).join("marks.csv");
+    let mut st = state(&dir);
+    let holder = std::fs::OpenOptions::new()
+        .read(true)
+        .append(true)
+        .create(true)
+        .open(&path)
+        .unwrap();
+    holder.lock().unwrap();
+    press(&mut st, "x2");
+    assert_eq!(st.status.tone, Tone::Error, "{}", st.status.text);
+    assert!(
+        st.status.text.starts_with("NOT SAVED"),
+        "{}",
+        st.status.text
+    );
+    assert!(
+        st.status.text.contains("locked by another process"),
+        "{}",
+        st.status.text
+    );
+    assert_eq!(st.sessions[0].marks.unsaved.len(), 1);
+    holder.unlock().unwrap();
+    update(&mut st, Action::RefreshMarks);
+    assert!(st.sessions[0].marks.unsaved.is_empty());
+    assert_eq!(st.status.tone, Tone::Saved, "{}", st.status.text);
+    assert!(std::fs::read_to_string(&path)
+        .unwrap()
+        .contains(",exclude,"));
+}

@@ -36,6 +36,17 @@ const WRITE_LOCK_WAIT: std::time::Duration = std::time::Duration::from_secs(10);
 /// survives a power cut). A torn tail from an earlier interrupted write is sealed first.
 /// Refuses a journal whose columns are not in the order it writes.
 pub fn append(session_dir: &Path, row: &MarkRow) -> Result<(), MarksError> {
+    append_within(session_dir, row, WRITE_LOCK_WAIT)
+}
+
+/// [`append`], waiting at most `wait` for another writer's lock. The reviewer waits a
+/// fraction of a second and keeps the row in memory (retried every second) rather than freeze
+/// while a stuck process holds the journal.
+pub fn append_within(
+    session_dir: &Path,
+    row: &MarkRow,
+    wait: std::time::Duration,
+) -> Result<(), MarksError> {
     let path = session_dir.join(MARKS_FILE);
     let line = encode_row(row).map_err(|m| MarksError::invalid(&path, m))?;
     safety::check_entry(&path)?;
@@ -49,7 +60,7 @@ pub fn append(session_dir: &Path, row: &MarkRow) -> Result<(), MarksError> {
     // The entry may have changed between the look and the open: check what was opened.
     let opened = file.metadata().map_err(|e| MarksError::io(&path, e))?;
     safety::check_meta(&path, &opened)?;
-    lock_within(&file, &path, WRITE_LOCK_WAIT, false).map_err(|e| match e {
+    lock_within(&file, &path, wait, false).map_err(|e| match e {
         MarksError::Invalid { path, message } => MarksError::Invalid {
             path,
             message: format!("{message}; the mark was not saved"),

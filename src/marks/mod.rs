@@ -43,7 +43,7 @@ mod csvline;
 mod read;
 mod safety;
 
-pub use append::{append, encode_row, journal_text, now_rfc3339, reviewer_name};
+pub use append::{append, append_within, encode_row, journal_text, now_rfc3339, reviewer_name};
 pub use csvline::MAX_RECORD_BYTES;
 pub use read::{read_journal, MAX_JOURNAL_BYTES};
 

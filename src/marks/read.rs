@@ -74,6 +74,11 @@ impl Journal {
     /// how many rows were added. If the file was replaced or shortened it is read again from
     /// the start and the count is of all its rows. On error the journal is left as it was.
     pub fn refresh(&mut self) -> Result<usize, MarksError> {
+        self.refresh_within(READ_LOCK_WAIT)
+    }
+
+    /// [`Journal::refresh`], waiting at most `wait` for a writer's lock (best effort either way).
+    pub fn refresh_within(&mut self, wait: Duration) -> Result<usize, MarksError> {
         let path = self.path.clone();
         if super::safety::check_entry(&path)?.is_none() {
             *self = Journal {
@@ -90,7 +95,7 @@ impl Journal {
         // Best effort: without the lock (a file system without locks, or a writer stuck
         // holding it) the read may see a write in progress, reported as a torn tail and
         // picked up whole by the next refresh. Waiting forever would freeze the reviewer.
-        let _ = lock_within(&file, &path, READ_LOCK_WAIT, true);
+        let _ = lock_within(&file, &path, wait, true);
         let meta = file.metadata().map_err(|e| MarksError::io(&path, e))?;
         super::safety::check_meta(&path, &meta)?;
         let len = meta.len();
@@ -194,7 +199,7 @@ pub(crate) fn lock_within(
             path,
             format!(
                 "locked by another process for over {} s (a reviewer stuck mid-save?)",
-                wait.as_secs()
+                wait.as_secs_f64()
             ),
         )),
     }

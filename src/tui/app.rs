@@ -20,6 +20,11 @@ use std::time::{Duration, Instant};
 
 use super::keymap::Keymap;
 
+/// How long the reviewer waits for another process's lock on a journal before keeping a mark
+/// in memory (retried every second) or skipping one refresh: a stuck writer must not freeze
+/// the screen, and a normal writer holds the lock for milliseconds.
+pub const LOCK_WAIT: Duration = Duration::from_millis(250);
+
 /// How often other reviewers' rows are looked for.
 pub const REFRESH_EVERY: Duration = Duration::from_secs(1);
 

@@ -99,7 +99,7 @@ fn accept_all(state: &mut State, rule: &'static str, asked: usize) {
         if failure.is_none() {
             let trial = row.trial.unwrap_or_default();
             let before = state.mark_of(trial).cloned();
-            match marks::append(&dir, &row) {
+            match marks::append_within(&dir, &row, super::app::LOCK_WAIT) {
                 Ok(()) => {
                     saved += 1;
                     state.undo.push(UndoEntry {

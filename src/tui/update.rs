@@ -413,7 +413,7 @@ fn undo(state: &mut State) {
 /// Append one row durably; say "saved" only once `marks::append` has returned Ok.
 pub(super) fn save_row(state: &mut State, session: usize, row: MarkRow, what: &str) {
     let dir = state.subject.sessions[session].dir.clone();
-    match marks::append(&dir, &row) {
+    match marks::append_within(&dir, &row, super::app::LOCK_WAIT) {
         Ok(()) => {
             state.status = Status {
                 text: format!("saved: {what}"),
@@ -472,7 +472,7 @@ pub fn reread_journal(state: &mut State, session: usize) -> usize {
     if sm.journal.path.as_os_str().is_empty() {
         sm.journal.path = state.subject.sessions[session].dir.join(marks::MARKS_FILE);
     }
-    let added = match sm.journal.refresh() {
+    let added = match sm.journal.refresh_within(super::app::LOCK_WAIT) {
         Ok(n) => {
             sm.problem = sm.journal.torn_tail.as_ref().map(|(line, _)| {
                 format!("marks.csv line {line} is incomplete (torn write?); ignored")
@@ -500,7 +500,7 @@ fn refresh(state: &mut State) {
         let pending = std::mem::take(&mut state.sessions[si].marks.unsaved);
         let mut left = Vec::new();
         for row in pending {
-            if left.is_empty() && marks::append(&dir, &row).is_ok() {
+            if left.is_empty() && marks::append_within(&dir, &row, super::app::LOCK_WAIT).is_ok() {
                 retried += 1;
             } else {
                 left.push(row);
