@@ -389,6 +389,10 @@ fn saved_fit_parameters_are_used_and_labelled() {
     assert!(fit_screen.contains("alpha 0.2  gamma 0.95"), "{fit_screen}");
     assert!(fit_screen.contains("cue pred"), "{fit_screen}");
     assert!(
+        fit_screen.contains("R² ") && fit_screen.contains("response windows"),
+        "{fit_screen}"
+    );
+    assert!(
         fit_screen.contains("log-likelihood -12.5 over 40 observations"),
         "{fit_screen}"
     );

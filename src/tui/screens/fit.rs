@@ -64,6 +64,17 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         &format!("excluded trials now marked across the subject: {excluded}"),
         Role::Plain,
     );
+    if let (Some(_), Some((r2, n))) = (m.readout, r_squared(state)) {
+        line(
+            buf,
+            &mut y,
+            &theme.clean(&format!(
+                "R² {} over {n} response windows (observed vs predicted, today's marks)",
+                crate::util::fmt_sig(r2, 3)
+            )),
+            Role::Plain,
+        );
+    }
     line(
         buf,
         &mut y,
@@ -230,4 +241,39 @@ fn render_sparks(buf: &mut Buffer, area: Rect, y: &mut u16, state: &State, theme
         *y += 1;
     }
     *y += 1;
+}
+
+/// R² of the saved fit's predictions against the observed responses, over every window of the
+/// subject whose trial is not marked exclude now: 1 − Σ(obs − pred)² / Σ(obs − mean)².
+fn r_squared(state: &State) -> Option<(f64, usize)> {
+    let m = &state.model;
+    let mut pairs = Vec::new();
+    for (si, per_trial) in m.span_of.iter().enumerate() {
+        let session = &state.subject.sessions[si];
+        let marks = &state.sessions[si].marks.state;
+        for (ti, span) in per_trial.iter().enumerate() {
+            let Some(i) = *span else { continue };
+            if marks.is_excluded(session.trials[ti].number) {
+                continue;
+            }
+            let (Some(o), p) = (state.obs[i].as_ref(), m.predicted[i]) else {
+                continue;
+            };
+            for (obs, pred) in [(o.cue, p.cue), (o.reward, p.reward)] {
+                if let (Some(a), Some(b)) = (obs, pred) {
+                    if a.is_finite() && b.is_finite() {
+                        pairs.push((a, b));
+                    }
+                }
+            }
+        }
+    }
+    let n = pairs.len();
+    if n < 3 {
+        return None;
+    }
+    let mean = pairs.iter().map(|p| p.0).sum::<f64>() / n as f64;
+    let ss_tot: f64 = pairs.iter().map(|p| (p.0 - mean).powi(2)).sum();
+    let ss_res: f64 = pairs.iter().map(|p| (p.0 - p.1).powi(2)).sum();
+    (ss_tot > 0.0).then(|| (1.0 - ss_res / ss_tot, n))
 }
