@@ -133,18 +133,38 @@ pub fn spark(values: &[f64], width: usize, theme: &Theme) -> String {
         .collect()
 }
 
+/// What the columns hold: which cue, in which unit, and what d is.
+fn caption(state: &State, cue: Option<&str>) -> String {
+    let unit = match state.model.measurement.obs.signal {
+        crate::obs::Signal::Photometry => "ΔF/F",
+        crate::obs::Signal::Spikes { .. } => "spikes/s",
+    };
+    format!(
+        "cue {} | responses: {unit} above baseline | licks/s | d: model δ sum",
+        cue.unwrap_or("-")
+    )
+}
+
 pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
     put(buf, area, 1, 0, HEADER, theme.style(Role::Title));
-    let curves = 5u16.min(area.height.saturating_sub(3));
-    let table_h = area.height.saturating_sub(1 + curves);
+    let cue = main_cue(state);
+    put(
+        buf,
+        area,
+        1,
+        1,
+        &theme.clean(&caption(state, cue.as_deref())),
+        theme.style(Role::Dim),
+    );
+    let curves = 5u16.min(area.height.saturating_sub(4));
+    let table_h = area.height.saturating_sub(2 + curves);
     let rows = table_h as usize;
     let n = state.days.len();
     let first = state
         .session
         .saturating_sub(rows / 2)
         .min(n.saturating_sub(rows));
-    let table = Rect::new(area.x, area.y + 1, area.width, table_h);
-    let cue = main_cue(state);
+    let table = Rect::new(area.x, area.y + 2, area.width, table_h);
     let dec = Decimals::of(&state.days, cue.as_deref());
     for (dy, (si, d)) in state
         .days
@@ -176,7 +196,7 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
     if curves == 0 {
         return;
     }
-    let cy = area.y + 1 + table_h;
+    let cy = area.y + 2 + table_h;
     let box_area = Rect::new(area.x, cy, area.width, curves);
     let w = area.width.saturating_sub(24) as usize;
     let by_day = |f: &dyn Fn(&DayRow) -> Option<f64>| -> Vec<f64> {
