@@ -347,7 +347,7 @@ fn accept_reject_and_accept_all_suggestions() {
         suggested_on_screen(&pane.wait_for("a suggestion", |s| s.contains(": suggested ")));
     pane.send(&["y"]);
     pane.wait_for("saved accept", |s| {
-        s.contains(&format!("saved: trial {accepted} excluded ({rule_a})"))
+        s.contains(&format!("saved: trial {accepted} suspect ({rule_a})"))
     });
 
     pane.send(&["f"]);
@@ -363,7 +363,7 @@ fn accept_reject_and_accept_all_suggestions() {
     pane.send(&["Y"]);
     pane.wait_for("the accept-all question", |s| s.contains("accept all?"));
     pane.send(&["y"]);
-    let s = pane.wait_for("saved accept-all", |s| s.contains("trial(s) excluded ("));
+    let s = pane.wait_for("saved accept-all", |s| s.contains("trial(s) suspect ("));
     let n_all: usize = s
         .lines()
         .find_map(|l| l.split("saved: ").nth(1)?.split(' ').next()?.parse().ok())
@@ -387,7 +387,7 @@ fn accept_reject_and_accept_all_suggestions() {
     assert_eq!(rows.len(), 2 + n_all, "{rows:?}");
     assert_eq!(
         rows[0],
-        (accepted, "exclude", rule_a.as_str(), "e2e-reviewer")
+        (accepted, "suspect", rule_a.as_str(), "e2e-reviewer")
     );
     let reject_reason = format!("reject:{rule_r}");
     assert_eq!(
@@ -397,20 +397,22 @@ fn accept_reject_and_accept_all_suggestions() {
     for r in &rows[2..] {
         assert_eq!(
             (r.1, r.2, r.3),
-            ("exclude", rule_all.as_str(), "e2e-reviewer")
+            ("suspect", rule_all.as_str(), "e2e-reviewer")
         );
     }
-    // Accepted, rejected and accepted-all ones are no longer pending; an excluded trial
-    // settles every rule's suggestion on it, so `check` counts at least that many fewer.
+    // Accepted, rejected and accepted-all ones are no longer pending (a suspect accept settles
+    // its own rule's suggestion), so `check` counts at least that many fewer.
     let loaded = trialdesk::data::load(&pane.subject).unwrap();
     let pending = trialdesk::suggest::pending_for_session(
         &loaded.subject.sessions[0],
         &trialdesk::suggest::RuleSet::default(),
     )
     .unwrap();
-    assert!(pending.iter().all(|p| p.trial != accepted
-        && !(p.trial == rejected && p.rule == rule_r)
-        && p.rule != rule_all));
+    assert!(pending
+        .iter()
+        .all(|p| !(p.trial == accepted && p.rule == rule_a)
+            && !(p.trial == rejected && p.rule == rule_r)
+            && p.rule != rule_all));
     let after = pending_count(&pane.subject);
     assert_eq!(after, pending.len());
     assert!(after <= before - 2 - n_all, "{before} -> {after}");

@@ -67,13 +67,14 @@ fn accept_reject_and_accept_all_settle_suggestions() {
         |s| s.trial == late[0].trial || s.trial == late[1].trial && s.rule == "late_first_lick"
     ));
 
-    // The sidecar holds ordinary rows: the accept is an exclude with the rule id as reason.
+    // The sidecar holds ordinary rows: the accept is a mark of the rules' kind (suspect by
+    // default) with the rule id as reason.
     let journal = read_journal(&session.dir).unwrap();
     let state = journal.state();
     let m = &state.marks[&late[0].trial];
     assert_eq!(
         (m.kind, m.reason.as_str()),
-        (MarkKind::Exclude, "late_first_lick")
+        (MarkKind::Suspect, "late_first_lick")
     );
     assert!(m.note.starts_with("first lick "), "{}", m.note);
     assert!(state

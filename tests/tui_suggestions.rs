@@ -92,13 +92,13 @@ fn accept_writes_an_ordinary_mark_whose_reason_is_the_rule() {
     assert_eq!(st.status.tone, Tone::Saved, "{}", st.status.text);
     assert_eq!(
         st.status.text,
-        format!("saved: trial {} excluded ({})", s.trial, s.rule)
+        format!("saved: trial {} suspect ({})", s.trial, s.rule)
     );
     assert_eq!(
         journal(&dir),
         [(
             Some(s.trial),
-            MarkKind::Exclude,
+            MarkKind::Suspect,
             s.rule.to_string(),
             s.reason.clone(),
             "tester".to_string()
@@ -106,7 +106,7 @@ fn accept_writes_an_ordinary_mark_whose_reason_is_the_rule() {
     );
     assert!(std::fs::read_to_string(session_dir(&dir).join("marks.csv"))
         .unwrap()
-        .contains(&format!("{},exclude,{},", s.trial, s.rule)));
+        .contains(&format!("{},suspect,{},", s.trial, s.rule)));
     // Settled: no longer pending; every other suggestion still is.
     assert!(st.suggestions_of(s.trial).is_empty());
     let rest: Vec<_> = all.iter().filter(|x| x.trial != s.trial).cloned().collect();
@@ -175,14 +175,14 @@ fn accept_all_asks_with_the_count_then_writes_each() {
     assert_eq!(st.status.tone, Tone::Saved, "{}", st.status.text);
     assert_eq!(
         st.status.text,
-        format!("saved: {} trial(s) excluded ({rule})", of_rule.len())
+        format!("saved: {} trial(s) suspect ({rule})", of_rule.len())
     );
     let expected: Vec<_> = of_rule
         .iter()
         .map(|s| {
             (
                 Some(s.trial),
-                MarkKind::Exclude,
+                MarkKind::Suspect,
                 rule.to_string(),
                 s.reason.clone(),
                 "tester".to_string(),
@@ -192,7 +192,7 @@ fn accept_all_asks_with_the_count_then_writes_each() {
     assert_eq!(journal(&dir), expected);
     assert!(st.pending_suggestions().iter().all(|s| s.rule != rule));
     for s in &of_rule {
-        assert_eq!(st.mark_of(s.trial).unwrap().kind, MarkKind::Exclude);
+        assert_eq!(st.mark_of(s.trial).unwrap().kind, MarkKind::Suspect);
     }
 }
 

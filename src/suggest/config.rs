@@ -288,7 +288,8 @@ mod tests {
     #[test]
     fn shipped_defaults_parse_with_every_key() {
         let r = RuleSet::parse(Path::new("d"), DEFAULT_RULES, None).unwrap();
-        assert_eq!(r.accept_as, MarkKind::Exclude);
+        // Accepting flags (suspect) unless the user chooses exclude.
+        assert_eq!(r.accept_as, MarkKind::Suspect);
         // Qian et al. 2025 and Jeong et al. 2022 values.
         assert_eq!(r.late_first_lick.max_latency_s, 0.25);
         assert_eq!(r.reward_too_soon.min_interval_s, 3.0);
@@ -297,9 +298,9 @@ mod tests {
 
     #[test]
     fn a_user_file_overrides_only_its_keys() {
-        let r = user("accept_as = \"suspect\"\n[late_first_lick]\nmax_latency_s = 0.3\n").unwrap();
+        let r = user("accept_as = \"exclude\"\n[late_first_lick]\nmax_latency_s = 0.3\n").unwrap();
         let d = RuleSet::default();
-        assert_eq!(r.accept_as, MarkKind::Suspect);
+        assert_eq!(r.accept_as, MarkKind::Exclude);
         assert_eq!(r.late_first_lick.max_latency_s, 0.3);
         assert_eq!(r.late_first_lick.give_up_s, d.late_first_lick.give_up_s);
         assert_eq!(r.unit_drift, d.unit_drift);
