@@ -524,3 +524,31 @@ fn a_stuck_lock_is_reported_and_the_mark_kept_until_it_is_released() {
         .unwrap()
         .contains(",exclude,"));
 }
+
+/// `:` then a trial number goes straight to that trial (trials.csv numbering); a number the
+/// session does not have says which numbers it has, and escape stays where it was.
+#[test]
+fn go_to_trial_by_number() {
+    let (_tmp, dir) = fixture_copy();
+    let mut st = state(&dir);
+    press(&mut st, ":9<enter>");
+    assert_eq!(st.current_trial().unwrap().number, 9);
+    assert_eq!(st.overlay, Overlay::None);
+    press(&mut st, ":999<enter>");
+    assert_eq!(st.current_trial().unwrap().number, 9);
+    assert!(
+        st.status
+            .text
+            .starts_with("no trial 999 in this session (trials 1 to"),
+        "{}",
+        st.status.text
+    );
+    press(&mut st, ":x<enter>");
+    assert!(
+        st.status.text.contains("is not a trial number"),
+        "{}",
+        st.status.text
+    );
+    press(&mut st, ":3<esc>");
+    assert_eq!(st.current_trial().unwrap().number, 9);
+}

@@ -62,6 +62,8 @@ pub enum Action {
     AcceptRuleSuggestions,
     /// Go to the next trial with a pending suggestion.
     NextSuggestion,
+    /// Type a trial number and go to it.
+    GoToTrial,
     /// Re-read the marks journals now (they are also re-read every second).
     RefreshMarks,
     /// Show or hide this help.
@@ -123,6 +125,7 @@ pub const BINDABLE: &[(Action, &str)] = &[
     (Action::RejectSuggestion, "reject_suggestion"),
     (Action::AcceptRuleSuggestions, "accept_rule_suggestions"),
     (Action::NextSuggestion, "next_suggestion"),
+    (Action::GoToTrial, "go_to_trial"),
     (Action::RefreshMarks, "refresh_marks"),
     (Action::ToggleHelp, "toggle_help"),
     (Action::Quit, "quit"),
@@ -169,6 +172,7 @@ impl Action {
             Action::RejectSuggestion => "reject suggested mark",
             Action::AcceptRuleSuggestions => "accept all of its rule",
             Action::NextSuggestion => "next suggested trial",
+            Action::GoToTrial => "go to trial number",
             Action::RefreshMarks => "re-read marks now",
             Action::ToggleHelp => "this help",
             Action::Quit => "quit",

@@ -44,6 +44,8 @@ pub enum NoteTarget {
     Session,
     /// The free-text note of a mark whose reason is "other".
     MarkNote { kind: MarkKind, reason: String },
+    /// Not a note: the number of the trial to go to in the current session.
+    TrialNumber,
 }
 
 /// A modal box over the screen.

@@ -101,6 +101,7 @@ pub fn update(state: &mut State, action: Action) {
         Action::RejectSuggestion => suggestions::reject(state),
         Action::AcceptRuleSuggestions => suggestions::ask_accept_all(state),
         Action::NextSuggestion => suggestions::next(state),
+        Action::GoToTrial => open_editor(state, NoteTarget::TrialNumber),
         Action::ToggleHelp => state.overlay = Overlay::Help,
         Action::Quit => state.quit = true,
         // Picker and editor keys mean nothing outside them.
@@ -308,8 +309,12 @@ fn editor(state: &mut State, action: Action) {
         Action::CursorHome => *cursor = 0,
         Action::CursorEnd => *cursor = len,
         Action::Cancel => {
+            let what = match target {
+                NoteTarget::TrialNumber => "no trial chosen",
+                _ => "note discarded",
+            };
             state.overlay = Overlay::None;
-            info(state, "note discarded");
+            info(state, what);
         }
         Action::Confirm => {
             let target = target.clone();
@@ -317,12 +322,37 @@ fn editor(state: &mut State, action: Action) {
             state.overlay = Overlay::None;
             match target {
                 NoteTarget::MarkNote { kind, reason } => commit_mark(state, kind, reason, note),
+                NoteTarget::TrialNumber => go_to_trial(state, &note),
                 _ if note.is_empty() => info(state, "empty note, nothing written"),
                 NoteTarget::Trial(t) => write_note(state, Some(t), note),
                 NoteTarget::Session => write_note(state, None, note),
             }
         }
         _ => {}
+    }
+}
+
+/// Go to the trial of the current session with this number (as trials.csv numbers it).
+fn go_to_trial(state: &mut State, text: &str) {
+    let Ok(number) = text.parse::<i64>() else {
+        return info(state, &format!("`{text}` is not a trial number"));
+    };
+    let session = state.current_session();
+    match session.trials.iter().position(|t| t.number == number) {
+        Some(i) => {
+            state.trial = i;
+            info(state, &format!("trial {number}"));
+        }
+        None => {
+            let (lo, hi) = (
+                session.trials.first().map_or(0, |t| t.number),
+                session.trials.last().map_or(0, |t| t.number),
+            );
+            info(
+                state,
+                &format!("no trial {number} in this session (trials {lo} to {hi})"),
+            )
+        }
     }
 }
 

@@ -33,6 +33,7 @@ pub fn render(
             theme.clean(&state.current_session().name)
         ),
         NoteTarget::MarkNote { kind, .. } => format!(" {} (other): say why ", kind.as_str()),
+        NoteTarget::TrialNumber => " go to trial number (enter: go, esc: stay) ".to_string(),
     };
     let block = Block::bordered()
         .border_set(theme.border())
