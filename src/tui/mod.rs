@@ -12,6 +12,7 @@ pub mod app;
 pub mod caps;
 pub mod config;
 pub mod derived;
+mod editor;
 pub mod follow;
 pub mod input;
 pub mod keymap;
