@@ -234,20 +234,12 @@ fn run_subject(args: Args) -> CmdResult {
     for p in &problems {
         warn(format!("{p}; its responses are left out"));
     }
-    let policy = if args.ignore_marks {
-        MarksPolicy::Ignore
-    } else {
-        MarksPolicy::Honour
-    };
+    let policy = MarksPolicy::asked(args.ignore_marks);
     let standing = standing_marks(&subject, policy)?;
     for w in &standing.warnings {
         eprintln!("{w}");
     }
-    let marks = if args.ignore_marks {
-        vec![MarkState::default(); subject.sessions.len()]
-    } else {
-        standing.per_session
-    };
+    let marks = standing.in_force(policy);
     for s in &args.session {
         if !subject.sessions.iter().any(|x| &x.name == s) {
             return Err(CliError::usage(format!(

@@ -170,11 +170,7 @@ fn summarise(
     for p in &problems {
         warn(format!("{p}; its responses are left blank"));
     }
-    let policy = if args.ignore_marks {
-        MarksPolicy::Ignore
-    } else {
-        MarksPolicy::Honour
-    };
+    let policy = MarksPolicy::asked(args.ignore_marks);
     let standing = standing_marks(&subject, policy)?;
     for w in &standing.warnings {
         eprintln!("{w}");
@@ -187,12 +183,8 @@ fn summarise(
             exclusion_note(&standing.per_session)
         ),
     };
+    let marks = standing.in_force(policy);
     let journal = standing.per_session;
-    let marks = if args.ignore_marks {
-        vec![MarkState::default(); subject.sessions.len()]
-    } else {
-        journal.clone()
-    };
 
     let mut notes = vec![format!(
         "activity: {}; cue window {}-{} s after cue onset, reward window {}-{} s after the \

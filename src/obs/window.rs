@@ -44,6 +44,27 @@ pub struct WindowDeltas {
     pub reward: Option<f64>,
 }
 
+/// The bins of `delta` inside each observation window of `opts` (cue, reward), mapped with
+/// [`window_bins`] and clipped to the span; `None` where the trial lacks the event or the
+/// window falls outside the span. Shared by the plain sums and the reviewer's count readout.
+pub fn window_slices<'a>(
+    span: &TrialSpan,
+    delta: &'a [f64],
+    opts: &ObsOptions,
+    dt: f64,
+) -> (Option<&'a [f64]>, Option<&'a [f64]>) {
+    let slice = |event: Option<usize>, w: (f64, f64)| -> Option<&'a [f64]> {
+        let r = window_bins(span, event?, w, opts.latency, dt);
+        let r = r.start.min(delta.len())..r.end.min(delta.len());
+        (!r.is_empty()).then(|| &delta[r])
+    };
+    let (cue, reward) = event_bins(span);
+    (
+        slice(cue, opts.cue_window),
+        slice(reward, opts.reward_window),
+    )
+}
+
 /// δ summed over each observation window of `opts`, mapped with [`window_bins`]. `delta` is
 /// this span's per-bin δ (`TdRun::trial_delta`). `None` where the trial lacks the event or the
 /// window falls outside the span.
@@ -53,15 +74,10 @@ pub fn window_delta_sums(
     opts: &ObsOptions,
     dt: f64,
 ) -> WindowDeltas {
-    let sum = |event: Option<usize>, w: (f64, f64)| -> Option<f64> {
-        let r = window_bins(span, event?, w, opts.latency, dt);
-        let r = r.start.min(delta.len())..r.end.min(delta.len());
-        (!r.is_empty()).then(|| delta[r].iter().sum())
-    };
-    let (cue, reward) = event_bins(span);
+    let (cue, reward) = window_slices(span, delta, opts, dt);
     WindowDeltas {
-        cue: sum(cue, opts.cue_window),
-        reward: sum(reward, opts.reward_window),
+        cue: cue.map(|d| d.iter().sum()),
+        reward: reward.map(|d| d.iter().sum()),
     }
 }
 

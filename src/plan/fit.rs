@@ -59,11 +59,7 @@ impl<'a> FitJob<'a> {
         }
         let observations =
             obs::observe(subject, &m.obs).map_err(|e| FitError::Data(e.to_string()))?;
-        let policy = if request.ignore_marks {
-            MarksPolicy::Ignore
-        } else {
-            MarksPolicy::Honour
-        };
+        let policy = MarksPolicy::asked(request.ignore_marks);
         let marks = standing_marks(subject, policy)?;
         let mut data = dataset::build(
             subject,

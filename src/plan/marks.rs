@@ -15,6 +15,17 @@ pub enum MarksPolicy {
     Ignore,
 }
 
+impl MarksPolicy {
+    /// The policy a command's `--ignore-marks` flag asks for.
+    pub fn asked(ignore_marks: bool) -> Self {
+        if ignore_marks {
+            MarksPolicy::Ignore
+        } else {
+            MarksPolicy::Honour
+        }
+    }
+}
+
 /// Marks per session (same order as the subject's sessions) and warnings for stderr.
 #[derive(Debug, Clone, Default)]
 pub struct StandingMarks {
@@ -25,6 +36,17 @@ pub struct StandingMarks {
 /// The hint every command gives after an unreadable journal.
 pub const UNREADABLE_HINT: &str = "the marks could not be read, so exclusions cannot be \
 honoured; fix the file or rerun with --ignore-marks";
+
+impl StandingMarks {
+    /// The marks that decide exclusions under `policy`: the journal's, or none when marks are
+    /// ignored (the journal itself stays in `per_session` for notes and suggestions).
+    pub fn in_force(&self, policy: MarksPolicy) -> Vec<MarkState> {
+        match policy {
+            MarksPolicy::Honour => self.per_session.clone(),
+            MarksPolicy::Ignore => vec![MarkState::default(); self.per_session.len()],
+        }
+    }
+}
 
 pub fn standing_marks(subject: &Subject, policy: MarksPolicy) -> Result<StandingMarks, PlanError> {
     let mut out = StandingMarks {

@@ -62,15 +62,11 @@ impl Readout {
                 reward: sums.reward.map(|d| self.reward_baseline + self.gain * d),
             };
         }
-        let window = |event: Option<usize>, w: (f64, f64), b: f64| -> Option<f64> {
-            let r = obs::window_bins(span, event?, w, obs.latency, dt);
-            let r = r.start.min(delta.len())..r.end.min(delta.len());
-            (!r.is_empty()).then(|| fit::likelihood::predicted_response(&delta[r], b, self.gain))
-        };
-        let (cue, reward) = obs::event_bins(span);
+        let (cue, reward) = obs::window::window_slices(span, delta, obs, dt);
+        let predict = |d: &[f64], b: f64| fit::likelihood::predicted_response(d, b, self.gain);
         WindowDeltas {
-            cue: window(cue, obs.cue_window, self.cue_baseline),
-            reward: window(reward, obs.reward_window, self.reward_baseline),
+            cue: cue.map(|d| predict(d, self.cue_baseline)),
+            reward: reward.map(|d| predict(d, self.reward_baseline)),
         }
     }
 }
