@@ -173,3 +173,37 @@ fn exit_codes_follow_the_brief() {
     let out = plot(&[missing.as_os_str(), "--out".as_ref(), out_dir.as_os_str()]);
     assert_eq!(out.status.code(), Some(1), "{out:?}");
 }
+
+/// A cue declared in session.toml but presented on no trial draws nothing: the heat map with
+/// it declared is the same picture as without (its long reward delay used to stretch the time
+/// axis and leave an empty band after every row).
+#[test]
+fn a_declared_cue_no_trial_uses_leaves_the_heatmap_unchanged() {
+    let tmp = tempfile::tempdir().unwrap();
+    let subject = tmp.path().join("m-900");
+    small_subject(&subject);
+    let before = tmp.path().join("before");
+    let out = plot(&[subject.as_os_str(), "--out".as_ref(), before.as_os_str()]);
+    assert_eq!(out.status.code(), Some(0), "{out:?}");
+    for e in std::fs::read_dir(&subject).unwrap() {
+        let meta = e.unwrap().path().join("session.toml");
+        if meta.is_file() {
+            let mut text = std::fs::read_to_string(&meta).unwrap();
+            text.push_str("\n[[cue]]\nname = \"tone-unused\"\nreward_delay_s = 6.0\n");
+            std::fs::write(&meta, text).unwrap();
+        }
+    }
+    let after = tmp.path().join("after");
+    let out = plot(&[subject.as_os_str(), "--out".as_ref(), after.as_os_str()]);
+    assert_eq!(out.status.code(), Some(0), "{out:?}");
+    let maps: Vec<String> = svg_files(&before)
+        .into_iter()
+        .filter(|n| n.starts_with("heatmap_"))
+        .collect();
+    assert!(!maps.is_empty());
+    for n in maps {
+        let a = std::fs::read_to_string(before.join(&n)).unwrap();
+        let b = std::fs::read_to_string(after.join(&n)).unwrap();
+        assert!(a == b, "{n} changed when an unused cue was declared");
+    }
+}

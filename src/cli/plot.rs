@@ -93,19 +93,13 @@ fn session_heatmap(
     bin_s: f64,
 ) -> Result<HeatMap, String> {
     let act = SessionActivity::new(session, &opts.signal).map_err(|e| e.to_string())?;
-    let max_delay = session
-        .meta
-        .cues
-        .iter()
-        .filter_map(|c| c.reward_delay_s)
-        .fold(0.0, f64::max);
-    let from = opts.baseline.0.min(0.0);
-    let to = max_delay + model::POST_S;
     let mut trials: Vec<_> = session
         .trials
         .iter()
         .filter_map(|t| Some((t, alignment_time(t)?, TrialKind::of(session, t)?)))
         .collect();
+    let from = opts.baseline.0.min(0.0);
+    let to = latest_reward_s(session, &trials) + model::POST_S;
     // Group key: cue (uncued last), then kind; the sort is stable, so trial order holds.
     let key = |t: &data::Trial, k: TrialKind| (t.cue.unwrap_or(usize::MAX), k);
     trials.sort_by_key(|(t, _, k)| key(t, *k));
@@ -161,6 +155,25 @@ fn session_heatmap(
         row_events,
         unit: unit_label(&opts.signal).to_string(),
     })
+}
+
+/// The latest reward the map must show, from the alignment: the delay of every cue the
+/// session's trials use (a cue declared but never presented does not stretch the axis) and
+/// every delivered reward's own time (jittered delays, uncued rewards).
+fn latest_reward_s(session: &Session, trials: &[(&data::Trial, f64, TrialKind)]) -> f64 {
+    trials
+        .iter()
+        .flat_map(|(t, t0, _)| {
+            let declared = t
+                .cue
+                .and_then(|c| session.meta.cues.get(c))
+                .and_then(|c| c.reward_delay_s);
+            // To the microsecond: clock arithmetic must not add a bin to the map.
+            let delivered = t.reward_s.map(|r| ((r - t0) * 1e6).round() / 1e6);
+            declared.into_iter().chain(delivered)
+        })
+        .filter(|d| d.is_finite())
+        .fold(0.0, f64::max)
 }
 
 fn write_svg(
