@@ -5,7 +5,7 @@
 //! animal learned from all of them whichever observations a replicate draws.
 
 use super::objective::{LearnParams, Problem};
-use super::optimise::{refine, FitResult, SearchOptions};
+use super::optimise::{refine_from_optima, FitResult, SearchOptions};
 use super::Progress;
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -164,7 +164,7 @@ pub fn bootstrap(
             for _ in 0..groups.len() {
                 sample.extend_from_slice(&groups[rng.random_range(0..groups.len())]);
             }
-            let r = refine(problem, &sample, &best.z, opts, opts.max_iters_refine);
+            let r = refine_from_optima(problem, &sample, best, opts);
             progress.tick();
             r.map(|f| {
                 let rep = Replicate {

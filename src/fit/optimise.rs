@@ -64,7 +64,13 @@ pub struct FitResult {
     pub log_likelihood: f64,
     /// Objective evaluations (each one model pass).
     pub evaluations: usize,
+    /// Search coordinates of the other distinct end points a multi-start search reached, best
+    /// first (empty after a warm start): the modes a bootstrap replicate also starts from.
+    pub other_optima: Vec<Vec<f64>>,
 }
+
+/// End points closer than this in every search coordinate (logit scale) are one optimum.
+pub const SAME_OPTIMUM: f64 = 0.05;
 
 /// Time constants (seconds) the γ grid is built from, γ = exp(−dt/τ), so the grid means the
 /// same thing at any bin width.
@@ -163,6 +169,7 @@ pub fn evaluate(
         linear,
         log_likelihood,
         evaluations,
+        other_optima: Vec::new(),
     })
 }
 
@@ -232,11 +239,48 @@ pub fn fit_multistart(
         })
         .collect();
     let total: usize = grid_evals + results.iter().map(|r| r.evaluations).sum::<usize>();
-    results
-        .into_iter()
-        .max_by(|a, b| a.log_likelihood.total_cmp(&b.log_likelihood))
-        .map(|mut r| {
-            r.evaluations = total;
-            r
-        })
+    let mut results = results;
+    results.sort_by(|a, b| b.log_likelihood.total_cmp(&a.log_likelihood));
+    let mut ends = results.into_iter();
+    let mut best = ends.next()?;
+    for r in ends {
+        let same = |z: &[f64]| {
+            z.iter()
+                .zip(&r.z)
+                .all(|(a, b)| (a - b).abs() < SAME_OPTIMUM)
+        };
+        if !same(&best.z) && !best.other_optima.iter().any(|o| same(o)) {
+            best.other_optima.push(r.z);
+        }
+    }
+    best.evaluations = total;
+    Some(best)
+}
+
+/// Refine from the optimum and from every other end point of the search, keep the best: a
+/// resample can move the likelihood's best mode, and a warm start from one mode alone would
+/// never see it (intervals too narrow where the likelihood has several modes).
+pub fn refine_from_optima(
+    problem: &Problem,
+    idx: &[usize],
+    best: &FitResult,
+    opts: &SearchOptions,
+) -> Option<FitResult> {
+    let mut evaluations = 0;
+    let mut winner: Option<FitResult> = None;
+    for start in std::iter::once(&best.z).chain(&best.other_optima) {
+        if let Some(r) = refine(problem, idx, start, opts, opts.max_iters_refine) {
+            evaluations += r.evaluations;
+            if winner
+                .as_ref()
+                .is_none_or(|w| r.log_likelihood > w.log_likelihood)
+            {
+                winner = Some(r);
+            }
+        }
+    }
+    winner.map(|mut w| {
+        w.evaluations = evaluations;
+        w
+    })
 }
