@@ -64,6 +64,8 @@ fn day(d: usize, cue: &str, with_value: bool) -> DayRow {
             uncued_reward: mean(1.0),
             omission: mean(-0.2),
         }),
+        event_trials: 0,
+        types: Vec::new(),
     }
 }
 

@@ -101,3 +101,57 @@ fn the_blocked_light_answers_less_than_the_control_light() {
         "blocked B {b} vs control D {d} (spikes/s above baseline)"
     );
 }
+
+/// The same result as the user reads it: `summary`'s table by trial type names the probe
+/// types and shows the blocked light's cue response near zero next to the control light's.
+#[test]
+fn summary_by_trial_type_shows_the_blocked_probe_next_to_its_control() {
+    let out = Command::new(env!("CARGO_BIN_EXE_trialdesk"))
+        .args(["summary", "--format", "csv"])
+        .arg(repo("demo_data/m-052"))
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "{out:?}");
+    let text = String::from_utf8(out.stdout).unwrap();
+    let mut reader = csv::Reader::from_reader(text.as_bytes());
+    let mut probe = BTreeMap::new();
+    let mut types = std::collections::BTreeSet::new();
+    for row in reader.records() {
+        let row = row.unwrap();
+        if &row[4] == "type_trials" {
+            types.insert(row[5].to_string());
+        }
+        if &row[4] == "type_cue_response" && row[3] == *"6" {
+            probe.insert(row[5].to_string(), row[6].parse::<f64>().unwrap());
+        }
+    }
+    for t in [
+        "tone-a rewarded",
+        "tone-a + light-b rewarded",
+        "tone-c + light-d rewarded",
+        "light-b omission",
+        "light-d omission",
+    ] {
+        assert!(types.contains(t), "{t} missing from {types:?}");
+    }
+    let (b, d) = (probe["light-b omission"], probe["light-d omission"]);
+    assert!(
+        b.abs() < 1.0 && d > b + 1.0,
+        "blocked B {b} vs control D {d}"
+    );
+}
+
+/// A plain one-cue subject gets no table by trial type (its output stays as it was).
+#[test]
+fn a_plain_subject_has_no_table_by_trial_type() {
+    let out = Command::new(env!("CARGO_BIN_EXE_trialdesk"))
+        .arg("summary")
+        .arg(repo("demo_data/m-041"))
+        .output()
+        .unwrap();
+    let text = String::from_utf8(out.stdout).unwrap();
+    assert!(
+        out.status.success() && !text.contains("by trial type"),
+        "{text}"
+    );
+}

@@ -12,7 +12,8 @@ use crate::fit::saved::fitted_window_deltas;
 use crate::marks::{MarkKind, MarkState};
 use crate::model::{self, layout_subject};
 use crate::obs::{
-    alignment_time, observe_lenient, ObsOptions, SessionActivity, Signal, TrialKind, TrialObs,
+    alignment_time, group_by_type, observe_lenient, ObsOptions, SessionActivity, Signal, TrialObs,
+    TrialType,
 };
 use crate::plan::{measurement, standing_marks, CheckedFit, MarksPolicy};
 use crate::plots::{self, fit_trials, HeatMap, TrialCurves};
@@ -93,34 +94,22 @@ fn session_heatmap(
     bin_s: f64,
 ) -> Result<HeatMap, String> {
     let act = SessionActivity::new(session, &opts.signal).map_err(|e| e.to_string())?;
-    let mut trials: Vec<_> = session
-        .trials
-        .iter()
-        .filter_map(|t| Some((t, alignment_time(t)?, TrialKind::of(session, t)?)))
-        .collect();
+    let mut trials: Vec<(&data::Trial, f64, TrialType)> = Vec::new();
+    let mut groups: Vec<(String, usize)> = Vec::new();
+    for (ty, members) in group_by_type(session) {
+        let before = trials.len();
+        trials.extend(members.iter().filter_map(|&i| {
+            let t = &session.trials[i];
+            Some((t, alignment_time(t)?, ty.clone()))
+        }));
+        if trials.len() > before {
+            groups.push((ty.label(session), trials.len() - before));
+        }
+    }
     let from = opts.baseline.0.min(0.0);
     let to = latest_reward_s(session, &trials) + model::POST_S;
-    // Group key: cue (uncued last), then kind; the sort is stable, so trial order holds.
-    let key = |t: &data::Trial, k: TrialKind| (t.cue.unwrap_or(usize::MAX), k);
-    trials.sort_by_key(|(t, _, k)| key(t, *k));
     let t0s: Vec<f64> = trials.iter().map(|(_, t0, _)| *t0).collect();
     let rows = act.traces(&t0s, from, to, bin_s);
-    let mut groups: Vec<(String, usize)> = Vec::new();
-    let mut last = None;
-    for (t, _, k) in &trials {
-        if last == Some(key(t, *k)) {
-            if let Some(g) = groups.last_mut() {
-                g.1 += 1;
-            }
-            continue;
-        }
-        last = Some(key(t, *k));
-        let name = match t.cue {
-            Some(c) => format!("{} {}", session.meta.cues[c].name, k.name()),
-            None => k.name().to_string(),
-        };
-        groups.push((name, 1));
-    }
     let row_labels = trials
         .iter()
         .map(|(t, _, _)| {
@@ -135,14 +124,17 @@ fn session_heatmap(
     let row_events = trials
         .iter()
         .map(|(t, t0, _)| {
-            let mut ev = Vec::new();
-            if let Some(c) = t.cue_s {
-                ev.push((c - t0, "cue".to_string()));
-            }
-            if let Some(r) = t.reward_s {
-                ev.push((r - t0, "reward".to_string()));
-            }
-            ev
+            // Every cue onset and every reward of the trial (events.csv rows included).
+            t.all_events()
+                .iter()
+                .map(|e| {
+                    let name = match e.kind {
+                        data::EventKind::Cue => "cue",
+                        data::EventKind::Reward => "reward",
+                    };
+                    (e.onset_s - t0, name.to_string())
+                })
+                .collect()
         })
         .collect();
     Ok(HeatMap {
@@ -160,7 +152,7 @@ fn session_heatmap(
 /// The latest reward the map must show, from the alignment: the delay of every cue the
 /// session's trials use (a cue declared but never presented does not stretch the axis) and
 /// every delivered reward's own time (jittered delays, uncued rewards).
-fn latest_reward_s(session: &Session, trials: &[(&data::Trial, f64, TrialKind)]) -> f64 {
+fn latest_reward_s(session: &Session, trials: &[(&data::Trial, f64, TrialType)]) -> f64 {
     trials
         .iter()
         .flat_map(|(t, t0, _)| {

@@ -10,10 +10,12 @@
 pub mod cohort;
 pub mod render;
 pub mod suggested;
+mod table;
+pub mod types;
 
 pub use suggested::suggested_counts;
 
-use crate::data::Subject;
+use crate::data::{Session, Subject};
 use crate::fit::dataset::SensorKernel;
 use crate::fit::saved::fitted_window_deltas;
 use crate::marks::{MarkKind, MarkState};
@@ -96,6 +98,10 @@ pub struct DayRow {
     /// Anticipatory licks/s over all cued trials with an expected reward.
     pub lick_rate: Mean,
     pub model: Option<ModelDay>,
+    /// Trials with an event list (events.csv rows or a cue offset).
+    pub event_trials: usize,
+    /// Per trial type (cues presented and outcome), in grouping order.
+    pub types: Vec<types::TypeDay>,
 }
 
 /// A model pass to put beside the observations: the spans it ran over (any order), its traces,
@@ -202,13 +208,12 @@ pub fn day_rows(
             let (uncued_reward_response, model_uncued) = of_kind(TrialKind::UncuedReward);
             let (omission_dip, model_omission) = of_kind(TrialKind::Omission);
 
-            let cue_of = |o: &TrialObs| session.cue_name(&session.trials[o.trial]);
             let cues = cue_order
                 .iter()
                 .filter_map(|name| {
                     let trials = rows
                         .iter()
-                        .filter(|o| cue_of(o) == Some(name.as_str()))
+                        .filter(|o| presentation(session, o, name).is_some())
                         .count();
                     if trials == 0 {
                         return None;
@@ -217,18 +222,30 @@ pub fn day_rows(
                         included
                             .iter()
                             .zip(&deltas)
-                            .filter(|(o, _)| cue_of(o) == Some(name.as_str()))
+                            .filter_map(|(o, d)| presentation(session, o, name).map(|p| (o, d, p)))
                     };
                     Some(CueDay {
                         cue: name.clone(),
                         trials,
-                        response: Mean::of(mine().filter_map(|(o, _)| o.cue)),
-                        lick_rate: Mean::of(mine().filter_map(|(o, _)| o.anticipatory_lick_rate)),
-                        model_delta: model
-                            .map(|_| Mean::of(mine().filter_map(|(_, d)| d.and_then(|d| d.cue)))),
+                        response: Mean::of(mine().filter_map(|(_, _, p)| p.response)),
+                        lick_rate: Mean::of(
+                            mine().filter_map(|(o, _, _)| o.anticipatory_lick_rate),
+                        ),
+                        model_delta: model.map(|_| {
+                            Mean::of(
+                                mine()
+                                    .filter(|(_, _, p)| p.first)
+                                    .filter_map(|(_, d, _)| d.and_then(|d| d.cue)),
+                            )
+                        }),
                     })
                 })
                 .collect();
+            let event_trials = rows
+                .iter()
+                .filter(|o| session.trials[o.trial].has_events())
+                .count();
+            let types = types::type_days(session, rows, &included, &deltas, model.is_some());
 
             DayRow {
                 session: session.name.clone(),
@@ -248,7 +265,35 @@ pub fn day_rows(
                     uncued_reward: model_uncued,
                     omission: model_omission,
                 }),
+                event_trials,
+                types,
             }
         })
         .collect()
+}
+
+/// How a trial presented a cue: its window's response, and whether it was the trial's first
+/// cue (the model's cue-window δ is the first cue's).
+struct Presentation {
+    response: Option<f64>,
+    first: bool,
+}
+
+/// `None` when the trial did not present the cue `name`. A plain trial presents its
+/// trials.csv cue; a trial with an event list every cue it lists (the first onset of each).
+fn presentation(session: &Session, o: &TrialObs, name: &str) -> Option<Presentation> {
+    let trial = &session.trials[o.trial];
+    if o.events.is_empty() {
+        return (session.cue_name(trial) == Some(name)).then_some(Presentation {
+            response: o.cue,
+            first: true,
+        });
+    }
+    let label = format!("cue:{name}");
+    let cues = || o.events.iter().filter(|e| e.label.starts_with("cue:"));
+    let at = cues().position(|e| e.label == label)?;
+    Some(Presentation {
+        response: cues().nth(at).and_then(|e| e.value),
+        first: at == 0,
+    })
 }

@@ -1,10 +1,13 @@
 //! Writing learning tables: aligned plain text for a terminal (fits 80 columns for up to two
 //! cues), Markdown for a lab notebook, and tidy long-form CSV for pandas/R (one value per row:
-//! `subject,session,date,day,measure,cue,value,n`). With suggested-mark counts
-//! ([`render_with`]) a further table per subject, and CSV rows `suggested:<rule id>`.
+//! `subject,session,date,day,measure,cue,value,n`; for the `type_*` measures of subjects with
+//! event lists the `cue` column holds the trial type, e.g. `tone-a + light-b rewarded`). With
+//! suggested-mark counts ([`render_with`]) a further table per subject, and CSV rows
+//! `suggested:<rule id>`.
 
 use super::cohort::CohortRow;
 use super::suggested::{by_rule, legend};
+use super::table::{md_escape, Cell, Table};
 use super::{DayRow, Mean};
 use crate::suggest::CATALOG;
 use crate::util::fmt_f64;
@@ -53,148 +56,6 @@ pub fn render_with(
         Format::Markdown => markdown_with(subjects, suggested, cohort),
         Format::Csv => csv_with(subjects, suggested)?,
     })
-}
-
-/// A table of already formatted cells; columns in `left` are left-aligned (text), the rest
-/// right-aligned (numbers).
-struct Table {
-    title: String,
-    headers: Vec<String>,
-    rows: Vec<Vec<Cell>>,
-    left: std::ops::Range<usize>,
-    /// The last column is left-aligned too (a list in words).
-    left_last: bool,
-    /// Lines printed under the table (a legend).
-    footer: Vec<String>,
-    /// Numeric columns in the same unit share one number of decimals: the last `licks` columns
-    /// are licks/s, the other numbers the response unit.
-    licks: usize,
-}
-
-/// A table cell: text as is, or a number whose decimals are chosen per column.
-enum Cell {
-    Text(String),
-    Num(Option<f64>),
-}
-
-impl From<String> for Cell {
-    fn from(s: String) -> Self {
-        Cell::Text(s)
-    }
-}
-
-use crate::util::decimals_for;
-
-fn fmt_num(v: Option<f64>, decimals: usize) -> String {
-    match v {
-        None => "-".to_string(),
-        Some(v) => {
-            let s = format!("{v:.decimals$}");
-            // No "-0.00": a value that rounds to zero is shown as zero.
-            if s.starts_with('-') && s[1..].chars().all(|c| c == '0' || c == '.') {
-                s[1..].to_string()
-            } else {
-                s
-            }
-        }
-    }
-}
-
-impl Table {
-    fn is_left(&self, c: usize) -> bool {
-        self.left.contains(&c) || (self.left_last && c + 1 == self.headers.len())
-    }
-
-    /// The cells as strings, numbers formatted per column.
-    fn formatted(&self) -> Vec<Vec<String>> {
-        let n = self.headers.len();
-        let unit_of = |c: usize| usize::from(c + self.licks >= n);
-        let decimals: Vec<usize> = (0..2)
-            .map(|unit| {
-                decimals_for(self.rows.iter().flat_map(|r| {
-                    r.iter()
-                        .enumerate()
-                        .filter_map(move |(c, cell)| match cell {
-                            Cell::Num(v) if unit_of(c) == unit => *v,
-                            _ => None,
-                        })
-                }))
-            })
-            .collect();
-        self.rows
-            .iter()
-            .map(|r| {
-                r.iter()
-                    .enumerate()
-                    .map(|(c, cell)| match cell {
-                        Cell::Text(t) => t.clone(),
-                        Cell::Num(v) => fmt_num(*v, decimals[unit_of(c)]),
-                    })
-                    .collect()
-            })
-            .collect()
-    }
-
-    fn text(&self, out: &mut String) {
-        let rows = self.formatted();
-        let widths: Vec<usize> = (0..self.headers.len())
-            .map(|c| {
-                rows.iter()
-                    .map(|r| r[c].chars().count())
-                    .chain([self.headers[c].chars().count()])
-                    .max()
-                    .unwrap_or(0)
-            })
-            .collect();
-        out.push_str(&self.title);
-        out.push('\n');
-        for row in std::iter::once(&self.headers).chain(&rows) {
-            let cells: Vec<String> = row
-                .iter()
-                .enumerate()
-                .map(|(c, cell)| {
-                    if self.is_left(c) {
-                        format!("{cell:<w$}", w = widths[c])
-                    } else {
-                        format!("{cell:>w$}", w = widths[c])
-                    }
-                })
-                .collect();
-            out.push_str(cells.join("  ").trim_end());
-            out.push('\n');
-        }
-        for f in &self.footer {
-            out.push_str(&format!("  {f}\n"));
-        }
-        out.push('\n');
-    }
-
-    fn markdown(&self, out: &mut String) {
-        out.push_str(&format!("**{}**\n\n", md_escape(&self.title)));
-        let line = |cells: &[String]| {
-            let escaped: Vec<String> = cells.iter().map(|c| md_escape(c)).collect();
-            format!("| {} |\n", escaped.join(" | "))
-        };
-        out.push_str(&line(&self.headers));
-        let align: Vec<String> = (0..self.headers.len())
-            .map(|c| if self.is_left(c) { ":---" } else { "---:" }.to_string())
-            .collect();
-        out.push_str(&format!("|{}|\n", align.join("|")));
-        for row in &self.formatted() {
-            out.push_str(&line(row));
-        }
-        if !self.footer.is_empty() {
-            out.push('\n');
-        }
-        for f in &self.footer {
-            out.push_str(&format!("- {}\n", md_escape(f)));
-        }
-        out.push('\n');
-    }
-}
-
-fn md_escape(s: &str) -> String {
-    s.replace('\\', "\\\\").replace('|', "\\|")
 }
 
 fn num(m: &Mean) -> Cell {
@@ -308,7 +169,7 @@ fn subject_tables(s: &SubjectSummary, suggested: Option<&SuggestedCounts>) -> Ve
             .collect(),
         left: left.clone(),
         left_last: false,
-        footer: Vec::new(),
+        footer: compound_note(&s.rows),
     });
 
     if s.rows.iter().any(|r| r.model.is_some()) {
@@ -337,6 +198,7 @@ fn subject_tables(s: &SubjectSummary, suggested: Option<&SuggestedCounts>) -> Ve
             footer: Vec::new(),
         });
     }
+    tables.extend(super::types::table(&s.rows, show_date));
     if let Some(counts) = suggested {
         let mut h = lead_h();
         h.extend(["suggested", "by rule"].map(String::from));
@@ -363,6 +225,18 @@ fn subject_tables(s: &SubjectSummary, suggested: Option<&SuggestedCounts>) -> Ve
         });
     }
     tables
+}
+
+/// With event lists a cue column mixes the cue alone and in compounds: say so.
+fn compound_note(rows: &[DayRow]) -> Vec<String> {
+    match rows.iter().any(|r| r.event_trials > 0) {
+        true => vec![
+            "cue:<name>: every trial presenting the cue, alone or in a compound \
+                      (the table by trial type separates them)"
+                .into(),
+        ],
+        false => Vec::new(),
+    }
 }
 
 fn cohort_table(rows: &[CohortRow]) -> Table {
@@ -557,6 +431,24 @@ fn csv_with(
                     put(measure, "", v, n)?;
                 }
             }
+            if s.rows.iter().any(|r| r.event_trials > 0) {
+                for t in &r.types {
+                    put("type_trials", &t.label, t.trials.to_string(), String::new())?;
+                    let mut means = vec![
+                        ("type_cue_response", Some(t.cue_response)),
+                        ("type_reward_response", Some(t.reward_response)),
+                        ("type_anticipatory_lick_rate", Some(t.lick_rate)),
+                    ];
+                    if r.model.is_some() {
+                        means.push(("type_model_delta_cue", t.model_cue));
+                        means.push(("type_model_delta_reward", t.model_reward));
+                    }
+                    for (measure, m) in means {
+                        let (v, n) = mean(&m.unwrap_or_default());
+                        put(measure, &t.label, v, n)?;
+                    }
+                }
+            }
             if let Some(counts) = suggested.get(si) {
                 let session = counts.get(ri).map(Vec::as_slice).unwrap_or_default();
                 for rule in &CATALOG {
@@ -574,21 +466,4 @@ fn csv_with(
         .into_inner()
         .map_err(|e| csv::Error::from(e.into_error()))?;
     Ok(String::from_utf8(bytes).expect("csv of UTF-8 strings is UTF-8"))
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn decimals_follow_the_magnitude() {
-        assert_eq!(decimals_for([8.28, -1.2].into_iter()), 2);
-        assert_eq!(decimals_for([0.5].into_iter()), 3);
-        assert_eq!(decimals_for([0.0586, -0.003].into_iter()), 4);
-        assert_eq!(decimals_for([1e-9].into_iter()), 6);
-        assert_eq!(decimals_for(std::iter::empty()), 2);
-        assert_eq!(fmt_num(Some(-0.0001), 2), "0.00");
-        assert_eq!(fmt_num(Some(-0.25), 2), "-0.25");
-        assert_eq!(fmt_num(None, 2), "-");
-    }
 }

@@ -12,7 +12,9 @@ use crate::fit;
 use crate::fit::saved::{fitted_window_deltas, SAVED_FIT_FILE};
 use crate::marks::MarkState;
 use crate::model::{self, layout_subject, TdParams, TdRun, TrialSpan, POST_S};
-use crate::obs::{self, ObsOptions, SessionActivity, Signal, TrialKind, TrialObs, WindowDeltas};
+use crate::obs::{
+    self, group_by_type, ObsOptions, SessionActivity, Signal, TrialObs, WindowDeltas,
+};
 use crate::plan::{self, CheckedFit, Measurement, ObsRequest, PlanError};
 use crate::suggest::{self, RuleSet, Suggestion};
 use crate::summary::{self, DayRow, ModelTraces};
@@ -367,40 +369,20 @@ impl SessionView {
     }
 }
 
-/// Trials grouped by cue (in `session.toml` order) then outcome; uncued rewards last.
+/// Trials grouped by trial type: cues presented (in `session.toml` order, a compound after
+/// its first cue alone), then outcome; uncued rewards last.
 pub fn group_trials(session: &Session) -> Vec<Group> {
-    let kinds = [
-        TrialKind::Rewarded,
-        TrialKind::Omission,
-        TrialKind::UnrewardedCue,
-        TrialKind::UncuedReward,
-    ];
-    let mut groups = Vec::new();
-    let cue_keys = (0..session.meta.cues.len()).map(Some).chain([None]);
-    for cue in cue_keys {
-        for kind in kinds {
-            let trials: Vec<usize> = session
-                .trials
-                .iter()
-                .enumerate()
-                .filter(|(_, t)| t.cue == cue && TrialKind::of(session, t) == Some(kind))
-                .map(|(i, _)| i)
-                .collect();
-            if trials.is_empty() {
-                continue;
-            }
-            let label = match cue {
-                Some(c) => format!(
-                    "{} {}",
-                    session.meta.cues[c].name,
-                    kind.name().replace('_', " ")
-                ),
-                None => kind.name().replace('_', " "),
+    group_by_type(session)
+        .into_iter()
+        .map(|(ty, trials)| {
+            let kind = ty.kind.name().replace('_', " ");
+            let label = match ty.cues.is_empty() {
+                true => kind,
+                false => format!("{} {kind}", ty.cue_label(session)),
             };
-            groups.push(Group { label, trials });
-        }
-    }
-    groups
+            Group { label, trials }
+        })
+        .collect()
 }
 
 /// 2nd and 98th percentile of the finite values, so one huge artifact doesn't wash out the rest.
