@@ -12,8 +12,8 @@ use crate::fit::saved::fitted_window_deltas;
 use crate::marks::{MarkKind, MarkState};
 use crate::model::{self, layout_subject};
 use crate::obs::{
-    alignment_time, group_by_type, observe_lenient, ObsOptions, SessionActivity, Signal, TrialObs,
-    TrialType,
+    alignment_time, group_by_type, latest_reward_s, observe_lenient, ObsOptions, SessionActivity,
+    Signal, TrialObs, TrialType,
 };
 use crate::plan::{measurement, standing_marks, CheckedFit, MarksPolicy};
 use crate::plots::{self, fit_trials, HeatMap, TrialCurves};
@@ -107,7 +107,7 @@ fn session_heatmap(
         }
     }
     let from = opts.baseline.0.min(0.0);
-    let to = latest_reward_s(session, &trials) + model::POST_S;
+    let to = latest_reward_s(session) + model::POST_S;
     let t0s: Vec<f64> = trials.iter().map(|(_, t0, _)| *t0).collect();
     let rows = act.traces(&t0s, from, to, bin_s);
     let row_labels = trials
@@ -147,25 +147,6 @@ fn session_heatmap(
         row_events,
         unit: unit_label(&opts.signal).to_string(),
     })
-}
-
-/// The latest reward the map must show, from the alignment: the delay of every cue the
-/// session's trials use (a cue declared but never presented does not stretch the axis) and
-/// every delivered reward's own time (jittered delays, uncued rewards).
-fn latest_reward_s(session: &Session, trials: &[(&data::Trial, f64, TrialType)]) -> f64 {
-    trials
-        .iter()
-        .flat_map(|(t, t0, _)| {
-            let declared = t
-                .cue
-                .and_then(|c| session.meta.cues.get(c))
-                .and_then(|c| c.reward_delay_s);
-            // To the microsecond: clock arithmetic must not add a bin to the map.
-            let delivered = t.reward_s.map(|r| ((r - t0) * 1e6).round() / 1e6);
-            declared.into_iter().chain(delivered)
-        })
-        .filter(|d| d.is_finite())
-        .fold(0.0, f64::max)
 }
 
 fn write_svg(

@@ -24,7 +24,7 @@ pub mod window;
 pub use activity::{activity_trace, SessionActivity};
 pub use events::{EventObs, EventWindow};
 pub use photometry::photometry_activity;
-pub use trial_type::{group_by_type, TrialType};
+pub use trial_type::{group_by_type, latest_reward_s, TrialType};
 pub use window::{event_bins, window_bins, window_delta_sums, WindowDeltas};
 
 use crate::data::{Session, Subject, Trial};

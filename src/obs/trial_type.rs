@@ -86,6 +86,33 @@ pub fn group_by_type(session: &Session) -> Vec<(TrialType, Vec<usize>)> {
     groups
 }
 
+/// The latest reward, delivered or expected, of any trial of the session, in seconds from the
+/// trial's alignment time: what a per-trial picture must show. A cue declared but never
+/// presented does not count; a jittered or second reward does.
+pub fn latest_reward_s(session: &Session) -> f64 {
+    let mut latest = 0.0_f64;
+    for trial in &session.trials {
+        let Some(t0) = super::alignment_time(trial) else {
+            continue;
+        };
+        let events = trial.all_events();
+        let expected = super::events::expected_times(session, &events);
+        let delivered = events.iter().filter(|e| e.kind == EventKind::Reward);
+        let times = expected
+            .iter()
+            .map(|(_, t)| *t)
+            .chain(delivered.map(|e| e.onset_s));
+        for t in times {
+            // To the microsecond: clock arithmetic must not add a bin to a picture.
+            let d = ((t - t0) * 1e6).round() / 1e6;
+            if d.is_finite() {
+                latest = latest.max(d);
+            }
+        }
+    }
+    latest
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -305,13 +305,8 @@ pub const VIEW_PRE_S: f64 = 1.0;
 
 impl SessionView {
     pub fn build(session: &Session, signal: SignalKind, unit: Option<&str>) -> SessionView {
-        let max_delay = session
-            .meta
-            .cues
-            .iter()
-            .filter_map(|c| c.reward_delay_s)
-            .fold(0.0_f64, f64::max);
-        let (from_s, to_s, bin_s) = (-VIEW_PRE_S, max_delay + POST_S, VIEW_BIN_S);
+        let latest = obs::latest_reward_s(session);
+        let (from_s, to_s, bin_s) = (-VIEW_PRE_S, latest + POST_S, VIEW_BIN_S);
         let licks;
         let (label, act) = match signal {
             SignalKind::Spikes => {

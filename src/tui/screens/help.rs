@@ -20,11 +20,8 @@ pub fn lines(state: &State) -> Vec<String> {
     out.push(format!("{:<12} {}", "in picker", "1-9, or up/down + enter"));
     out.push(format!("{:<12} {}", "in editor", "enter saves, esc drops"));
     out.push(format!("{:<12} {}", "in question", "y yes, n or esc no"));
-    out.push(format!(
-        "{:<12} {}",
-        "events", "C cue, R reward, o omitted,"
-    ));
-    out.push(format!("{:<12} {}", "", "e expected, R off schedule"));
+    out.push(format!("{:<12} {}", "events", "C cue, ] cue off, R reward"));
+    out.push(format!("{:<12} {}", "", "o omitted, e R's due time"));
     let excluded = Theme::from_options(&state.opts)
         .mark_glyph(Some(crate::marks::MarkKind::Exclude))
         .0;

@@ -3,7 +3,7 @@
 //! all on one time axis so the columns line up. Under the trial's header, its pending
 //! suggested mark with the rule's reason.
 
-use crate::obs::TrialKind;
+use crate::obs::TrialType;
 use crate::tui::action::Action;
 use crate::tui::state::{SignalKind, State};
 use crate::tui::theme::{Role, Theme};
@@ -230,10 +230,13 @@ fn render_info(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
     let Some(trial) = state.current_trial() else {
         return;
     };
-    let cue = session
-        .cue_name(trial)
-        .map_or("no cue".to_string(), |c| theme.clean(c));
-    let kind = TrialKind::of(session, trial).map_or("?", |k| k.name());
+    // A compound names every cue it presents ("tone-a + light-b").
+    let ty = TrialType::of(session, trial);
+    let cue = match ty.as_ref().map(|t| t.cue_label(session)) {
+        Some(label) if !label.is_empty() => theme.clean(&label),
+        _ => "no cue".to_string(),
+    };
+    let kind = ty.map_or("?", |t| t.kind.name());
     let mut text = format!(
         "trial {} {} {} {}",
         trial.number,

@@ -6,7 +6,8 @@
 //! reward columns get a faint guide line so the eye can follow them down to the traces.
 
 use super::{fill_row, put, TimeAxis};
-use crate::obs::{alignment_time, expected_reward_time};
+use crate::data::{EventKind, Session, Trial};
+use crate::obs::{self, alignment_time, expected_reward_time, TrialKind};
 use crate::tui::state::State;
 use crate::tui::theme::{Role, Theme};
 use ratatui::buffer::Buffer;
@@ -21,6 +22,9 @@ pub fn event_cols(state: &State, axis: &TimeAxis) -> Vec<(u16, &'static str, Rol
     let Some(t0) = alignment_time(trial) else {
         return Vec::new();
     };
+    if trial.has_events() {
+        return event_list_cols(session, trial, t0, axis);
+    }
     let mut out = Vec::new();
     if let Some(cs) = trial.cue_s.filter(|_| trial.cue.is_some()) {
         out.extend(axis.col(cs - t0).map(|c| (c, "C", Role::Cue)));
@@ -40,6 +44,38 @@ pub fn event_cols(state: &State, axis: &TimeAxis) -> Vec<(u16, &'static str, Rol
         // Omission: where the reward should have come.
         (None, Some(e)) => out.extend(axis.col(e - t0).map(|c| (c, "o", Role::Reward))),
         _ => {}
+    }
+    out
+}
+
+/// A trial with an event list: every cue's onset (C) and offset (]), every reward (R), and on
+/// an omission trial every expected reward time (o).
+fn event_list_cols(
+    session: &Session,
+    trial: &Trial,
+    t0: f64,
+    axis: &TimeAxis,
+) -> Vec<(u16, &'static str, Role)> {
+    let events = trial.all_events();
+    let mut out = Vec::new();
+    for e in &events {
+        match e.kind {
+            EventKind::Cue if e.cue.is_some() => {
+                out.extend(axis.col(e.onset_s - t0).map(|c| (c, "C", Role::Cue)));
+                if let Some(off) = e.offset_s {
+                    out.extend(axis.col(off - t0).map(|c| (c, "]", Role::Cue)));
+                }
+            }
+            EventKind::Cue => {}
+            EventKind::Reward => {
+                out.extend(axis.col(e.onset_s - t0).map(|c| (c, "R", Role::Reward)));
+            }
+        }
+    }
+    if TrialKind::of(session, trial) == Some(TrialKind::Omission) {
+        for (_, at) in obs::events::expected_times(session, &events) {
+            out.extend(axis.col(at - t0).map(|c| (c, "o", Role::Reward)));
+        }
     }
     out
 }
@@ -248,8 +284,8 @@ pub fn render_licks(
     }
 }
 
-/// The event row (C cue, R reward, o omitted reward, e expected reward when the delivery was
-/// off schedule) and the seconds row under it.
+/// The event row (C cue onset, ] cue offset, R reward, o omitted reward, e expected reward
+/// when the delivery was off schedule) and the seconds row under it.
 pub fn render_events(
     buf: &mut Buffer,
     area: Rect,

@@ -36,7 +36,19 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         let trial = &session.trials[i];
         let mark = state.mark_of(trial.number);
         let (glyph, role) = theme.mark_glyph(mark.map(|m| m.kind));
-        let cue = theme.clean(session.cue_name(trial).unwrap_or("-"));
+        // A compound lists its cues joined by "+" (cut to the column like any long name).
+        let cues = crate::obs::trial_type::cues_presented(trial);
+        let cue = match cues.len() {
+            0 | 1 => theme.clean(session.cue_name(trial).unwrap_or("-")),
+            _ => {
+                let names: Vec<&str> = cues
+                    .iter()
+                    .filter_map(|&c| session.meta.cues.get(c))
+                    .map(|c| c.name.as_str())
+                    .collect();
+                theme.clean(&names.join("+"))
+            }
+        };
         let cue: String = if cue.chars().count() > cue_w {
             cue.chars()
                 .take(cue_w.saturating_sub(1))

@@ -1,0 +1,88 @@
+//! The reviewer on a trial with an event list: the info line names every cue of the compound,
+//! the event row draws each cue's onset and offset and each reward, and the session screen
+//! groups trials by type (cues presented and outcome), so a blocking probe reads at a glance.
+//! The data: the probe day of the shipped blocking demo (demo_data/m-052), with a cue offset
+//! and a second drop of reward added to trial 1 in its events.csv.
+
+mod tui_support;
+
+use std::path::Path;
+use tui_support::*;
+
+fn probe_day(tmp: &Path) -> std::path::PathBuf {
+    let src = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo_data/m-052/2026-03-07");
+    let dir = tmp.join("2026-03-07");
+    std::fs::create_dir_all(&dir).unwrap();
+    for e in std::fs::read_dir(&src).unwrap() {
+        let p = e.unwrap().path();
+        std::fs::copy(&p, dir.join(p.file_name().unwrap())).unwrap();
+    }
+    let events = dir.join("events.csv");
+    let text = std::fs::read_to_string(&events).unwrap();
+    // Trial 1: tone-a at 10 s (trials.csv), light-b 10–10.8 s, reward at 11.5 s, second drop
+    // at 12.3 s.
+    let text =
+        text.replacen("1,cue,light-b,10,,", "1,cue,light-b,10,10.8,", 1) + "1,reward,,12.3,,2\n";
+    std::fs::write(&events, text).unwrap();
+    dir
+}
+
+/// The frame line of the event row (its gutter reads "events").
+fn event_row(frame: &str) -> String {
+    frame
+        .lines()
+        .find(|l| l.contains("│events") || l.contains("|events"))
+        .unwrap_or_else(|| panic!("no events row in\n{frame}"))
+        .to_string()
+}
+
+#[test]
+fn a_compound_trial_shows_every_event_and_its_cues() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = probe_day(tmp.path());
+    let st = state(&dir);
+    let frame = frame_text(120, 40, &st);
+    assert!(frame.contains("trial 1 "), "{frame}");
+    assert!(frame.contains("tone-a + light-b rewarded"), "{frame}");
+    let row = event_row(&frame);
+    let at = |g: char| -> Vec<usize> {
+        row.chars()
+            .enumerate()
+            .filter(|(_, c)| *c == g)
+            .map(|(i, _)| i)
+            .collect()
+    };
+    // One onset column (both cues start together), the light's offset after it, then two
+    // rewards, in time order.
+    let (c, off, r) = (at('C'), at(']'), at('R'));
+    assert_eq!((c.len(), off.len(), r.len()), (1, 1, 2), "{row}");
+    assert!(c[0] < off[0] && off[0] < r[0] && r[0] < r[1], "{row}");
+}
+
+#[test]
+fn the_session_screen_groups_the_probe_day_by_trial_type() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = probe_day(tmp.path());
+    let st = state(&dir);
+    let labels: Vec<&str> = st.view.groups.iter().map(|g| g.label.as_str()).collect();
+    assert_eq!(
+        labels,
+        [
+            "tone-a + light-b rewarded",
+            "light-b omission",
+            "tone-c + light-d rewarded",
+            "light-d omission",
+        ]
+    );
+}
+
+#[test]
+fn the_trial_list_marks_a_compound_with_its_cues() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = probe_day(tmp.path());
+    let frame = frame_text(120, 40, &state(&dir));
+    let first = frame.lines().nth(1).unwrap();
+    assert!(first.contains("tone-a+l"), "{first}");
+    // A probe (a light alone, no event list) keeps its one cue name.
+    assert!(frame.lines().any(|l| l.contains("  light-d ")), "{frame}");
+}
