@@ -86,3 +86,36 @@ fn the_trial_list_marks_a_compound_with_its_cues() {
     // A probe (a light alone, no event list) keeps its one cue name.
     assert!(frame.lines().any(|l| l.contains("  light-d ")), "{frame}");
 }
+
+/// The days screen follows one cue; next_cue (A) moves it on to the next cue of the subject,
+/// wrapping, so each light of a blocking design can be followed day by day.
+#[test]
+fn the_days_screen_follows_each_cue_in_turn() {
+    let tmp = tempfile::tempdir().unwrap();
+    let src = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo_data/m-052");
+    let dir = tmp.path().join("m-052");
+    for day in std::fs::read_dir(&src).unwrap() {
+        let day = day.unwrap().path();
+        if day.is_dir() {
+            let to = dir.join(day.file_name().unwrap());
+            std::fs::create_dir_all(&to).unwrap();
+            for f in std::fs::read_dir(&day).unwrap() {
+                let f = f.unwrap().path();
+                std::fs::copy(&f, to.join(f.file_name().unwrap())).unwrap();
+            }
+        }
+    }
+    let mut st = state(&dir);
+    press(&mut st, "3");
+    let caption = |st: &trialdesk::tui::state::State| {
+        let frame = frame_text(100, 30, st);
+        let line = frame.lines().find(|l| l.contains("| responses:"));
+        line.unwrap_or_else(|| panic!("{frame}")).to_string()
+    };
+    assert!(caption(&st).contains("cue tone-a |"), "{}", caption(&st));
+    for next in ["light-b", "tone-c", "light-d", "tone-a"] {
+        press(&mut st, "A");
+        let frame = frame_text(100, 30, &st);
+        assert!(caption(&st).contains(&format!("cue {next} |")), "{frame}");
+    }
+}

@@ -2,7 +2,7 @@
 //! ([`TrialKind`]). A blocking design then reads as "tone-a rewarded", "tone-a + light-b
 //! rewarded", "light-b omission"; a plain one-cue trial is its cue and outcome as before.
 
-use super::TrialKind;
+use super::{TrialKind, TrialObs};
 use crate::data::{EventKind, Session, Trial};
 
 /// The cues of a trial (indices into `SessionMeta::cues`, each once, in `session.toml` order)
@@ -111,6 +111,32 @@ pub fn latest_reward_s(session: &Session) -> f64 {
         }
     }
     latest
+}
+
+/// How a trial presented a cue: its window's response, and whether it was the trial's first
+/// cue (the model's cue-window δ is the first cue's).
+pub struct CuePresentation {
+    pub response: Option<f64>,
+    pub first: bool,
+}
+
+/// `None` when the trial did not present the cue `name`. A plain trial presents its
+/// trials.csv cue; a trial with an event list every cue it lists (the first onset of each).
+pub fn cue_presentation(session: &Session, o: &TrialObs, name: &str) -> Option<CuePresentation> {
+    let trial = &session.trials[o.trial];
+    if o.events.is_empty() {
+        return (session.cue_name(trial) == Some(name)).then_some(CuePresentation {
+            response: o.cue,
+            first: true,
+        });
+    }
+    let label = format!("cue:{name}");
+    let cues = || o.events.iter().filter(|e| e.label.starts_with("cue:"));
+    let at = cues().position(|e| e.label == label)?;
+    Some(CuePresentation {
+        response: cues().nth(at).and_then(|e| e.value),
+        first: at == 0,
+    })
 }
 
 #[cfg(test)]

@@ -15,11 +15,12 @@ pub mod types;
 
 pub use suggested::suggested_counts;
 
-use crate::data::{Session, Subject};
+use crate::data::Subject;
 use crate::fit::dataset::SensorKernel;
 use crate::fit::saved::fitted_window_deltas;
 use crate::marks::{MarkKind, MarkState};
 use crate::model::{TdRun, TrialSpan};
+use crate::obs::trial_type::cue_presentation;
 use crate::obs::{ObsOptions, TrialKind, TrialObs};
 use std::collections::HashMap;
 
@@ -213,16 +214,15 @@ pub fn day_rows(
                 .filter_map(|name| {
                     let trials = rows
                         .iter()
-                        .filter(|o| presentation(session, o, name).is_some())
+                        .filter(|o| cue_presentation(session, o, name).is_some())
                         .count();
                     if trials == 0 {
                         return None;
                     }
                     let mine = || {
-                        included
-                            .iter()
-                            .zip(&deltas)
-                            .filter_map(|(o, d)| presentation(session, o, name).map(|p| (o, d, p)))
+                        included.iter().zip(&deltas).filter_map(|(o, d)| {
+                            cue_presentation(session, o, name).map(|p| (o, d, p))
+                        })
                     };
                     Some(CueDay {
                         cue: name.clone(),
@@ -270,30 +270,4 @@ pub fn day_rows(
             }
         })
         .collect()
-}
-
-/// How a trial presented a cue: its window's response, and whether it was the trial's first
-/// cue (the model's cue-window δ is the first cue's).
-struct Presentation {
-    response: Option<f64>,
-    first: bool,
-}
-
-/// `None` when the trial did not present the cue `name`. A plain trial presents its
-/// trials.csv cue; a trial with an event list every cue it lists (the first onset of each).
-fn presentation(session: &Session, o: &TrialObs, name: &str) -> Option<Presentation> {
-    let trial = &session.trials[o.trial];
-    if o.events.is_empty() {
-        return (session.cue_name(trial) == Some(name)).then_some(Presentation {
-            response: o.cue,
-            first: true,
-        });
-    }
-    let label = format!("cue:{name}");
-    let cues = || o.events.iter().filter(|e| e.label.starts_with("cue:"));
-    let at = cues().position(|e| e.label == label)?;
-    Some(Presentation {
-        response: cues().nth(at).and_then(|e| e.value),
-        first: at == 0,
-    })
 }

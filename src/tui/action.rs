@@ -42,6 +42,8 @@ pub enum Action {
     PrevUnit,
     /// Switch the activity source: spikes, photometry, licks.
     CycleSignal,
+    /// The days screen follows the next cue (a blocking design has several worth following).
+    NextCue,
     /// Mark the current trial excluded (asks for a reason).
     MarkExclude,
     /// Mark the current trial suspect (asks for a reason).
@@ -115,6 +117,7 @@ pub const BINDABLE: &[(Action, &str)] = &[
     (Action::NextUnit, "next_unit"),
     (Action::PrevUnit, "prev_unit"),
     (Action::CycleSignal, "cycle_signal"),
+    (Action::NextCue, "next_cue"),
     (Action::MarkExclude, "mark_exclude"),
     (Action::MarkSuspect, "mark_suspect"),
     (Action::MarkClear, "mark_clear"),
@@ -162,6 +165,7 @@ impl Action {
             Action::NextUnit => "next unit (then all)",
             Action::PrevUnit => "previous unit",
             Action::CycleSignal => "spikes/photometry/licks",
+            Action::NextCue => "days: follow next cue",
             Action::MarkExclude => "exclude (pick a reason)",
             Action::MarkSuspect => "suspect (pick a reason)",
             Action::MarkClear => "clear trial's mark",

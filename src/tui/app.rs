@@ -75,6 +75,7 @@ pub fn build_state_with_rules(
         trial: 0,
         unit: None,
         signal,
+        days_cue: None,
         sessions: vec![SessionState::default(); n],
         undo: Vec::new(),
         status: Status {

@@ -175,6 +175,8 @@ pub struct State {
     /// Chosen unit of the current session; `None` = all units.
     pub unit: Option<usize>,
     pub signal: SignalKind,
+    /// The cue the days screen follows; `None`: the first cue with a reward delay.
+    pub days_cue: Option<String>,
     /// The reviewer's own state of each session, same order as `subject.sessions`.
     pub sessions: Vec<SessionState>,
     pub undo: Vec<UndoEntry>,

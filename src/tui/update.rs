@@ -74,6 +74,7 @@ pub fn update(state: &mut State, action: Action) {
         }
         Action::NextUnit | Action::PrevUnit => step_unit(state, action == Action::NextUnit),
         Action::CycleSignal => cycle_signal(state),
+        Action::NextCue => next_cue(state),
         Action::MarkExclude | Action::MarkSuspect if state.current_trial().is_some() => {
             let kind = if action == Action::MarkExclude {
                 MarkKind::Exclude
@@ -218,6 +219,19 @@ fn step_unit(state: &mut State, forward: bool) {
     if state.signal == SignalKind::Spikes {
         rebuild_view(state);
     }
+}
+
+/// The days screen follows the next of the subject's cues (in first-seen order, wrapping).
+fn next_cue(state: &mut State) {
+    let cues = state.subject.cue_names();
+    if cues.len() < 2 {
+        return info(state, "this subject has one cue only");
+    }
+    let now = crate::tui::screens::days::followed_cue(state);
+    let i = cues.iter().position(|c| Some(c) == now.as_ref());
+    let next = cues[i.map_or(0, |i| (i + 1) % cues.len())].clone();
+    info(state, &format!("days screen follows {next}"));
+    state.days_cue = Some(next);
 }
 
 fn cycle_signal(state: &mut State) {

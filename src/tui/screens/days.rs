@@ -26,6 +26,11 @@ pub fn main_cue(state: &State) -> Option<String> {
         .map(|c| c.name.clone())
 }
 
+/// The cue the days screen follows: the one chosen with next_cue, else [`main_cue`].
+pub fn followed_cue(state: &State) -> Option<String> {
+    state.days_cue.clone().or_else(|| main_cue(state))
+}
+
 fn cue_day<'a>(d: &'a DayRow, cue: Option<&str>) -> Option<&'a CueDay> {
     d.cues.iter().find(|c| Some(c.cue.as_str()) == cue)
 }
@@ -147,7 +152,7 @@ fn caption(state: &State, cue: Option<&str>) -> String {
 
 pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
     put(buf, area, 1, 0, HEADER, theme.style(Role::Title));
-    let cue = main_cue(state);
+    let cue = followed_cue(state);
     put(
         buf,
         area,
@@ -222,7 +227,11 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
             })
             .collect()
     };
-    let per_trial_cue = per_trial(&|o| o.cue);
+    // Every presentation of the followed cue, alone or in a compound.
+    let per_trial_cue = per_trial(&|o| {
+        let session = &state.subject.sessions[o.session];
+        crate::obs::trial_type::cue_presentation(session, o, cue.as_deref()?)?.response
+    });
     let per_trial_rew = per_trial(&|o| o.reward);
     let lines: [(&str, Vec<f64>); 5] = [
         (
@@ -231,8 +240,8 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         ),
         ("reward by day", by_day(&|d| d.reward_response.value)),
         ("licks by day", by_day(&|d| d.lick_rate.value)),
-        ("cue, all trials", per_trial_cue),
-        ("reward, all trials", per_trial_rew),
+        ("cue, trial by trial", per_trial_cue),
+        ("reward, trial by trial", per_trial_rew),
     ];
     for (dy, (label, values)) in lines.iter().enumerate().take(curves as usize) {
         put(
