@@ -49,6 +49,9 @@ pub struct ObsPoint {
     pub end_bin: u32,
     /// The bin (within the span) of the event the window follows.
     pub event_bin: u32,
+    /// The time of that event on the session clock (cue onset, delivered or expected reward):
+    /// where the spike count of the window is taken.
+    pub event_s: f64,
     /// For a trial with an event list, which event the window follows (`cue:<name>`,
     /// `reward:<n>`, `omission:<name>`, see [`crate::obs::events`]; plain trials of such a
     /// subject get the same form); `None` in a subject without event lists, whose windows are
@@ -198,16 +201,28 @@ pub fn build(
             continue;
         }
         let (cue_bin, reward_bin) = event_bins(span);
-        for (kind, value, event, window) in [
-            (WindowKind::Cue, o.cue, cue_bin, obs_opts.cue_window),
+        let session = &subject.sessions[o.session];
+        let trial = &session.trials[o.trial];
+        let reward_s = trial
+            .reward_s
+            .or_else(|| crate::obs::expected_reward_time(session, trial));
+        for (kind, value, event, event_s, window) in [
+            (
+                WindowKind::Cue,
+                o.cue,
+                cue_bin,
+                trial.cue_s,
+                obs_opts.cue_window,
+            ),
             (
                 WindowKind::Reward,
                 o.reward,
                 reward_bin,
+                reward_s,
                 obs_opts.reward_window,
             ),
         ] {
-            let (Some(value), Some(event)) = (value, event) else {
+            let (Some(value), Some(event), Some(event_s)) = (value, event, event_s) else {
                 continue;
             };
             let bins = window_bins(span, event, window, obs_opts.latency, dt);
@@ -220,6 +235,7 @@ pub fn build(
                 first_bin: bins.start as u32,
                 end_bin: bins.end as u32,
                 event_bin: event as u32,
+                event_s,
                 label: any_events.then(|| plain_label(subject, o, kind)),
                 observed: value,
                 excluded,
@@ -290,6 +306,7 @@ fn event_points(
             first_bin: bins.start as u32,
             end_bin: bins.end as u32,
             event_bin: event as u32,
+            event_s: e.time_s,
             label: Some(e.label.clone()),
             observed: value,
             excluded,
@@ -300,20 +317,14 @@ fn event_points(
 /// Every point's spike count: the spikes of the observed units (all, or
 /// `--unit`'s) in the point's window, measured exactly where `obs` measures the response
 /// (cue onset or the delivered/expected reward, plus the window). `None` when the signal is
-/// not spikes, a session has no spikes, or the subject has trials with event lists. Assign to
-/// [`FitData::counts`].
+/// not spikes or a session has no spikes. Assign to [`FitData::counts`].
 pub fn spike_counts(
     data: &FitData,
     subject: &Subject,
     obs: &ObsOptions,
 ) -> Option<Vec<super::likelihood::WindowCount>> {
-    use crate::obs::{activity::count_in, expected_reward_time, SessionActivity, Signal};
+    use crate::obs::{activity::count_in, SessionActivity, Signal};
     if !matches!(obs.signal, Signal::Spikes { .. }) {
-        return None;
-    }
-    // Windows of trials with event lists sit at their own events' times, which the trial's
-    // cue and reward columns do not give: such subjects are fitted on responses (Gaussian).
-    if data.points.iter().any(|p| p.label.is_some()) {
         return None;
     }
     let mut acts: HashMap<usize, SessionActivity> = HashMap::new();
@@ -321,15 +332,10 @@ pub fn spike_counts(
     for p in &data.points {
         let span = &data.spans[p.span];
         let session = subject.sessions.get(span.session)?;
-        let trial = session.trials.get(span.trial)?;
-        let (event, window) = match p.kind {
-            WindowKind::Cue => (trial.cue_s?, obs.cue_window),
-            WindowKind::Reward => (
-                trial
-                    .reward_s
-                    .or_else(|| expected_reward_time(session, trial))?,
-                obs.reward_window,
-            ),
+        let event = p.event_s;
+        let window = match p.kind {
+            WindowKind::Cue => obs.cue_window,
+            WindowKind::Reward => obs.reward_window,
         };
         let act = match acts.entry(span.session) {
             std::collections::hash_map::Entry::Occupied(e) => e.into_mut(),
