@@ -127,3 +127,54 @@ fn spikes_in_the_last_trial_window_redraw_its_trace_and_later_ones_wait() {
     assert_eq!(spikes_before(&st), n0 + 21);
     assert_ne!(st.view.traces[last], trace);
 }
+
+/// events.csv is followed too: a compound trial whose events row comes before its trials.csv
+/// row waits, then attaches when the trial arrives; a trial given only by its events (no cue
+/// and no reward of its own in trials.csv) is accepted in the same poll. Both reach the model
+/// as compounds. Data: the probe day of the shipped blocking demo.
+#[test]
+fn appended_events_attach_to_their_trials_even_when_they_come_first() {
+    let tmp = tempfile::tempdir().unwrap();
+    let src = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo_data/m-052/2026-03-07");
+    let dir = tmp.path().join("2026-03-07");
+    std::fs::create_dir_all(&dir).unwrap();
+    for e in std::fs::read_dir(&src).unwrap() {
+        let p = e.unwrap().path();
+        std::fs::copy(&p, dir.join(p.file_name().unwrap())).unwrap();
+    }
+    let mut st = tui_support::state(&dir);
+    let mut f = Follower::start(0, &st.subject.sessions[0], ModelSettings::defaults()).unwrap();
+    let label = |st: &trialdesk::tui::state::State, number: i64| {
+        let s = &st.subject.sessions[0];
+        let t = s.trials.iter().find(|t| t.number == number)?;
+        Some(trialdesk::obs::TrialType::of(s, t)?.label(s))
+    };
+
+    append(&dir.join("events.csv"), "81,cue,light-b,1075,,\n");
+    assert!(f.poll_into(&mut st));
+    assert_eq!(st.subject.sessions[0].trials.len(), 80, "no trial 81 yet");
+
+    append(
+        &dir.join("trials.csv"),
+        "81,tone-a,1075,1076.5,3\n82,,,,0\n",
+    );
+    append(&dir.join("events.csv"), "82,cue,light-d,1090,,\n");
+    assert!(f.poll_into(&mut st));
+    assert_eq!(
+        st.subject.sessions[0].trials.len(),
+        82,
+        "{}",
+        st.status.text
+    );
+    assert_eq!(label(&st, 81).as_deref(), Some("tone-a + light-b rewarded"));
+    assert_eq!(label(&st, 82).as_deref(), Some("light-d omission"));
+    let groups: Vec<(&str, usize)> = st
+        .view
+        .groups
+        .iter()
+        .map(|g| (g.label.as_str(), g.trials.len()))
+        .collect();
+    assert!(groups.contains(&("light-d omission", 7)), "{groups:?}");
+    assert!(st.span_of(80).is_some() && st.span_of(81).is_some());
+    assert!(!f.poll_into(&mut st), "rows arrive once");
+}

@@ -7,9 +7,11 @@
 //! next poll. A file that shrank or was replaced cannot be followed: the caller reloads.
 
 use super::diag::Diagnostic;
+use super::events::{self, RawEvent, EVENTS_FILE};
 use super::load::match_cues;
 use super::tables::{self, LICKS_FILE, SPIKES_FILE, TRIALS_FILE};
 use super::{SessionMeta, Trial};
+use std::collections::HashSet;
 use std::fs::File;
 use std::io::{BufReader, Read, Seek, SeekFrom};
 use std::path::{Path, PathBuf};
@@ -20,6 +22,7 @@ pub enum TableKind {
     Trials,
     Spikes,
     Licks,
+    Events,
 }
 
 impl TableKind {
@@ -28,6 +31,7 @@ impl TableKind {
             TableKind::Trials => TRIALS_FILE,
             TableKind::Spikes => SPIKES_FILE,
             TableKind::Licks => LICKS_FILE,
+            TableKind::Events => EVENTS_FILE,
         }
     }
 }
@@ -39,6 +43,8 @@ pub struct NewRows {
     /// (unit id, spike time).
     pub spikes: Vec<(String, f64)>,
     pub licks: Vec<f64>,
+    /// events.csv rows; those of trials not yet in trials.csv wait ([`NewRows::merge_into`]).
+    pub events: Vec<RawEvent>,
     /// Bad rows (file:line) and warnings; bad rows are left out.
     pub diagnostics: Vec<Diagnostic>,
 }
@@ -46,9 +52,19 @@ pub struct NewRows {
 impl NewRows {
     /// Add the rows to the session they were read from: trials at the end, spikes and licks in
     /// time order (a unit not seen before is added after the others, so unit indices held
-    /// elsewhere stay valid).
-    pub fn merge_into(self, session: &mut crate::data::Session) {
+    /// elsewhere stay valid), events to their trials. Returns the events whose trial has not
+    /// arrived yet (the rig may write a trial's events before its trials.csv row): hand them
+    /// back with the next rows.
+    pub fn merge_into(self, session: &mut crate::data::Session) -> Vec<RawEvent> {
         session.trials.extend(self.trials);
+        let known: HashSet<i64> = session.trials.iter().map(|t| t.number).collect();
+        let (ready, waiting): (Vec<RawEvent>, Vec<RawEvent>) = self
+            .events
+            .into_iter()
+            .partition(|e| known.contains(&e.trial));
+        if !ready.is_empty() {
+            events::attach(&session.meta, &mut session.trials, &ready);
+        }
         if !self.spikes.is_empty() {
             let spikes = session.spikes.get_or_insert_with(Default::default);
             for (unit, t) in self.spikes {
@@ -69,12 +85,14 @@ impl NewRows {
                 insert_sorted(licks, t);
             }
         }
+        waiting
     }
 
     pub fn is_empty(&self) -> bool {
         self.trials.is_empty()
             && self.spikes.is_empty()
             && self.licks.is_empty()
+            && self.events.is_empty()
             && self.diagnostics.is_empty()
     }
 }
@@ -103,6 +121,8 @@ pub struct Tail {
     file_id: Option<u64>,
     last_trial: Option<i64>,
     meta: SessionMeta,
+    /// Trials with events.csv rows (trials.csv may then give them neither cue nor reward).
+    event_trials: HashSet<i64>,
 }
 
 impl Tail {
@@ -137,6 +157,7 @@ impl Tail {
             file_id: file_id(&md),
             last_trial: None,
             meta: meta.clone(),
+            event_trials: HashSet::new(),
         };
         if kind == TableKind::Trials {
             // Later trial numbers must exceed every loaded one; the file is small.
@@ -158,6 +179,12 @@ impl Tail {
     /// Bytes read so far (past the last complete line).
     pub fn offset(&self) -> u64 {
         self.offset
+    }
+
+    /// Trials that have events.csv rows, so that their trials.csv rows may carry neither cue nor
+    /// reward (poll events.csv before trials.csv and pass its trial numbers here).
+    pub fn note_event_trials(&mut self, trials: impl IntoIterator<Item = i64>) {
+        self.event_trials.extend(trials);
     }
 
     /// Look for appended rows. Costs one `stat` when nothing changed.
@@ -207,9 +234,13 @@ impl Tail {
         match self.kind {
             TableKind::Trials => {
                 let declared: Vec<&str> = self.meta.cues.iter().map(|c| c.name.as_str()).collect();
-                if let Some(p) =
-                    tables::read_trials(&self.path, &chunk[..], Some(&declared), &mut diags)
-                {
+                if let Some(p) = tables::read_trials_with(
+                    &self.path,
+                    &chunk[..],
+                    Some(&declared),
+                    &self.event_trials,
+                    &mut diags,
+                ) {
                     let mut raw = p.value;
                     raw.retain(|t| match self.last_trial {
                         Some(prev) if t.number <= prev => {
@@ -243,6 +274,14 @@ impl Tail {
             TableKind::Licks => {
                 if let Some(p) = tables::read_licks(&self.path, &chunk[..], None, &mut diags) {
                     rows.licks = p.value;
+                }
+            }
+            TableKind::Events => {
+                let declared: Vec<&str> = self.meta.cues.iter().map(|c| c.name.as_str()).collect();
+                if let Some(p) =
+                    events::read_events(&self.path, &chunk[..], Some(&declared), &mut diags)
+                {
+                    rows.events = p.value;
                 }
             }
         }

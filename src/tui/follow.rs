@@ -4,6 +4,7 @@
 use super::derived::ModelSettings;
 use super::state::{State, Tone};
 use super::update;
+use crate::data::events::RawEvent;
 use crate::data::follow::{Polled, TableKind, Tail};
 use crate::data::Session;
 
@@ -21,19 +22,28 @@ pub struct Follower {
     pub new_trials: usize,
     /// Set once a file shrank or was replaced: following stops, the reviewer must reopen.
     pub stopped: Option<String>,
+    /// events.csv rows whose trial has not reached trials.csv yet.
+    waiting: Vec<RawEvent>,
 }
 
 impl Follower {
-    /// Follow `session` (index `index`) from the current end of its trials, spikes and licks
-    /// files. A file missing now is not picked up later (the rig writes all three from the
-    /// start); a header that cannot be read is an error.
+    /// Follow `session` (index `index`) from the current end of its events, trials, spikes and
+    /// licks files. A file missing now is not picked up later (the rig writes them from the
+    /// start); a header that cannot be read is an error. events.csv is polled first so that a
+    /// trial given only by its events is known when its trials.csv row arrives.
     pub fn start(
         index: usize,
         session: &Session,
         settings: ModelSettings,
     ) -> Result<Self, crate::data::Diagnostic> {
         let mut tails = Vec::new();
-        for kind in [TableKind::Trials, TableKind::Spikes, TableKind::Licks] {
+        let kinds = [
+            TableKind::Events,
+            TableKind::Trials,
+            TableKind::Spikes,
+            TableKind::Licks,
+        ];
+        for kind in kinds {
             match Tail::at_end(&session.dir, kind, &session.meta) {
                 Ok(Some(t)) => tails.push(t),
                 Ok(None) => {}
@@ -46,6 +56,7 @@ impl Follower {
             settings,
             new_trials: 0,
             stopped: None,
+            waiting: Vec::new(),
         })
     }
 
@@ -56,12 +67,17 @@ impl Follower {
         }
         let mut arrived = crate::data::follow::NewRows::default();
         for tail in &mut self.tails {
+            if tail.kind() == TableKind::Trials {
+                let waiting = self.waiting.iter().chain(&arrived.events);
+                tail.note_event_trials(waiting.map(|e| e.trial));
+            }
             match tail.poll() {
                 Polled::Unchanged => {}
                 Polled::Rows(r) => {
                     arrived.trials.extend(r.trials);
                     arrived.spikes.extend(r.spikes);
                     arrived.licks.extend(r.licks);
+                    arrived.events.extend(r.events);
                     arrived.diagnostics.extend(r.diagnostics);
                 }
                 Polled::Reload(why) => {
@@ -75,10 +91,14 @@ impl Follower {
         if arrived.is_empty() {
             return false;
         }
+        // Events still waiting for their trial go in again; they attach once it arrives.
+        let mut events = std::mem::take(&mut self.waiting);
+        events.append(&mut arrived.events);
+        arrived.events = events;
         self.new_trials += arrived.trials.len();
         let problems = arrived.diagnostics.len();
         let first_problem = arrived.diagnostics.first().map(|d| d.to_string());
-        update::append_recorded(state, self.session, arrived, &self.settings);
+        self.waiting = update::append_recorded(state, self.session, arrived, &self.settings);
         match first_problem {
             Some(p) => update::notice(
                 state,

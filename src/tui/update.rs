@@ -501,9 +501,10 @@ pub fn append_recorded(
     session: usize,
     rows: crate::data::follow::NewRows,
     settings: &derived::ModelSettings,
-) {
+) -> Vec<crate::data::events::RawEvent> {
     let s = &mut state.subject.sessions[session];
     let new_trials = rows.trials.len();
+    let arrived_events = rows.events.len();
     // Traces and suggestions look at windows around trials: rows after the last trial's window
     // change neither until the next trial arrives, which rebuilds both.
     let reach = s
@@ -513,20 +514,23 @@ pub fn append_recorded(
         .map_or(f64::INFINITY, |at| at + state.view.to_s);
     let touches =
         rows.licks.iter().any(|&t| t <= reach) || rows.spikes.iter().any(|&(_, t)| t <= reach);
-    rows.merge_into(s);
-    if new_trials > 0 {
+    let waiting = rows.merge_into(s);
+    // Events that reached a trial change its layout in the model.
+    let attached = arrived_events - waiting.len();
+    if new_trials > 0 || attached > 0 {
         let m = state.model.measurement.clone();
         state.model = derived::ModelView::build(&state.subject, settings, &m);
         state.obs = derived::observe_spans(&state.subject, &state.model, &m.obs);
         state.sessions[session].photometry_view = None;
         rebuild_days(state);
     }
-    if new_trials == 0 && !touches {
-        return;
+    if new_trials == 0 && attached == 0 && !touches {
+        return waiting;
     }
     state.sessions[session].suggested = None;
     if session == state.session {
         rebuild_view(state);
         ensure_suggestions(state, session);
     }
+    waiting
 }
