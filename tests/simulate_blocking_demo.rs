@@ -155,3 +155,69 @@ fn a_plain_subject_has_no_table_by_trial_type() {
         "{text}"
     );
 }
+
+/// The fit says it too: in `fit`'s trials.csv the model's predicted cue response to the blocked
+/// light probed alone (B, day 6) stays near zero while the control light's (D) is clearly
+/// positive, and the observed probe responses agree in sign and order.
+#[test]
+fn the_fitted_model_predicts_the_blocked_probe_near_zero() {
+    let tmp = tempfile::tempdir().unwrap();
+    let subject = tmp.path().join("m-052");
+    for (rel, bytes) in tree(&repo("demo_data/m-052")) {
+        let to = subject.join(rel);
+        std::fs::create_dir_all(to.parent().unwrap()).unwrap();
+        std::fs::write(to, bytes).unwrap();
+    }
+    let out_dir = tmp.path().join("fit");
+    let out = Command::new(env!("CARGO_BIN_EXE_trialdesk"))
+        .arg("fit")
+        .arg(&subject)
+        .args([
+            "--bootstrap",
+            "0",
+            "--no-compare",
+            "--no-sensitivity",
+            "--no-save",
+        ])
+        .arg("--out")
+        .arg(&out_dir)
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "{out:?}");
+    // Probe trials: a light alone, its trials.csv cue.
+    let mut probes: BTreeMap<i64, String> = BTreeMap::new();
+    let day6 = repo("demo_data/m-052/2026-03-07");
+    let mut r = csv::Reader::from_path(day6.join("trials.csv")).unwrap();
+    for row in r.records() {
+        let row = row.unwrap();
+        if row[1].starts_with("light") {
+            probes.insert(row[0].parse().unwrap(), row[1].to_string());
+        }
+    }
+    let mut reader = csv::Reader::from_path(out_dir.join("trials.csv")).unwrap();
+    let mut sums: BTreeMap<String, (f64, f64, usize)> = BTreeMap::new();
+    for row in reader.records() {
+        let row = row.unwrap();
+        let trial: i64 = row[1].parse().unwrap();
+        if &row[0] != "2026-03-07" || !row[2].starts_with("cue:") {
+            continue;
+        }
+        let Some(cue) = probes.get(&trial) else {
+            continue;
+        };
+        let (obs, pred): (f64, f64) = (row[3].parse().unwrap(), row[4].parse().unwrap());
+        let e = sums.entry(cue.clone()).or_default();
+        *e = (e.0 + obs, e.1 + pred, e.2 + 1);
+    }
+    let probe = |cue: &str| {
+        let (o, p, n) = sums[cue];
+        assert!(n >= 3, "{cue}: {n} probe windows");
+        (o / n as f64, p / n as f64)
+    };
+    let ((ob, pb), (od, pd)) = (probe("light-b"), probe("light-d"));
+    assert!(
+        pb.abs() < 0.5 * pd && pd > 1.0,
+        "predicted B {pb} vs D {pd}"
+    );
+    assert!(ob < od, "observed B {ob} vs D {od}");
+}
