@@ -107,6 +107,18 @@ fn the_days_screen_follows_each_cue_in_turn() {
     }
     let mut st = state(&dir);
     press(&mut st, "3");
+    // The current session by trial type: on the probe day, each light alone beside the
+    // compounds.
+    press(&mut st, "]]]]]");
+    let frame = frame_text(100, 30, &st);
+    assert!(frame.contains("2026-03-07 by trial type"), "{frame}");
+    for t in [
+        "tone-a + light-b rewarded",
+        "light-b omission",
+        "light-d omission",
+    ] {
+        assert!(frame.contains(t), "{t}\n{frame}");
+    }
     let caption = |st: &trialdesk::tui::state::State| {
         let frame = frame_text(100, 30, st);
         let line = frame.lines().find(|l| l.contains("| responses:"));

@@ -5,7 +5,7 @@
 use crate::summary::{CueDay, DayRow};
 use crate::tui::state::State;
 use crate::tui::theme::{Role, Theme};
-use crate::tui::widgets::{fill_row, num, put};
+use crate::tui::widgets::{fill_row, num, put, type_rows};
 use crate::util::decimals_for;
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
@@ -162,7 +162,20 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         theme.style(Role::Dim),
     );
     let curves = 5u16.min(area.height.saturating_sub(4));
-    let table_h = area.height.saturating_sub(2 + curves);
+    // With event lists, the current session by trial type, between the table and the curves
+    // (when there is room for at least three table rows as well).
+    let current = state.days.get(state.session);
+    let types_h = type_rows::height(&state.days, current);
+    let types_h = if area.height >= 2 + curves + types_h + 3 {
+        types_h
+    } else {
+        0
+    };
+    let mut table_h = area.height.saturating_sub(2 + curves + types_h);
+    if types_h > 0 {
+        // The block sits right under the sessions.
+        table_h = table_h.min(state.days.len() as u16);
+    }
     let rows = table_h as usize;
     let n = state.days.len();
     let first = state
@@ -198,10 +211,14 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
             style,
         );
     }
+    if let (Some(day), true) = (current, types_h > 0) {
+        let at = Rect::new(area.x, area.y + 2 + table_h, area.width, types_h);
+        type_rows::render(buf, at, day, theme);
+    }
     if curves == 0 {
         return;
     }
-    let cy = area.y + 2 + table_h;
+    let cy = area.y + 2 + table_h + types_h;
     let box_area = Rect::new(area.x, cy, area.width, curves);
     let w = area.width.saturating_sub(24) as usize;
     let by_day = |f: &dyn Fn(&DayRow) -> Option<f64>| -> Vec<f64> {
@@ -240,8 +257,8 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         ),
         ("reward by day", by_day(&|d| d.reward_response.value)),
         ("licks by day", by_day(&|d| d.lick_rate.value)),
-        ("cue, trial by trial", per_trial_cue),
-        ("reward, trial by trial", per_trial_rew),
+        ("cue, per trial", per_trial_cue),
+        ("reward, per trial", per_trial_rew),
     ];
     for (dy, (label, values)) in lines.iter().enumerate().take(curves as usize) {
         put(

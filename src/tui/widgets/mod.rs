@@ -11,6 +11,7 @@ pub mod status_bar;
 pub mod tabs;
 pub mod trace;
 pub mod trial_list;
+pub mod type_rows;
 
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
