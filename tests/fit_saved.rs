@@ -37,6 +37,8 @@ fn example() -> SavedFit {
         sensor_rise_s: None,
         sensor_decay_s: None,
         likelihood: None,
+        scale_by: None,
+        groups: Vec::new(),
     }
 }
 

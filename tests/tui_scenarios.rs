@@ -367,6 +367,8 @@ fn saved_fit_parameters_are_used_and_labelled() {
         sensor_rise_s: None,
         sensor_decay_s: None,
         likelihood: None,
+        scale_by: None,
+        groups: Vec::new(),
     };
     save(&dir, &fit).unwrap();
     let settings = ModelSettings::from_subject(&dir).unwrap();

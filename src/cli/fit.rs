@@ -8,7 +8,7 @@ use super::obs_args::ObsArgs;
 use super::{CliError, CmdResult};
 use crate::cohort::Shard;
 use crate::data;
-use crate::fit::{self, report, saved, FitOptions, Progress, ResampleUnit};
+use crate::fit::{self, dataset, report, saved, FitOptions, Progress, ResampleUnit};
 use crate::model::{self, Representation};
 use crate::plan::{self, fit::FitError, fit::FitJob};
 use std::io::Write;
@@ -53,6 +53,10 @@ pub struct Args {
     /// gaussian for photometry]
     #[arg(long)]
     pub likelihood: Option<String>,
+    /// Give each session or each rig (`rig` in session.toml) its own gain and baselines, the
+    /// learning parameters shared: subject (one gain, the default), session or rig
+    #[arg(long, default_value = "subject", value_name = "GROUP")]
+    pub scale_by: String,
     /// What the bootstrap resamples: trials, blocks (20 neighbouring trials) or sessions
     #[arg(long, default_value = "trials")]
     pub bootstrap_by: String,
@@ -210,9 +214,16 @@ pub(crate) fn fit_subject(
         (None, Some(note)) => eprintln!("warning: {note}"),
         _ => {}
     }
+    let scale_by = dataset::ScaleBy::parse(&args.scale_by).ok_or_else(|| {
+        CliError::usage(format!(
+            "--scale-by '{}' is not known (expected subject, session or rig)",
+            args.scale_by
+        ))
+    })?;
     let request = plan::fit::FitRequest {
         obs: args.obs.request(),
         dt: args.dt,
+        scale_by,
         ignore_marks: args.ignore_marks,
         sensitivity: !args.no_sensitivity,
         command: command_line(),

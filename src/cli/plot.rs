@@ -301,6 +301,7 @@ fn run_subject(args: Args) -> CmdResult {
                 None => data,
             };
             // The representation was checked with the saved fit.
+            let data = fit.fit.with_groups(data, &subject);
             let predicted = fit.fit.predictions(&data).unwrap_or_default();
             let rows = fit_trials::rows_from(&data, &predicted);
             let title = format!(

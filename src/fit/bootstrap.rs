@@ -46,11 +46,13 @@ impl ResampleUnit {
 }
 
 /// One replicate's estimates.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct Replicate {
     pub params: LearnParams,
     pub gain: f64,
     pub baselines: [Option<f64>; 2],
+    /// `--scale-by`: each group's gain and baselines in this replicate.
+    pub groups: Vec<super::objective::GroupLinear>,
 }
 
 /// Percentile intervals (2.5 %, 97.5 %) from the replicates that could be fitted.
@@ -171,6 +173,7 @@ pub fn bootstrap(
                     params: f.params,
                     gain: f.linear.gain,
                     baselines: f.linear.baselines,
+                    groups: f.linear.groups,
                 };
                 (rep, f.evaluations)
             })

@@ -94,6 +94,84 @@ pub struct FitData {
     /// Spikes: per point, the spike count in its window ([`spike_counts`]), for the
     /// Poisson likelihood.
     pub counts: Option<Vec<super::likelihood::WindowCount>>,
+    /// `--scale-by`: groups of points with their own gain and baselines ([`groups`]); `None`
+    /// for one gain and one pair of baselines over the whole subject.
+    pub groups: Option<Groups>,
+}
+
+/// What gets its own gain and baselines (the learning parameters stay shared).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum ScaleBy {
+    /// One gain for the whole subject (the default, as before).
+    #[default]
+    Subject,
+    /// Each session (acute recordings, a patch cord replaced between days).
+    Session,
+    /// Each rig (`rig` in session.toml; sessions without one form the group "(no rig)").
+    Rig,
+}
+
+impl ScaleBy {
+    pub const ALL: [ScaleBy; 3] = [ScaleBy::Subject, ScaleBy::Session, ScaleBy::Rig];
+
+    pub fn name(self) -> &'static str {
+        match self {
+            ScaleBy::Subject => "subject",
+            ScaleBy::Session => "session",
+            ScaleBy::Rig => "rig",
+        }
+    }
+
+    pub fn parse(s: &str) -> Option<Self> {
+        Self::ALL.into_iter().find(|b| b.name() == s)
+    }
+}
+
+/// Points grouped for their own gain and baselines.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Groups {
+    pub by: ScaleBy,
+    /// Group names (session folder names, or rig names), in first-seen training order.
+    pub names: Vec<String>,
+    /// Per point, its index into `names`.
+    pub of_point: Vec<u32>,
+}
+
+/// The points' groups under `by`; `None` for [`ScaleBy::Subject`].
+pub fn groups(data: &FitData, subject: &Subject, by: ScaleBy) -> Option<Groups> {
+    let key = |point: usize| -> String {
+        let session = data.session_of(point);
+        match by {
+            ScaleBy::Subject => String::new(),
+            ScaleBy::Session => data.session_names[session].clone(),
+            ScaleBy::Rig => subject.sessions[session]
+                .meta
+                .rig
+                .clone()
+                .unwrap_or_else(|| "(no rig)".to_string()),
+        }
+    };
+    if by == ScaleBy::Subject {
+        return None;
+    }
+    let mut names: Vec<String> = Vec::new();
+    let mut of_point = Vec::with_capacity(data.points.len());
+    for i in 0..data.points.len() {
+        let k = key(i);
+        let g = match names.iter().position(|n| *n == k) {
+            Some(g) => g,
+            None => {
+                names.push(k);
+                names.len() - 1
+            }
+        };
+        of_point.push(g as u32);
+    }
+    Some(Groups {
+        by,
+        names,
+        of_point,
+    })
 }
 
 impl FitData {
@@ -256,6 +334,7 @@ pub fn build(
         exclusions,
         weighted: None,
         counts: None,
+        groups: None,
     }
 }
 

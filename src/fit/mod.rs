@@ -245,12 +245,23 @@ pub fn run_fit(
     let (r_squared, rmse) = objective::goodness(data, &included, &predicted);
 
     let mut warnings = Vec::new();
-    if best.linear.gain <= 0.0 {
+    if best.linear.gain <= 0.0 && best.linear.groups.is_empty() {
         warnings.push(format!(
             "the fitted gain is {} (not positive): the responses do not rise with the model's \
              prediction error, so the learning parameters mean little",
             report::num(best.linear.gain)
         ));
+    }
+    if let Some(groups) = &data.groups {
+        for g in best.linear.groups.iter().filter(|g| g.gain <= 0.0) {
+            warnings.push(format!(
+                "the gain of {} {} is {} (not positive): its responses do not rise with the \
+                 model's prediction error",
+                groups.by.name(),
+                groups.names[g.group],
+                report::num(g.gain)
+            ));
+        }
     }
 
     let p = best.params;

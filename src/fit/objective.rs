@@ -39,8 +39,9 @@ pub struct LearnParams {
 }
 
 /// The closed-form part of a fit.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct LinearFit {
+    /// The gain (with `--scale-by`: the first fitted group's; every group's in `groups`).
     pub gain: f64,
     /// Baseline per window kind (`WindowKind::index`); `None` when no such window was fitted.
     pub baselines: [Option<f64>; 2],
@@ -50,6 +51,20 @@ pub struct LinearFit {
     pub likelihood: Likelihood,
     /// Maximised log-likelihood (σ² profiled out for the Gaussian).
     pub loglik: f64,
+    /// `--scale-by`: each group's own gain and baselines (groups without points in the fitted
+    /// set are absent); empty for one gain over the subject.
+    pub groups: Vec<GroupLinear>,
+}
+
+/// Gain and baselines of one group of points ([`super::dataset::Groups`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct GroupLinear {
+    /// Index into `Groups::names`.
+    pub group: usize,
+    pub gain: f64,
+    pub baselines: [Option<f64>; 2],
+    /// Points of the group in the fit.
+    pub n: usize,
 }
 
 impl LinearFit {
@@ -57,9 +72,32 @@ impl LinearFit {
         self.baselines[kind.index()].unwrap_or(0.0) + self.gain * x
     }
 
-    /// Number of baselines estimated.
+    /// (gain, baselines) that map δ onto responses for a point of `group` (`None`: ungrouped
+    /// data). A group the fit never saw gets NaN: no prediction is better than a wrong one.
+    pub fn scale_of(&self, group: Option<usize>) -> (f64, [Option<f64>; 2]) {
+        match (group, self.groups.is_empty()) {
+            (None, _) | (_, true) => (self.gain, self.baselines),
+            (Some(g), false) => self
+                .groups
+                .iter()
+                .find(|x| x.group == g)
+                .map_or((f64::NAN, [None; 2]), |x| (x.gain, x.baselines)),
+        }
+    }
+
+    /// Number of baselines estimated (over every group).
     pub fn n_baselines(&self) -> usize {
-        self.baselines.iter().filter(|b| b.is_some()).count()
+        let count = |b: &[Option<f64>; 2]| b.iter().filter(|b| b.is_some()).count();
+        if self.groups.is_empty() {
+            count(&self.baselines)
+        } else {
+            self.groups.iter().map(|g| count(&g.baselines)).sum()
+        }
+    }
+
+    /// Number of gains estimated (one per group).
+    pub fn n_gains(&self) -> usize {
+        self.groups.len().max(1)
     }
 
     /// Maximised log-likelihood under [`LinearFit::likelihood`].
@@ -149,6 +187,7 @@ pub fn least_squares(
         n: idx.len(),
         likelihood: Likelihood::Gaussian,
         loglik: gaussian_loglik(rss, idx.len()),
+        groups: Vec::new(),
     })
 }
 
@@ -184,6 +223,12 @@ pub fn expit(z: f64) -> f64 {
 pub fn logit(p: f64) -> f64 {
     let p = p.clamp(1e-12, 1.0 - 1e-12);
     (p / (1.0 - p)).ln().clamp(-Z_BOUND, Z_BOUND)
+}
+
+/// What the closed-form part regresses on: window sums (Gaussian) or per-bin δ (Poisson).
+enum Predictors {
+    Sums(Vec<f64>),
+    Deltas(WindowDeltas),
 }
 
 /// One model on one data set: maps search coordinates to δ sums and scores them.
@@ -237,12 +282,13 @@ impl<'a> Problem<'a> {
         }
     }
 
-    /// Parameters counted by AIC/BIC: learning parameters, gain, baselines, σ (Gaussian).
+    /// Parameters counted by AIC/BIC: learning parameters, gains and baselines, σ (Gaussian),
+    /// each group's own under `--scale-by`.
     pub fn n_params(&self, linear: &LinearFit) -> usize {
         self.n_free()
-            + 1
+            + linear.n_gains()
             + linear.n_baselines()
-            + usize::from(linear.likelihood == Likelihood::Gaussian)
+            + usize::from(linear.likelihood == Likelihood::Gaussian) * linear.n_gains()
     }
 
     pub fn to_params(&self, z: &[f64]) -> LearnParams {
@@ -353,12 +399,54 @@ impl<'a> Problem<'a> {
     }
 
     /// Profile gain and baselines (closed form for the Gaussian, Fisher scoring for Poisson)
-    /// at learning parameters `p` on the points `idx`.
+    /// at learning parameters `p` on the points `idx`; with `--scale-by` groups, each group's
+    /// on its own points (the likelihood separates over groups, each with its own σ).
     pub fn fit_linear(&self, p: &LearnParams, idx: &[usize]) -> Option<LinearFit> {
-        match (self.likelihood, &self.data.counts) {
-            (Likelihood::Poisson, Some(counts)) => {
-                let deltas = self.window_deltas(p);
-                let f = likelihood::poisson_fit(&deltas, counts, &self.kinds, idx)?;
+        let pred = match (self.likelihood, &self.data.counts) {
+            (Likelihood::Poisson, Some(_)) => Predictors::Deltas(self.window_deltas(p)),
+            _ => Predictors::Sums(self.predictors(p)),
+        };
+        let Some(groups) = &self.data.groups else {
+            return self.fit_scale(&pred, idx);
+        };
+        let mut parts: Vec<Vec<usize>> = vec![Vec::new(); groups.names.len()];
+        for &i in idx {
+            parts[groups.of_point[i] as usize].push(i);
+        }
+        let mut fits = Vec::new();
+        for (g, part) in parts.iter().enumerate().filter(|(_, p)| !p.is_empty()) {
+            fits.push((g, self.fit_scale(&pred, part)?));
+        }
+        let (_, first) = fits.first()?;
+        let n: usize = fits.iter().map(|(_, f)| f.n).sum();
+        let rss: f64 = fits.iter().map(|(_, f)| f.rss).sum();
+        // Each group its own noise level too (a dimmer rig scales its noise with its signal):
+        // the likelihood is the sum over groups, σ_g² = RSS_g/n_g profiled out per group.
+        let loglik = fits.iter().map(|(_, f)| f.loglik).sum();
+        Some(LinearFit {
+            gain: first.gain,
+            baselines: first.baselines,
+            rss,
+            n,
+            likelihood: first.likelihood,
+            loglik,
+            groups: fits
+                .iter()
+                .map(|(g, f)| GroupLinear {
+                    group: *g,
+                    gain: f.gain,
+                    baselines: f.baselines,
+                    n: f.n,
+                })
+                .collect(),
+        })
+    }
+
+    /// One gain and one pair of baselines over the points `idx`.
+    fn fit_scale(&self, pred: &Predictors, idx: &[usize]) -> Option<LinearFit> {
+        match (pred, &self.data.counts) {
+            (Predictors::Deltas(deltas), Some(counts)) => {
+                let f = likelihood::poisson_fit(deltas, counts, &self.kinds, idx)?;
                 Some(LinearFit {
                     gain: f.gain,
                     baselines: f.baselines,
@@ -366,10 +454,17 @@ impl<'a> Problem<'a> {
                     n: idx.len(),
                     likelihood: Likelihood::Poisson,
                     loglik: f.log_likelihood,
+                    groups: Vec::new(),
                 })
             }
-            _ => self.linear(&self.predictors(p), idx),
+            (Predictors::Sums(x), _) => self.linear(x, idx),
+            (Predictors::Deltas(_), None) => None,
         }
+    }
+
+    /// The group of point `i` (`None` without `--scale-by` groups).
+    pub fn group_of(&self, i: usize) -> Option<usize> {
+        self.data.groups.as_ref().map(|g| g.of_point[i] as usize)
     }
 
     /// Predicted response of every point, in the units of `ObsPoint::observed`: baseline +
@@ -381,16 +476,23 @@ impl<'a> Problem<'a> {
             Likelihood::Gaussian => points
                 .iter()
                 .zip(self.predictors(p))
-                .map(|(pt, x)| fit.predict(pt.kind, x))
+                .enumerate()
+                .map(|(i, (pt, x))| {
+                    let (gain, baselines) = fit.scale_of(self.group_of(i));
+                    baselines[pt.kind.index()].unwrap_or(0.0) + gain * x
+                })
                 .collect(),
             Likelihood::Poisson => {
                 let d = self.window_deltas(p);
                 points
                     .iter()
                     .enumerate()
-                    .map(|(i, pt)| match fit.baselines[pt.kind.index()] {
-                        Some(b) => likelihood::predicted_response(d.of(i), b, fit.gain),
-                        None => f64::NAN,
+                    .map(|(i, pt)| {
+                        let (gain, baselines) = fit.scale_of(self.group_of(i));
+                        match baselines[pt.kind.index()] {
+                            Some(b) => likelihood::predicted_response(d.of(i), b, gain),
+                            None => f64::NAN,
+                        }
                     })
                     .collect()
             }

@@ -35,7 +35,8 @@ pub fn num(x: f64) -> String {
 /// One reported parameter: name, estimate, interval.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ParamRow {
-    pub name: &'static str,
+    /// `alpha`, `gamma`, …; with `--scale-by`, `gain[<group>]` and `baseline_cue[<group>]`.
+    pub name: std::borrow::Cow<'static, str>,
     pub estimate: f64,
     pub interval: Option<(f64, f64)>,
 }
@@ -58,46 +59,69 @@ pub fn param_rows(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -> Vec<
             .and_then(|i: &Intervals| i.interval(f))
     };
     let mut rows = vec![ParamRow {
-        name: "alpha",
+        name: "alpha".into(),
         estimate: p.alpha,
         interval: iv(&|r| Some(r.params.alpha)),
     }];
     if matches!(out.model, ModelSpec::Td(_)) {
         rows.push(ParamRow {
-            name: "gamma",
+            name: "gamma".into(),
             estimate: p.gamma,
             interval: gamma_interval(out, gamma_flat, iv(&|r| Some(r.params.gamma))),
         });
         // τ is monotone in γ, so its interval is γ's mapped through.
         rows.push(ParamRow {
-            name: "tau_s",
+            name: "tau_s".into(),
             estimate: tau_s(p.gamma, dt),
             interval: gamma_interval(out, gamma_flat, iv(&|r| Some(r.params.gamma)))
                 .map(|(a, b)| (tau_s(a, dt), tau_s(b, dt))),
         });
         if lambda_fitted {
             rows.push(ParamRow {
-                name: "lambda",
+                name: "lambda".into(),
                 estimate: p.lambda,
                 interval: iv(&|r| Some(r.params.lambda)),
             });
         }
     }
-    rows.push(ParamRow {
-        name: "gain",
-        estimate: lin.gain,
-        interval: iv(&|r| Some(r.gain)),
-    });
-    for kind in WindowKind::ALL {
-        if let Some(b) = lin.baselines[kind.index()] {
-            rows.push(ParamRow {
-                name: match kind {
-                    WindowKind::Cue => "baseline_cue",
-                    WindowKind::Reward => "baseline_reward",
-                },
-                estimate: b,
-                interval: iv(&|r| r.baselines[kind.index()]),
-            });
+    let baseline_name = |kind: WindowKind| match kind {
+        WindowKind::Cue => "baseline_cue",
+        WindowKind::Reward => "baseline_reward",
+    };
+    let Some(groups) = data.groups.as_ref().filter(|_| !lin.groups.is_empty()) else {
+        rows.push(ParamRow {
+            name: "gain".into(),
+            estimate: lin.gain,
+            interval: iv(&|r| Some(r.gain)),
+        });
+        for kind in WindowKind::ALL {
+            if let Some(b) = lin.baselines[kind.index()] {
+                rows.push(ParamRow {
+                    name: baseline_name(kind).into(),
+                    estimate: b,
+                    interval: iv(&|r| r.baselines[kind.index()]),
+                });
+            }
+        }
+        return rows;
+    };
+    // `--scale-by`: each group's gain and baselines, named by the group.
+    for g in &lin.groups {
+        let name = &groups.names[g.group];
+        let of = |r: &Replicate| r.groups.iter().find(|x| x.group == g.group).copied();
+        rows.push(ParamRow {
+            name: format!("gain[{name}]").into(),
+            estimate: g.gain,
+            interval: iv(&|r| of(r).map(|x| x.gain)),
+        });
+        for kind in WindowKind::ALL {
+            if let Some(b) = g.baselines[kind.index()] {
+                rows.push(ParamRow {
+                    name: format!("{}[{name}]", baseline_name(kind)).into(),
+                    estimate: b,
+                    interval: iv(&|r| of(r).and_then(|x| x.baselines[kind.index()])),
+                });
+            }
         }
     }
     rows
@@ -255,9 +279,16 @@ pub fn text_report(
             let _ = writeln!(s, "Parameters (no bootstrap: intervals not computed):");
         }
     }
+    // Group rows (`gain[<rig>]`) may be longer than the usual names.
+    let w = rows
+        .iter()
+        .map(|r| r.name.chars().count())
+        .max()
+        .unwrap_or(0)
+        .max(16);
     let _ = writeln!(
         s,
-        "  {:<16} {:>12} {:>12} {:>12}",
+        "  {:<w$} {:>12} {:>12} {:>12}",
         "parameter", "estimate", "lower", "upper"
     );
     for r in &rows {
@@ -265,12 +296,12 @@ pub fn text_report(
             .interval
             .map(|(l, h)| (num(l), num(h)))
             .unwrap_or_else(|| ("-".into(), "-".into()));
-        let mut unit = match r.name {
+        let mut unit = match r.name.as_ref() {
             "gamma" | "lambda" => format!("  per {} s bin", data.dt),
             "tau_s" => "  seconds".to_string(),
             _ => String::new(),
         };
-        if matches!(r.name, "gamma" | "tau_s") && gamma_interval_withheld(out) {
+        if matches!(r.name.as_ref(), "gamma" | "tau_s") && gamma_interval_withheld(out) {
             unit.push_str(if gamma_one_sided(out) {
                 " (one-sided profile-likelihood bound: flat profile, bootstrap interval \
                  withheld, see the warning)"
@@ -284,7 +315,7 @@ pub fn text_report(
         }
         let _ = writeln!(
             s,
-            "  {:<16} {:>12} {:>12} {:>12}{unit}",
+            "  {:<w$} {:>12} {:>12} {:>12}{unit}",
             r.name,
             num(r.estimate),
             lo,
@@ -375,8 +406,17 @@ pub fn fitted_and_fixed(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -
         super::Likelihood::Gaussian => "least squares",
         super::Likelihood::Poisson => "Poisson maximum likelihood",
     };
+    let scaled = match &data.groups {
+        Some(g) => format!(
+            " per {} ({} groups: {}; the learning parameters shared)",
+            g.by.name(),
+            g.names.len(),
+            g.names.join(", ")
+        ),
+        None => String::new(),
+    };
     format!(
-        "fitted: {learning} (multi-start Nelder–Mead), gain and baselines ({profiled}); \
+        "fitted: {learning} (multi-start Nelder–Mead), gain and baselines{scaled} ({profiled}); \
          fixed: {}",
         fixed.join(", ")
     )
@@ -396,7 +436,12 @@ fn write_comparison(s: &mut String, out: &FitOutcome, data: &FitData, lambda_fit
             out.holdout_sessions
         )
     } else {
-        "held-out RMSE: n/a (needs at least two sessions with observations)".to_string()
+        match data.groups.as_ref().map(|g| g.by) {
+            Some(super::dataset::ScaleBy::Session) => "held-out RMSE: n/a (with a gain per \
+                 session, a held-out session has no gain of its own to predict with)"
+                .to_string(),
+            _ => "held-out RMSE: n/a (needs at least two sessions with observations)".to_string(),
+        }
     };
     let _ = writeln!(
         s,

@@ -68,6 +68,40 @@ pub struct SavedFit {
     /// `gaussian` or `poisson` (absent: gaussian, as in files written before Poisson fits).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub likelihood: Option<String>,
+    /// `--scale-by` of the fit: `session` or `rig` (absent: one gain for the subject).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub scale_by: Option<String>,
+    /// With `scale_by`: each group's own gain and baselines (`gain` and `baselines` above are
+    /// the first group's).
+    #[serde(default, rename = "group", skip_serializing_if = "Vec::is_empty")]
+    pub groups: Vec<SavedGroup>,
+}
+
+/// One group's readout in a fit made with `--scale-by`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct SavedGroup {
+    /// The session folder name, or the rig name ("(no rig)" for sessions without one).
+    pub name: String,
+    pub gain: f64,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub baseline_cue: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub baseline_reward: Option<f64>,
+}
+
+/// The group name of a session under a fit's `scale_by` (`None`: not grouped).
+pub fn group_key(scale_by: Option<&str>, session: &crate::data::Session) -> Option<String> {
+    match scale_by? {
+        "session" => Some(session.name.clone()),
+        "rig" => Some(
+            session
+                .meta
+                .rig
+                .clone()
+                .unwrap_or_else(|| "(no rig)".to_string()),
+        ),
+        _ => None,
+    }
 }
 
 impl SavedFit {
@@ -93,10 +127,24 @@ impl SavedFit {
         }
     }
 
-    /// Prediction of every point of `data` (already passed through [`SavedFit::fit_data`]):
-    /// window baseline + gain × predictor, the predictor from the fitter's own
-    /// [`Problem::predictors`]; NaN where the window's baseline was not fitted. `None` for an
-    /// unknown representation.
+    /// `data` grouped the way this fit grouped its points (`scale_by`), so that
+    /// [`SavedFit::predictions`] finds each point's own gain and baselines.
+    pub fn with_groups(&self, mut data: FitData, subject: &crate::data::Subject) -> FitData {
+        let by = self
+            .scale_by
+            .as_deref()
+            .and_then(dataset::ScaleBy::parse)
+            .unwrap_or_default();
+        data.groups = dataset::groups(&data, subject, by);
+        data
+    }
+
+    /// Prediction of every point of `data` (already passed through [`SavedFit::fit_data`]
+    /// and, for a fit with `scale_by`, [`SavedFit::with_groups`]): window baseline + gain ×
+    /// predictor (Gaussian) or the window's mean softplus rate minus the resting rate
+    /// (Poisson), with each point's own group's gain and baselines, the predictor from the
+    /// fitter's own [`Problem`]; NaN where the window's baseline was not fitted or the group
+    /// is unknown. `None` for an unknown representation.
     pub fn predictions(&self, data: &FitData) -> Option<Vec<f64>> {
         let model = match self.representation.as_str() {
             "rescorla-wagner" => ModelSpec::RescorlaWagner,
@@ -112,24 +160,44 @@ impl SavedFit {
             Some(l) => Likelihood::parse(l)?,
         };
         let problem = Problem::new(data, model, false, self.lambda).with_likelihood(likelihood);
+        let scale = |i: usize| {
+            if self.groups.is_empty() {
+                return (self.gain, [self.baselines.cue, self.baselines.reward]);
+            }
+            let name = data
+                .groups
+                .as_ref()
+                .map(|g| &g.names[g.of_point[i] as usize]);
+            match self.groups.iter().find(|g| Some(&g.name) == name) {
+                Some(g) => (g.gain, [g.baseline_cue, g.baseline_reward]),
+                None => (f64::NAN, [None, None]),
+            }
+        };
         if likelihood == Likelihood::Poisson {
-            let lin = super::LinearFit {
-                gain: self.gain,
-                baselines: [self.baselines.cue, self.baselines.reward],
-                rss: 0.0,
-                n: 0,
-                likelihood,
-                loglik: f64::NAN,
-            };
-            return Some(problem.predict_responses(&params, &lin));
+            let d = problem.window_deltas(&params);
+            return Some(
+                data.points
+                    .iter()
+                    .enumerate()
+                    .map(|(i, p)| {
+                        let (gain, b) = scale(i);
+                        b[p.kind.index()].map_or(f64::NAN, |b| {
+                            super::likelihood::predicted_response(d.of(i), b, gain)
+                        })
+                    })
+                    .collect(),
+            );
         }
         let x = problem.predictors(&params);
-        let baselines = [self.baselines.cue, self.baselines.reward];
         Some(
             data.points
                 .iter()
                 .zip(x)
-                .map(|(p, x)| baselines[p.kind.index()].map_or(f64::NAN, |b| b + self.gain * x))
+                .enumerate()
+                .map(|(i, (p, x))| {
+                    let (gain, b) = scale(i);
+                    b[p.kind.index()].map_or(f64::NAN, |b| b + gain * x)
+                })
                 .collect(),
         )
     }
@@ -296,6 +364,7 @@ pub fn option_changes(old: &SavedFit, new: &SavedFit) -> Vec<String> {
         show(&new.sensor_decay_s),
     );
     field("likelihood", show(&old.likelihood), show(&new.likelihood));
+    field("scale by", show(&old.scale_by), show(&new.scale_by));
     field(
         "representation",
         old.representation.clone(),

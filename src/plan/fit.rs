@@ -15,6 +15,8 @@ pub struct FitRequest {
     /// Model bin width, seconds.
     pub dt: f64,
     pub ignore_marks: bool,
+    /// What gets its own gain and baselines.
+    pub scale_by: dataset::ScaleBy,
     /// Refit with pending suggested marks excluded too (the report's sensitivity line).
     pub sensitivity: bool,
     /// The command line as the user would retype it (the report suggests it with `nice`).
@@ -74,6 +76,7 @@ impl<'a> FitJob<'a> {
         }
         // Spike counts per window, for the count likelihood (none for photometry).
         data.counts = dataset::spike_counts(&data, subject, &m.obs);
+        data.groups = dataset::groups(&data, subject, request.scale_by);
         Ok(FitJob {
             subject,
             request,
@@ -187,6 +190,20 @@ fn saved_record(
         sensor_rise_s: m.kernel.map(|k| k.rise_s),
         sensor_decay_s: m.kernel.map(|k| k.decay_s),
         likelihood: Some(outcome.best.linear.likelihood.name().to_string()),
+        scale_by: data.groups.as_ref().map(|g| g.by.name().to_string()),
+        groups: match &data.groups {
+            Some(g) => lin
+                .groups
+                .iter()
+                .map(|x| saved::SavedGroup {
+                    name: g.names[x.group].clone(),
+                    gain: x.gain,
+                    baseline_cue: x.baselines[0],
+                    baseline_reward: x.baselines[1],
+                })
+                .collect(),
+            None => Vec::new(),
+        },
     }
 }
 

@@ -83,6 +83,21 @@ impl CheckedFit {
                 return Err(bad(&path, field, format!("{v} is not a number")));
             }
         }
+        if let Some(s) = fit
+            .scale_by
+            .as_deref()
+            .filter(|s| !["subject", "session", "rig"].contains(s))
+        {
+            let msg = format!("`{s}` is not known (expected subject, session or rig)");
+            return Err(bad(&path, "scale_by", msg));
+        }
+        for g in &fit.groups {
+            let values = [Some(g.gain), g.baseline_cue, g.baseline_reward];
+            if let Some(v) = values.into_iter().flatten().find(|v| !v.is_finite()) {
+                let msg = format!("{v} is not a number (group {})", g.name);
+                return Err(bad(&path, "group", msg));
+            }
+        }
         check_window(&path, "cue_window_s", fit.cue_window_s)?;
         check_window(&path, "reward_window_s", fit.reward_window_s)?;
         check_window(&path, "baseline_window_s", fit.baseline_window_s)?;

@@ -40,35 +40,58 @@ impl ParamSource {
 
 /// The saved fit's readout mapping, when there is one: prediction = baseline + gain·Σδ
 /// (Gaussian), or the window's mean softplus rate minus the resting rate (Poisson counts).
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct Readout {
     pub cue_baseline: f64,
     pub reward_baseline: f64,
     pub gain: f64,
     pub poisson: bool,
+    /// A fit made with `--scale-by`: its `scale_by` and groups, so that each trial is
+    /// predicted with its own session's or rig's gain and baselines.
+    pub scale_by: Option<String>,
+    pub groups: Vec<fit::saved::SavedGroup>,
 }
 
 impl Readout {
+    /// (gain, cue baseline, reward baseline) for a trial of `session`; NaN for a group the
+    /// fit never saw (a new rig or session: no prediction rather than a wrong one).
+    fn scale(&self, session: &Session) -> (f64, f64, f64) {
+        if self.groups.is_empty() {
+            return (self.gain, self.cue_baseline, self.reward_baseline);
+        }
+        let key = fit::saved::group_key(self.scale_by.as_deref(), session);
+        match self.groups.iter().find(|g| Some(&g.name) == key.as_ref()) {
+            Some(g) => (
+                g.gain,
+                g.baseline_cue.unwrap_or(0.0),
+                g.baseline_reward.unwrap_or(0.0),
+            ),
+            None => (f64::NAN, f64::NAN, f64::NAN),
+        }
+    }
+
     /// Predicted responses of one span's windows, in the units of the observed responses.
     fn predict(
         &self,
+        session: &Session,
         span: &TrialSpan,
         delta: &[f64],
         sums: WindowDeltas,
         obs: &ObsOptions,
         dt: f64,
     ) -> WindowDeltas {
+        let (gain, cue_baseline, reward_baseline) = self.scale(session);
         if !self.poisson {
             return WindowDeltas {
-                cue: sums.cue.map(|d| self.cue_baseline + self.gain * d),
-                reward: sums.reward.map(|d| self.reward_baseline + self.gain * d),
+                cue: sums.cue.map(|d| cue_baseline + gain * d),
+                reward: sums.reward.map(|d| reward_baseline + gain * d),
             };
         }
         let (cue, reward) = obs::window::window_slices(span, delta, obs, dt);
-        let predict = |d: &[f64], b: f64| fit::likelihood::predicted_response(d, b, self.gain);
+        let predict = |d: &[f64], b: f64| fit::likelihood::predicted_response(d, b, gain);
         WindowDeltas {
-            cue: cue.map(|d| predict(d, self.cue_baseline)),
-            reward: reward.map(|d| predict(d, self.reward_baseline)),
+            cue: cue.map(|d| predict(d, cue_baseline)),
+            reward: reward.map(|d| predict(d, reward_baseline)),
         }
     }
 }
@@ -128,6 +151,8 @@ impl ModelSettings {
             reward_baseline: f.baselines.reward.unwrap_or(0.0),
             gain: f.gain,
             poisson: f.likelihood.as_deref() == Some("poisson"),
+            scale_by: f.scale_by.clone(),
+            groups: f.groups.clone(),
         };
         Ok(ModelSettings {
             params: c.params,
@@ -204,14 +229,24 @@ impl ModelView {
             .iter()
             .enumerate()
             .map(|(i, s)| match &settings.readout {
-                Some(r) => r.predict(s, run.trial_delta(i), window_deltas[i], obs, params.dt),
+                Some(r) => {
+                    let session = &subject.sessions[s.session];
+                    r.predict(
+                        session,
+                        s,
+                        run.trial_delta(i),
+                        window_deltas[i],
+                        obs,
+                        params.dt,
+                    )
+                }
                 None => window_deltas[i],
             })
             .collect();
         ModelView {
             params,
             source: settings.source.clone(),
-            readout: settings.readout,
+            readout: settings.readout.clone(),
             fit_lines: settings.lines.clone(),
             spans,
             run,

@@ -64,7 +64,7 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         &format!("excluded trials now marked across the subject: {excluded}"),
         Role::Plain,
     );
-    if let (Some(_), Some((r2, n))) = (m.readout, r_squared(state)) {
+    if let (Some(_), Some((r2, n))) = (&m.readout, r_squared(state)) {
         line(
             buf,
             &mut y,
@@ -87,7 +87,7 @@ pub fn render(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
         CAUTION_2,
         Role::Tone(crate::tui::state::Tone::Warn),
     );
-    let readout = m.readout;
+    let readout = &m.readout;
     let pred_head = if readout.is_some() { "pred" } else { "sum d" };
     // With a saved fit its predicted responses; without one the raw Σδ (`ModelView::predicted`).
     y += 1;
