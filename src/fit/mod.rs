@@ -18,6 +18,7 @@ pub mod bootstrap;
 pub mod compare;
 pub mod dataset;
 pub mod likelihood;
+pub mod linear;
 pub mod objective;
 pub mod optimise;
 pub mod profile;

@@ -11,6 +11,7 @@
 
 use super::dataset::{FitData, WindowKind};
 use super::likelihood::{self, Likelihood, WindowDeltas};
+pub use super::linear::{aic, bic, gaussian_loglik, goodness, least_squares};
 use crate::model::{rw, td, FeatureSpace, Representation, TdParams};
 
 /// A model the fitter can score.
@@ -104,109 +105,6 @@ impl LinearFit {
     pub fn log_likelihood(&self) -> f64 {
         self.loglik
     }
-}
-
-/// lnL of n residuals with sum of squares `rss` at the maximum-likelihood σ² = rss/n.
-pub fn gaussian_loglik(rss: f64, n: usize) -> f64 {
-    let n = n as f64;
-    -0.5 * n * ((2.0 * std::f64::consts::PI * rss / n).ln() + 1.0)
-}
-
-/// Akaike information criterion, 2k − 2lnL (Akaike 1974, *IEEE Trans Autom Control*
-/// 19:716, citation from memory; the formula as methods.md §4 states it).
-pub fn aic(loglik: f64, k: usize) -> f64 {
-    2.0 * k as f64 - 2.0 * loglik
-}
-
-/// Schwarz's Bayesian information criterion, k·ln n − 2lnL (Schwarz 1978, *Ann Stat* 6:461;
-/// methods.md §4).
-pub fn bic(loglik: f64, k: usize, n: usize) -> f64 {
-    k as f64 * (n as f64).ln() - 2.0 * loglik
-}
-
-/// Least squares of y on [one indicator per window kind, x] over the points `idx` (repeats
-/// allowed: bootstrap samples). Two passes (group means, then centred sums) for accuracy.
-/// `None` when `idx` is empty. A predictor without spread within groups gets gain 0.
-pub fn least_squares(
-    x: &[f64],
-    y: &[f64],
-    kind: &[WindowKind],
-    idx: &[usize],
-) -> Option<LinearFit> {
-    if idx.is_empty() {
-        return None;
-    }
-    let mut n = [0usize; 2];
-    let mut sx = [0.0; 2];
-    let mut sy = [0.0; 2];
-    for &i in idx {
-        let g = kind[i].index();
-        n[g] += 1;
-        sx[g] += x[i];
-        sy[g] += y[i];
-    }
-    let mut mx = [0.0; 2];
-    let mut my = [0.0; 2];
-    for g in 0..2 {
-        if n[g] > 0 {
-            mx[g] = sx[g] / n[g] as f64;
-            my[g] = sy[g] / n[g] as f64;
-        }
-    }
-    let (mut sxx, mut sxy, mut syy) = (0.0, 0.0, 0.0);
-    for &i in idx {
-        let g = kind[i].index();
-        let dx = x[i] - mx[g];
-        let dy = y[i] - my[g];
-        sxx += dx * dx;
-        sxy += dx * dy;
-        syy += dy * dy;
-    }
-    let scale: f64 = idx.iter().map(|&i| x[i] * x[i]).sum::<f64>().max(1e-300);
-    let gain = if sxx > 1e-14 * scale { sxy / sxx } else { 0.0 };
-    let mut baselines = [None; 2];
-    for g in 0..2 {
-        if n[g] > 0 {
-            baselines[g] = Some(my[g] - gain * mx[g]);
-        }
-    }
-    // Direct residual sum: RSS = Syy − g·Sxy loses digits when the fit is good.
-    let rss: f64 = idx
-        .iter()
-        .map(|&i| {
-            let g = kind[i].index();
-            let r = y[i] - my[g] - gain * (x[i] - mx[g]);
-            r * r
-        })
-        .sum::<f64>()
-        .max(syy * 1e-30);
-    Some(LinearFit {
-        gain,
-        baselines,
-        rss,
-        n: idx.len(),
-        likelihood: Likelihood::Gaussian,
-        loglik: gaussian_loglik(rss, idx.len()),
-        groups: Vec::new(),
-    })
-}
-
-/// (R², RMSE) of `predicted` against the observed values of the points `idx`.
-pub fn goodness(data: &FitData, idx: &[usize], predicted: &[f64]) -> (f64, f64) {
-    let n = idx.len().max(1) as f64;
-    let mean = idx.iter().map(|&i| data.points[i].observed).sum::<f64>() / n;
-    let (mut ss_res, mut ss_tot) = (0.0, 0.0);
-    for &i in idx {
-        let y = data.points[i].observed;
-        ss_res += (y - predicted[i]).powi(2);
-        ss_tot += (y - mean).powi(2);
-    }
-    let r2 = if ss_tot > 0.0 {
-        1.0 - ss_res / ss_tot
-    } else {
-        0.0
-    };
-    (r2, (ss_res / n).sqrt())
 }
 
 /// Bounds of the search on the logit scale: keeps α in about [6e-6, 0.99999] and γ, λ likewise,
@@ -583,12 +481,5 @@ mod tests {
         }
         let moved = Problem::new(&wider, model, false, 0.0).predictors(&p);
         assert!(plain.iter().zip(&moved).any(|(a, b)| (a - b).abs() > 1e-9));
-    }
-
-    /// lnL of n residuals at σ̂² = RSS/n (closed form): n = 2, RSS = 2 gives −(ln 2π + 1).
-    #[test]
-    fn gaussian_loglik_closed_form() {
-        let want = -((2.0 * std::f64::consts::PI).ln() + 1.0);
-        assert!((gaussian_loglik(2.0, 2) - want).abs() < 1e-14);
     }
 }
