@@ -165,3 +165,41 @@ fn percentiles_match_numpy() {
     close(percentile_sorted(&v, 0.025), lo, "2.5th percentile");
     close(percentile_sorted(&v, 0.975), hi, "97.5th percentile");
 }
+
+/// The asymmetric readout's least squares (gains of positive and negative δ, one baseline per
+/// window kind) against statsmodels OLS on the same design
+/// (tests/fixtures/fit/make_split_fixture.py).
+#[test]
+fn split_least_squares_matches_statsmodels() {
+    use trialdesk::fit::linear::least_squares_split;
+    let mut r = csv::Reader::from_path(fixture("ols_split_points.csv")).unwrap();
+    let (mut xp, mut xn, mut y, mut k) = (vec![], vec![], vec![], vec![]);
+    for row in r.records() {
+        let row = row.unwrap();
+        xp.push(row[0].parse().unwrap());
+        xn.push(row[1].parse().unwrap());
+        y.push(row[2].parse().unwrap());
+        k.push(if &row[3] == "cue" {
+            WindowKind::Cue
+        } else {
+            WindowKind::Reward
+        });
+    }
+    let mut r = csv::Reader::from_path(fixture("ols_split_expected.csv")).unwrap();
+    let want: HashMap<String, f64> = r
+        .records()
+        .map(|row| {
+            let row = row.unwrap();
+            (row[0].to_string(), row[1].parse().unwrap())
+        })
+        .collect();
+    let idx: Vec<usize> = (0..y.len()).collect();
+    let fit = least_squares_split(&xp, &xn, &y, &k, &idx).unwrap();
+    let close = |a: f64, b: f64| (a - b).abs() <= 1e-9 * b.abs().max(1.0);
+    assert!(close(fit.gain, want["gain_pos"]), "{}", fit.gain);
+    assert!(close(fit.gain_neg.unwrap(), want["gain_neg"]));
+    assert!(close(fit.baselines[0].unwrap(), want["baseline_cue"]));
+    assert!(close(fit.baselines[1].unwrap(), want["baseline_reward"]));
+    assert!(close(fit.rss, want["rss"]));
+    assert!(close(fit.loglik, want["llf"]));
+}

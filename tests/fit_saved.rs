@@ -37,6 +37,7 @@ fn example() -> SavedFit {
         sensor_rise_s: None,
         sensor_decay_s: None,
         likelihood: None,
+        gain_neg: None,
         scale_by: None,
         groups: Vec::new(),
     }

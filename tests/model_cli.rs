@@ -304,6 +304,7 @@ fn saved_fit(alpha: f64) -> trialdesk::fit::saved::SavedFit {
         sensor_rise_s: None,
         sensor_decay_s: None,
         likelihood: None,
+        gain_neg: None,
         scale_by: None,
         groups: Vec::new(),
     }

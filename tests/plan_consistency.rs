@@ -163,6 +163,7 @@ fn saved_with_dt_zero() -> SavedFit {
         sensor_rise_s: None,
         sensor_decay_s: None,
         likelihood: None,
+        gain_neg: None,
         scale_by: None,
         groups: Vec::new(),
     }

@@ -367,6 +367,7 @@ fn saved_fit_parameters_are_used_and_labelled() {
         sensor_rise_s: None,
         sensor_decay_s: None,
         likelihood: None,
+        gain_neg: None,
         scale_by: None,
         groups: Vec::new(),
     };

@@ -57,6 +57,10 @@ pub struct Args {
     /// learning parameters shared: subject (one gain, the default), session or rig
     #[arg(long, default_value = "subject", value_name = "GROUP")]
     pub scale_by: String,
+    /// Give positive and negative prediction errors separate gains and report their asymmetry
+    /// g+/(g+ + g−) (0.5: symmetric)
+    #[arg(long)]
+    pub asymmetric: bool,
     /// What the bootstrap resamples: trials, blocks (20 neighbouring trials) or sessions
     #[arg(long, default_value = "trials")]
     pub bootstrap_by: String,
@@ -130,6 +134,7 @@ fn fit_options(args: &Args) -> Result<FitOptions, CliError> {
         seed: args.seed,
         holdout_sessions: args.holdout_sessions,
         compare: !args.no_compare,
+        asymmetric: args.asymmetric,
         ..FitOptions::default()
     })
 }

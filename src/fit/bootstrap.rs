@@ -50,6 +50,7 @@ impl ResampleUnit {
 pub struct Replicate {
     pub params: LearnParams,
     pub gain: f64,
+    pub gain_neg: Option<f64>,
     pub baselines: [Option<f64>; 2],
     /// `--scale-by`: each group's gain and baselines in this replicate.
     pub groups: Vec<super::objective::GroupLinear>,
@@ -172,6 +173,7 @@ pub fn bootstrap(
                 let rep = Replicate {
                     params: f.params,
                     gain: f.linear.gain,
+                    gain_neg: f.linear.gain_neg,
                     baselines: f.linear.baselines,
                     groups: f.linear.groups,
                 };

@@ -127,27 +127,36 @@ impl WindowDeltas {
 /// Profiled Poisson fit of one set of learning parameters.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct PoissonFit {
+    /// The gain (of positive δ, when asymmetric).
     pub gain: f64,
+    /// Asymmetric fits: the gain of negative δ.
+    pub gain_neg: Option<f64>,
     pub baselines: [Option<f64>; 2],
     pub log_likelihood: f64,
     /// Sum of squared rate residuals (count/exposure − μ/exposure), for RMSE-type summaries.
     pub rss: f64,
 }
 
-/// Mean rate of window `d` under (b, g): (1/n) Σ f(b + g·δ_k), and its derivatives in b and g.
-fn window_rate(d: &[f64], b: f64, g: f64) -> (f64, f64, f64) {
+/// Mean rate of window `d` under (b, g+, g−): (1/n) Σ f(b + g+·δ⁺_k + g−·δ⁻_k) with δ⁺ =
+/// max(δ, 0), δ⁻ = min(δ, 0) (g+ = g− for a symmetric readout), and its derivatives in b,
+/// g+, g− and (symmetric readout) in the one gain, summed as before so that symmetric fits
+/// are unchanged to the last bit.
+fn window_rate(d: &[f64], b: f64, g: [f64; 2]) -> (f64, f64, [f64; 3]) {
     if d.is_empty() {
-        return (softplus(b).0, softplus(b).1, 0.0);
+        return (softplus(b).0, softplus(b).1, [0.0; 3]);
     }
-    let (mut r, mut rb, mut rg) = (0.0, 0.0, 0.0);
+    let (mut r, mut rb, mut rg) = (0.0, 0.0, [0.0; 3]);
     for &x in d {
-        let (f, df) = softplus(b + g * x);
+        let (pos, neg) = (x.max(0.0), x.min(0.0));
+        let (f, df) = softplus(b + g[0] * pos + g[1] * neg);
         r += f;
         rb += df;
-        rg += df * x;
+        rg[0] += df * pos;
+        rg[1] += df * neg;
+        rg[2] += df * x;
     }
     let n = d.len() as f64;
-    (r / n, rb / n, rg / n)
+    (r / n, rb / n, [rg[0] / n, rg[1] / n, rg[2] / n])
 }
 
 fn loglik(
@@ -156,7 +165,7 @@ fn loglik(
     kinds: &[WindowKind],
     idx: &[usize],
     b: [f64; 2],
-    g: f64,
+    g: [f64; 2],
 ) -> f64 {
     let mut ll = 0.0;
     for &i in idx {
@@ -169,9 +178,9 @@ fn loglik(
 }
 
 #[allow(clippy::needless_range_loop)]
-/// Solve the symmetric system `a·x = r` (n ≤ 3) by Gaussian elimination with pivoting; `None`
+/// Solve the symmetric system `a·x = r` (n ≤ 4) by Gaussian elimination with pivoting; `None`
 /// when singular.
-fn solve(mut a: [[f64; 3]; 3], mut r: [f64; 3], n: usize) -> Option<[f64; 3]> {
+pub fn solve(mut a: [[f64; 4]; 4], mut r: [f64; 4], n: usize) -> Option<[f64; 4]> {
     for c in 0..n {
         let p = (c..n).max_by(|&i, &j| a[i][c].abs().total_cmp(&a[j][c].abs()))?;
         if a[p][c].abs() < 1e-300 {
@@ -187,7 +196,7 @@ fn solve(mut a: [[f64; 3]; 3], mut r: [f64; 3], n: usize) -> Option<[f64; 3]> {
             r[i] -= f * r[c];
         }
     }
-    let mut x = [0.0; 3];
+    let mut x = [0.0; 4];
     for c in (0..n).rev() {
         let s: f64 = (c + 1..n).map(|j| a[c][j] * x[j]).sum();
         x[c] = (r[c] - s) / a[c][c];
@@ -198,13 +207,15 @@ fn solve(mut a: [[f64; 3]; 3], mut r: [f64; 3], n: usize) -> Option<[f64; 3]> {
 /// Fisher-scoring iterations per profile; each is one pass over the windows' bins.
 pub const MAX_SCORING_STEPS: usize = 40;
 
-/// Maximise the Poisson likelihood over baselines and gain for fixed per-bin δ, on the points
-/// `idx` (repeats allowed). `None` when `idx` is empty or no finite likelihood is found.
+/// Maximise the Poisson likelihood over baselines and gain (two gains, of positive and of
+/// negative δ, when `asymmetric`) for fixed per-bin δ, on the points `idx` (repeats allowed).
+/// `None` when `idx` is empty or no finite likelihood is found.
 pub fn poisson_fit(
     deltas: &WindowDeltas,
     counts: &[WindowCount],
     kinds: &[WindowKind],
     idx: &[usize],
+    asymmetric: bool,
 ) -> Option<PoissonFit> {
     if idx.is_empty() {
         return None;
@@ -234,27 +245,34 @@ pub fn poisson_fit(
         sxx += dx * dx;
         sxy += dx * (counts[i].count / counts[i].exposure.max(1e-12) - sr[e] / n[e]);
     }
-    let mut g = if sxx > 1e-12 { sxy / sxx } else { 0.0 };
+    let g0 = if sxx > 1e-12 { sxy / sxx } else { 0.0 };
+    let mut g = [g0, g0];
     let mut b = [0.0; 2];
     for e in 0..2 {
         if present[e] {
-            b[e] = inverse_softplus((sr[e] - g * sx[e]) / n[e]);
+            b[e] = inverse_softplus((sr[e] - g0 * sx[e]) / n[e]);
         }
     }
     let active: Vec<usize> = (0..2).filter(|&e| present[e]).collect();
-    let np = active.len() + 1;
+    let n_gains = 1 + usize::from(asymmetric);
+    let np = active.len() + n_gains;
     let mut ll = loglik(deltas, counts, kinds, idx, b, g);
     for _ in 0..MAX_SCORING_STEPS {
-        let mut score = [0.0; 3];
-        let mut info = [[0.0; 3]; 3];
+        let mut score = [0.0; 4];
+        let mut info = [[0.0; 4]; 4];
         for &i in idx {
             let c = counts[i];
             let e = kinds[i].index();
             let (r, rb, rg) = window_rate(deltas.of(i), b[e], g);
             let mu = (c.exposure * r).max(1e-300);
-            let mut grad = [0.0; 3];
+            let mut grad = [0.0; 4];
             grad[active.iter().position(|&a| a == e).unwrap_or(0)] = c.exposure * rb;
-            grad[np - 1] = c.exposure * rg;
+            if asymmetric {
+                grad[np - 2] = c.exposure * rg[0];
+                grad[np - 1] = c.exposure * rg[1];
+            } else {
+                grad[np - 1] = c.exposure * rg[2];
+            }
             let w = c.count / mu - 1.0;
             for a in 0..np {
                 score[a] += w * grad[a];
@@ -280,7 +298,11 @@ pub fn poisson_fit(
             for (a, &e) in active.iter().enumerate() {
                 nb[e] = b[e] + t * step[a];
             }
-            let ng = g + t * step[np - 1];
+            let ng = if asymmetric {
+                [g[0] + t * step[np - 2], g[1] + t * step[np - 1]]
+            } else {
+                [g[0] + t * step[np - 1]; 2]
+            };
             let nll = loglik(deltas, counts, kinds, idx, nb, ng);
             if nll.is_finite() && nll >= ll {
                 let gained = nll - ll;
@@ -306,8 +328,9 @@ pub fn poisson_fit(
         })
         .sum();
     let log_likelihood = ll - constant;
-    (log_likelihood.is_finite() && g.is_finite()).then_some(PoissonFit {
-        gain: g,
+    (log_likelihood.is_finite() && g[0].is_finite() && g[1].is_finite()).then_some(PoissonFit {
+        gain: g[0],
+        gain_neg: asymmetric.then_some(g[1]),
         baselines: [present[0].then_some(b[0]), present[1].then_some(b[1])],
         log_likelihood,
         rss,
@@ -317,7 +340,12 @@ pub fn poisson_fit(
 /// Predicted response of a window in the units of the observed one (mean rate in the window
 /// minus the resting rate): (1/n) Σ f(b + g·δ_k) − f(b).
 pub fn predicted_response(d: &[f64], baseline: f64, gain: f64) -> f64 {
-    window_rate(d, baseline, gain).0 - softplus(baseline).0
+    predicted_response_asym(d, baseline, gain, gain)
+}
+
+/// [`predicted_response`] with separate gains of positive and negative δ.
+pub fn predicted_response_asym(d: &[f64], baseline: f64, gain: f64, gain_neg: f64) -> f64 {
+    window_rate(d, baseline, [gain, gain_neg]).0 - softplus(baseline).0
 }
 
 #[cfg(test)]
@@ -354,7 +382,7 @@ mod tests {
             WindowKind::Reward,
             WindowKind::Reward,
         ];
-        let fit = poisson_fit(&deltas, &counts, &kinds, &[0, 1, 2, 3]).unwrap();
+        let fit = poisson_fit(&deltas, &counts, &kinds, &[0, 1, 2, 3], false).unwrap();
         let rate = |b: f64| softplus(b).0;
         assert!((rate(fit.baselines[0].unwrap()) - 8.0 / 3.0).abs() < 1e-6);
         assert!((rate(fit.baselines[1].unwrap()) - 1.0).abs() < 1e-6);
@@ -386,7 +414,7 @@ mod tests {
         let deltas = WindowDeltas { values, offsets };
         let kinds = vec![WindowKind::Cue; counts.len()];
         let idx: Vec<usize> = (0..counts.len()).collect();
-        let fit = poisson_fit(&deltas, &counts, &kinds, &idx).unwrap();
+        let fit = poisson_fit(&deltas, &counts, &kinds, &idx, false).unwrap();
         assert!((fit.gain - g).abs() < 1.0, "gain {}", fit.gain);
         assert!(
             (fit.baselines[0].unwrap() - b).abs() < 0.5,

@@ -21,6 +21,7 @@ pub mod likelihood;
 pub mod linear;
 pub mod objective;
 pub mod optimise;
+pub mod params;
 pub mod profile;
 pub mod report;
 pub mod saved;
@@ -91,6 +92,8 @@ pub struct FitOptions {
     /// Observation model; `None`: [`likelihood::SPIKE_DEFAULT`] where the data carry spike
     /// counts, Gaussian otherwise (photometry).
     pub likelihood: Option<Likelihood>,
+    /// Separate gains of positive and negative δ (`--asymmetric`).
+    pub asymmetric: bool,
 }
 
 impl Default for FitOptions {
@@ -109,6 +112,7 @@ impl Default for FitOptions {
             compare: true,
             search: SearchOptions::default(),
             likelihood: None,
+            asymmetric: false,
         }
     }
 }
@@ -140,6 +144,7 @@ impl FitOptions {
             self.lambda.unwrap_or(0.0),
         )
         .with_likelihood(self.likelihood_for(data))
+        .with_asymmetry(self.asymmetric)
     }
 }
 

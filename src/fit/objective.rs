@@ -42,8 +42,11 @@ pub struct LearnParams {
 /// The closed-form part of a fit.
 #[derive(Debug, Clone, PartialEq)]
 pub struct LinearFit {
-    /// The gain (with `--scale-by`: the first fitted group's; every group's in `groups`).
+    /// The gain (with `--scale-by`: the first fitted group's; every group's in `groups`); with
+    /// `--asymmetric`, the gain of positive δ.
     pub gain: f64,
+    /// `--asymmetric`: the gain of negative δ (`None`: one gain for both signs).
+    pub gain_neg: Option<f64>,
     /// Baseline per window kind (`WindowKind::index`); `None` when no such window was fitted.
     pub baselines: [Option<f64>; 2],
     pub rss: f64,
@@ -63,6 +66,7 @@ pub struct GroupLinear {
     /// Index into `Groups::names`.
     pub group: usize,
     pub gain: f64,
+    pub gain_neg: Option<f64>,
     pub baselines: [Option<f64>; 2],
     /// Points of the group in the fit.
     pub n: usize,
@@ -73,16 +77,20 @@ impl LinearFit {
         self.baselines[kind.index()].unwrap_or(0.0) + self.gain * x
     }
 
-    /// (gain, baselines) that map δ onto responses for a point of `group` (`None`: ungrouped
-    /// data). A group the fit never saw gets NaN: no prediction is better than a wrong one.
-    pub fn scale_of(&self, group: Option<usize>) -> (f64, [Option<f64>; 2]) {
+    /// ([gain of positive δ, gain of negative δ], baselines) that map δ onto responses for a
+    /// point of `group` (`None`: ungrouped data); both gains equal for a symmetric readout. A
+    /// group the fit never saw gets NaN: no prediction is better than a wrong one.
+    pub fn scale_of(&self, group: Option<usize>) -> ([f64; 2], [Option<f64>; 2]) {
+        let gains = |g: f64, n: Option<f64>| [g, n.unwrap_or(g)];
         match (group, self.groups.is_empty()) {
-            (None, _) | (_, true) => (self.gain, self.baselines),
+            (None, _) | (_, true) => (gains(self.gain, self.gain_neg), self.baselines),
             (Some(g), false) => self
                 .groups
                 .iter()
                 .find(|x| x.group == g)
-                .map_or((f64::NAN, [None; 2]), |x| (x.gain, x.baselines)),
+                .map_or(([f64::NAN; 2], [None; 2]), |x| {
+                    (gains(x.gain, x.gain_neg), x.baselines)
+                }),
         }
     }
 
@@ -96,8 +104,13 @@ impl LinearFit {
         }
     }
 
-    /// Number of gains estimated (one per group).
+    /// Number of gains estimated (one per group, two when asymmetric).
     pub fn n_gains(&self) -> usize {
+        self.groups.len().max(1) * (1 + usize::from(self.gain_neg.is_some()))
+    }
+
+    /// Number of groups (1 without `--scale-by`).
+    pub fn n_groups(&self) -> usize {
         self.groups.len().max(1)
     }
 
@@ -126,6 +139,8 @@ pub fn logit(p: f64) -> f64 {
 /// What the closed-form part regresses on: window sums (Gaussian) or per-bin δ (Poisson).
 enum Predictors {
     Sums(Vec<f64>),
+    /// Window sums of the positive and of the negative parts of δ (asymmetric Gaussian).
+    Split(Vec<f64>, Vec<f64>),
     Deltas(WindowDeltas),
 }
 
@@ -138,6 +153,8 @@ pub struct Problem<'a> {
     pub lambda: f64,
     /// Observation model; Poisson needs `data.counts`.
     pub likelihood: Likelihood,
+    /// `--asymmetric`: positive and negative δ each with its own gain.
+    pub asymmetric: bool,
     /// Built once per representation; every evaluation reuses it.
     space: Option<FeatureSpace>,
     observed: Vec<f64>,
@@ -156,6 +173,7 @@ impl<'a> Problem<'a> {
             fit_lambda: fit_lambda && matches!(model, ModelSpec::Td(_)),
             lambda,
             likelihood: Likelihood::Gaussian,
+            asymmetric: false,
             space,
             observed: data.points.iter().map(|p| p.observed).collect(),
             kinds: data.points.iter().map(|p| p.kind).collect(),
@@ -165,6 +183,12 @@ impl<'a> Problem<'a> {
     /// The same problem scored by `likelihood` (Poisson only where the data carry counts).
     pub fn with_likelihood(mut self, likelihood: Likelihood) -> Self {
         self.likelihood = likelihood;
+        self
+    }
+
+    /// The same problem with separate gains of positive and negative δ.
+    pub fn with_asymmetry(mut self, asymmetric: bool) -> Self {
+        self.asymmetric = asymmetric;
         self
     }
 
@@ -186,7 +210,7 @@ impl<'a> Problem<'a> {
         self.n_free()
             + linear.n_gains()
             + linear.n_baselines()
-            + usize::from(linear.likelihood == Likelihood::Gaussian) * linear.n_gains()
+            + usize::from(linear.likelihood == Likelihood::Gaussian) * linear.n_groups()
     }
 
     pub fn to_params(&self, z: &[f64]) -> LearnParams {
@@ -259,6 +283,53 @@ impl<'a> Problem<'a> {
         }
     }
 
+    /// The window sums of the positive and of the negative parts of δ (each weighted by the
+    /// sensor kernel when the data carry one); they add up to [`Problem::predictors`].
+    pub fn split_predictors(&self, p: &LearnParams) -> (Vec<f64>, Vec<f64>) {
+        let data = self.data;
+        let split = |w: &mut dyn Iterator<Item = (f64, f64)>| {
+            w.fold((0.0, 0.0), |(a, b), (wt, d)| {
+                (a + wt * d.max(0.0), b + wt * d.min(0.0))
+            })
+        };
+        let parts: Vec<(f64, f64)> = match (self.model, &self.space) {
+            (ModelSpec::Td(repr), Some(space)) => {
+                let params = TdParams {
+                    alpha: p.alpha,
+                    gamma: p.gamma,
+                    lambda: p.lambda,
+                    dt: data.dt,
+                    representation: repr,
+                };
+                let run = td::run_in(space, &data.spans, &params);
+                data.points
+                    .iter()
+                    .enumerate()
+                    .map(|(i, pt)| {
+                        let d = run.trial_delta(pt.span);
+                        match &data.weighted {
+                            Some(weighted) => {
+                                let w = &weighted[i];
+                                let d = d.get(w.first_bin as usize..).unwrap_or(&[]);
+                                split(&mut w.weights.iter().copied().zip(d.iter().copied()))
+                            }
+                            None => {
+                                let d = &d[pt.first_bin as usize..pt.end_bin as usize];
+                                split(&mut d.iter().map(|&x| (1.0, x)))
+                            }
+                        }
+                    })
+                    .collect()
+            }
+            _ => self
+                .predictors(p)
+                .into_iter()
+                .map(|x| (x.max(0.0), x.min(0.0)))
+                .collect(),
+        };
+        parts.into_iter().unzip()
+    }
+
     /// The model's δ in every bin of each point's window (Poisson likelihood); RW has one δ
     /// per window. Sensor weights are ignored (counts are spikes, not a sensor).
     pub fn window_deltas(&self, p: &LearnParams) -> WindowDeltas {
@@ -302,6 +373,10 @@ impl<'a> Problem<'a> {
     pub fn fit_linear(&self, p: &LearnParams, idx: &[usize]) -> Option<LinearFit> {
         let pred = match (self.likelihood, &self.data.counts) {
             (Likelihood::Poisson, Some(_)) => Predictors::Deltas(self.window_deltas(p)),
+            _ if self.asymmetric => {
+                let (pos, neg) = self.split_predictors(p);
+                Predictors::Split(pos, neg)
+            }
             _ => Predictors::Sums(self.predictors(p)),
         };
         let Some(groups) = &self.data.groups else {
@@ -323,6 +398,7 @@ impl<'a> Problem<'a> {
         let loglik = fits.iter().map(|(_, f)| f.loglik).sum();
         Some(LinearFit {
             gain: first.gain,
+            gain_neg: first.gain_neg,
             baselines: first.baselines,
             rss,
             n,
@@ -333,6 +409,7 @@ impl<'a> Problem<'a> {
                 .map(|(g, f)| GroupLinear {
                     group: *g,
                     gain: f.gain,
+                    gain_neg: f.gain_neg,
                     baselines: f.baselines,
                     n: f.n,
                 })
@@ -344,9 +421,10 @@ impl<'a> Problem<'a> {
     fn fit_scale(&self, pred: &Predictors, idx: &[usize]) -> Option<LinearFit> {
         match (pred, &self.data.counts) {
             (Predictors::Deltas(deltas), Some(counts)) => {
-                let f = likelihood::poisson_fit(deltas, counts, &self.kinds, idx)?;
+                let f = likelihood::poisson_fit(deltas, counts, &self.kinds, idx, self.asymmetric)?;
                 Some(LinearFit {
                     gain: f.gain,
+                    gain_neg: f.gain_neg,
                     baselines: f.baselines,
                     rss: f.rss,
                     n: idx.len(),
@@ -356,6 +434,9 @@ impl<'a> Problem<'a> {
                 })
             }
             (Predictors::Sums(x), _) => self.linear(x, idx),
+            (Predictors::Split(pos, neg), _) => {
+                super::linear::least_squares_split(pos, neg, &self.observed, &self.kinds, idx)
+            }
             (Predictors::Deltas(_), None) => None,
         }
     }
@@ -371,24 +452,35 @@ impl<'a> Problem<'a> {
     pub fn predict_responses(&self, p: &LearnParams, fit: &LinearFit) -> Vec<f64> {
         let points = &self.data.points;
         match fit.likelihood {
-            Likelihood::Gaussian => points
+            Likelihood::Gaussian if fit.gain_neg.is_none() => points
                 .iter()
                 .zip(self.predictors(p))
                 .enumerate()
                 .map(|(i, (pt, x))| {
-                    let (gain, baselines) = fit.scale_of(self.group_of(i));
-                    baselines[pt.kind.index()].unwrap_or(0.0) + gain * x
+                    let (g, baselines) = fit.scale_of(self.group_of(i));
+                    baselines[pt.kind.index()].unwrap_or(0.0) + g[0] * x
                 })
                 .collect(),
+            Likelihood::Gaussian => {
+                let (pos, neg) = self.split_predictors(p);
+                points
+                    .iter()
+                    .enumerate()
+                    .map(|(i, pt)| {
+                        let (g, baselines) = fit.scale_of(self.group_of(i));
+                        baselines[pt.kind.index()].unwrap_or(0.0) + g[0] * pos[i] + g[1] * neg[i]
+                    })
+                    .collect()
+            }
             Likelihood::Poisson => {
                 let d = self.window_deltas(p);
                 points
                     .iter()
                     .enumerate()
                     .map(|(i, pt)| {
-                        let (gain, baselines) = fit.scale_of(self.group_of(i));
+                        let (g, baselines) = fit.scale_of(self.group_of(i));
                         match baselines[pt.kind.index()] {
-                            Some(b) => likelihood::predicted_response(d.of(i), b, gain),
+                            Some(b) => likelihood::predicted_response_asym(d.of(i), b, g[0], g[1]),
                             None => f64::NAN,
                         }
                     })

@@ -1,9 +1,8 @@
 //! The fit's outputs: the plain-text report for the lab notebook, `params.csv` and
 //! `trials.csv` (tidy tables: one row per parameter, one row per observation window).
 
-use super::bootstrap::{tau_s, Intervals, Replicate};
 use super::compare::{verdict, Verdict, TIE_DELTA_AIC};
-use super::dataset::{FitData, WindowKind};
+use super::dataset::FitData;
 use super::objective::ModelSpec;
 use super::FitOutcome;
 use crate::util::fmt_f64;
@@ -32,148 +31,10 @@ pub fn num(x: f64) -> String {
     }
 }
 
-/// One reported parameter: name, estimate, interval.
-#[derive(Debug, Clone, PartialEq)]
-pub struct ParamRow {
-    /// `alpha`, `gamma`, …; with `--scale-by`, `gain[<group>]` and `baseline_cue[<group>]`.
-    pub name: std::borrow::Cow<'static, str>,
-    pub estimate: f64,
-    pub interval: Option<(f64, f64)>,
-}
-
-/// The rows of `params.csv`, in order: alpha, gamma (per bin), tau_s (seconds, −dt/ln γ),
-/// lambda (only when fitted), gain, baseline_cue, baseline_reward (when fitted).
-///
-/// When γ's profile is flat the bootstrap interval of γ and τ is withheld: warm-started
-/// replicates barely move along a flat direction, so their spread would understate the
-/// uncertainty. The profile-likelihood interval stands in for it; an end the profile never
-/// reaches is the range end (γ 0 or 1, τ 0 or infinity): a one-sided bound.
-pub fn param_rows(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -> Vec<ParamRow> {
-    let gamma_flat = gamma_interval_withheld(out);
-    let p = out.best.params;
-    let lin = &out.best.linear;
-    let dt = data.dt;
-    let iv = |f: &dyn Fn(&Replicate) -> Option<f64>| -> Option<(f64, f64)> {
-        out.intervals
-            .as_ref()
-            .and_then(|i: &Intervals| i.interval(f))
-    };
-    let mut rows = vec![ParamRow {
-        name: "alpha".into(),
-        estimate: p.alpha,
-        interval: iv(&|r| Some(r.params.alpha)),
-    }];
-    if matches!(out.model, ModelSpec::Td(_)) {
-        rows.push(ParamRow {
-            name: "gamma".into(),
-            estimate: p.gamma,
-            interval: gamma_interval(out, gamma_flat, iv(&|r| Some(r.params.gamma))),
-        });
-        // τ is monotone in γ, so its interval is γ's mapped through.
-        rows.push(ParamRow {
-            name: "tau_s".into(),
-            estimate: tau_s(p.gamma, dt),
-            interval: gamma_interval(out, gamma_flat, iv(&|r| Some(r.params.gamma)))
-                .map(|(a, b)| (tau_s(a, dt), tau_s(b, dt))),
-        });
-        if lambda_fitted {
-            rows.push(ParamRow {
-                name: "lambda".into(),
-                estimate: p.lambda,
-                interval: iv(&|r| Some(r.params.lambda)),
-            });
-        }
-    }
-    let baseline_name = |kind: WindowKind| match kind {
-        WindowKind::Cue => "baseline_cue",
-        WindowKind::Reward => "baseline_reward",
-    };
-    let Some(groups) = data.groups.as_ref().filter(|_| !lin.groups.is_empty()) else {
-        rows.push(ParamRow {
-            name: "gain".into(),
-            estimate: lin.gain,
-            interval: iv(&|r| Some(r.gain)),
-        });
-        for kind in WindowKind::ALL {
-            if let Some(b) = lin.baselines[kind.index()] {
-                rows.push(ParamRow {
-                    name: baseline_name(kind).into(),
-                    estimate: b,
-                    interval: iv(&|r| r.baselines[kind.index()]),
-                });
-            }
-        }
-        return rows;
-    };
-    // `--scale-by`: each group's gain and baselines, named by the group.
-    for g in &lin.groups {
-        let name = &groups.names[g.group];
-        let of = |r: &Replicate| r.groups.iter().find(|x| x.group == g.group).copied();
-        rows.push(ParamRow {
-            name: format!("gain[{name}]").into(),
-            estimate: g.gain,
-            interval: iv(&|r| of(r).map(|x| x.gain)),
-        });
-        for kind in WindowKind::ALL {
-            if let Some(b) = g.baselines[kind.index()] {
-                rows.push(ParamRow {
-                    name: format!("{}[{name}]", baseline_name(kind)).into(),
-                    estimate: b,
-                    interval: iv(&|r| of(r).and_then(|x| x.baselines[kind.index()])),
-                });
-            }
-        }
-    }
-    rows
-}
-
-impl ParamRow {
-    /// The interval leaves out the row's own estimate: the replicates are lopsided (too few,
-    /// or a skewed sampling distribution), so the percentile ends cannot be read as a range
-    /// around the estimate.
-    pub fn excludes_estimate(&self) -> bool {
-        self.interval
-            .is_some_and(|(lo, hi)| !(lo <= self.estimate && self.estimate <= hi))
-    }
-}
-
-/// γ's profile-likelihood interval, an unbounded end at γ's range end (0 or 1).
-pub fn gamma_profile_bounds(out: &FitOutcome) -> Option<(f64, f64)> {
-    let pi = out.gamma_profile.as_ref()?.interval?;
-    Some((pi.lower.unwrap_or(0.0), pi.upper.unwrap_or(1.0)))
-}
-
-/// γ's reported interval: the profile-likelihood one when the profile is flat (the bootstrap's
-/// is withheld), else the envelope of the bootstrap percentile and profile-likelihood
-/// intervals (either alone when the other is missing). The bootstrap's alone undercovered γ
-/// (80 % of 95 % intervals on simulated subjects; the profile's 95 %: tests/fit_coverage.rs).
-pub fn gamma_interval(
-    out: &FitOutcome,
-    flat: bool,
-    bootstrap: Option<(f64, f64)>,
-) -> Option<(f64, f64)> {
-    let profile = gamma_profile_bounds(out);
-    if flat {
-        return profile;
-    }
-    match (bootstrap, profile) {
-        (Some((a, b)), Some((c, d))) => Some((a.min(c), b.max(d))),
-        (x, None) | (None, x) => x,
-    }
-}
-
-/// γ's profile-likelihood interval lacks an end.
-pub fn gamma_one_sided(out: &FitOutcome) -> bool {
-    out.gamma_profile
-        .as_ref()
-        .and_then(|g| g.interval)
-        .is_some_and(|pi| pi.lower.is_none() || pi.upper.is_none())
-}
-
-/// γ's profile is flat and a bootstrap ran: its bootstrap interval is not reported.
-pub fn gamma_interval_withheld(out: &FitOutcome) -> bool {
-    out.intervals.is_some() && out.gamma_profile.as_ref().is_some_and(|g| g.flat)
-}
+pub use super::params::{
+    gamma_interval, gamma_interval_withheld, gamma_one_sided, gamma_profile_bounds, param_rows,
+    ParamRow,
+};
 
 /// `params.csv`: `parameter,estimate,lower,upper` (bounds empty without a bootstrap).
 pub fn write_params_csv(w: &mut dyn Write, rows: &[ParamRow]) -> std::io::Result<()> {
@@ -415,9 +276,13 @@ pub fn fitted_and_fixed(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -
         ),
         None => String::new(),
     };
+    let gains = match out.best.linear.gain_neg {
+        Some(_) => "gains of positive and negative δ",
+        None => "gain",
+    };
     format!(
-        "fitted: {learning} (multi-start Nelder–Mead), gain and baselines{scaled} ({profiled}); \
-         fixed: {}",
+        "fitted: {learning} (multi-start Nelder–Mead), {gains} and baselines{scaled} \
+         ({profiled}); fixed: {}",
         fixed.join(", ")
     )
 }

@@ -68,6 +68,9 @@ pub struct SavedFit {
     /// `gaussian` or `poisson` (absent: gaussian, as in files written before Poisson fits).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub likelihood: Option<String>,
+    /// `--asymmetric`: the gain of negative δ (`gain` is then the gain of positive δ).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub gain_neg: Option<f64>,
     /// `--scale-by` of the fit: `session` or `rig` (absent: one gain for the subject).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub scale_by: Option<String>,
@@ -83,6 +86,8 @@ pub struct SavedGroup {
     /// The session folder name, or the rig name ("(no rig)" for sessions without one).
     pub name: String,
     pub gain: f64,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub gain_neg: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub baseline_cue: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -162,15 +167,19 @@ impl SavedFit {
         let problem = Problem::new(data, model, false, self.lambda).with_likelihood(likelihood);
         let scale = |i: usize| {
             if self.groups.is_empty() {
-                return (self.gain, [self.baselines.cue, self.baselines.reward]);
+                let gains = [self.gain, self.gain_neg.unwrap_or(self.gain)];
+                return (gains, [self.baselines.cue, self.baselines.reward]);
             }
             let name = data
                 .groups
                 .as_ref()
                 .map(|g| &g.names[g.of_point[i] as usize]);
             match self.groups.iter().find(|g| Some(&g.name) == name) {
-                Some(g) => (g.gain, [g.baseline_cue, g.baseline_reward]),
-                None => (f64::NAN, [None, None]),
+                Some(g) => (
+                    [g.gain, g.gain_neg.unwrap_or(g.gain)],
+                    [g.baseline_cue, g.baseline_reward],
+                ),
+                None => ([f64::NAN; 2], [None, None]),
             }
         };
         if likelihood == Likelihood::Poisson {
@@ -180,10 +189,23 @@ impl SavedFit {
                     .iter()
                     .enumerate()
                     .map(|(i, p)| {
-                        let (gain, b) = scale(i);
+                        let (g, b) = scale(i);
                         b[p.kind.index()].map_or(f64::NAN, |b| {
-                            super::likelihood::predicted_response(d.of(i), b, gain)
+                            super::likelihood::predicted_response_asym(d.of(i), b, g[0], g[1])
                         })
+                    })
+                    .collect(),
+            );
+        }
+        if self.gain_neg.is_some() || self.groups.iter().any(|g| g.gain_neg.is_some()) {
+            let (pos, neg) = problem.split_predictors(&params);
+            return Some(
+                data.points
+                    .iter()
+                    .enumerate()
+                    .map(|(i, p)| {
+                        let (g, b) = scale(i);
+                        b[p.kind.index()].map_or(f64::NAN, |b| b + g[0] * pos[i] + g[1] * neg[i])
                     })
                     .collect(),
             );
@@ -195,8 +217,8 @@ impl SavedFit {
                 .zip(x)
                 .enumerate()
                 .map(|(i, (p, x))| {
-                    let (gain, b) = scale(i);
-                    b[p.kind.index()].map_or(f64::NAN, |b| b + gain * x)
+                    let (g, b) = scale(i);
+                    b[p.kind.index()].map_or(f64::NAN, |b| b + g[0] * x)
                 })
                 .collect(),
         )
@@ -365,6 +387,11 @@ pub fn option_changes(old: &SavedFit, new: &SavedFit) -> Vec<String> {
     );
     field("likelihood", show(&old.likelihood), show(&new.likelihood));
     field("scale by", show(&old.scale_by), show(&new.scale_by));
+    field(
+        "asymmetric gains",
+        old.gain_neg.is_some().to_string(),
+        new.gain_neg.is_some().to_string(),
+    );
     field(
         "representation",
         old.representation.clone(),

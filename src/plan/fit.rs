@@ -190,6 +190,7 @@ fn saved_record(
         sensor_rise_s: m.kernel.map(|k| k.rise_s),
         sensor_decay_s: m.kernel.map(|k| k.decay_s),
         likelihood: Some(outcome.best.linear.likelihood.name().to_string()),
+        gain_neg: lin.gain_neg,
         scale_by: data.groups.as_ref().map(|g| g.by.name().to_string()),
         groups: match &data.groups {
             Some(g) => lin
@@ -198,6 +199,7 @@ fn saved_record(
                 .map(|x| saved::SavedGroup {
                     name: g.names[x.group].clone(),
                     gain: x.gain,
+                    gain_neg: x.gain_neg,
                     baseline_cue: x.baselines[0],
                     baseline_reward: x.baselines[1],
                 })

@@ -75,6 +75,9 @@ impl CheckedFit {
         if !fit.gain.is_finite() {
             return Err(bad(&path, "gain", format!("{} is not a number", fit.gain)));
         }
+        if let Some(v) = fit.gain_neg.filter(|v| !v.is_finite()) {
+            return Err(bad(&path, "gain_neg", format!("{v} is not a number")));
+        }
         for (field, b) in [
             ("baselines.cue", fit.baselines.cue),
             ("baselines.reward", fit.baselines.reward),
@@ -92,7 +95,7 @@ impl CheckedFit {
             return Err(bad(&path, "scale_by", msg));
         }
         for g in &fit.groups {
-            let values = [Some(g.gain), g.baseline_cue, g.baseline_reward];
+            let values = [Some(g.gain), g.gain_neg, g.baseline_cue, g.baseline_reward];
             if let Some(v) = values.into_iter().flatten().find(|v| !v.is_finite()) {
                 let msg = format!("{v} is not a number (group {})", g.name);
                 return Err(bad(&path, "group", msg));

@@ -45,6 +45,8 @@ pub struct Readout {
     pub cue_baseline: f64,
     pub reward_baseline: f64,
     pub gain: f64,
+    /// `--asymmetric`: the gain of negative δ (`gain` is then positive δ's).
+    pub gain_neg: Option<f64>,
     pub poisson: bool,
     /// A fit made with `--scale-by`: its `scale_by` and groups, so that each trial is
     /// predicted with its own session's or rig's gain and baselines.
@@ -53,24 +55,31 @@ pub struct Readout {
 }
 
 impl Readout {
-    /// (gain, cue baseline, reward baseline) for a trial of `session`; NaN for a group the
-    /// fit never saw (a new rig or session: no prediction rather than a wrong one).
-    fn scale(&self, session: &Session) -> (f64, f64, f64) {
+    /// ([gain of positive δ, of negative δ], cue baseline, reward baseline) for a trial of
+    /// `session`; NaN for a group the fit never saw (a new rig or session: no prediction
+    /// rather than a wrong one).
+    fn scale(&self, session: &Session) -> ([f64; 2], f64, f64) {
         if self.groups.is_empty() {
-            return (self.gain, self.cue_baseline, self.reward_baseline);
+            let gains = [self.gain, self.gain_neg.unwrap_or(self.gain)];
+            return (gains, self.cue_baseline, self.reward_baseline);
         }
         let key = fit::saved::group_key(self.scale_by.as_deref(), session);
         match self.groups.iter().find(|g| Some(&g.name) == key.as_ref()) {
             Some(g) => (
-                g.gain,
+                [g.gain, g.gain_neg.unwrap_or(g.gain)],
                 g.baseline_cue.unwrap_or(0.0),
                 g.baseline_reward.unwrap_or(0.0),
             ),
-            None => (f64::NAN, f64::NAN, f64::NAN),
+            None => ([f64::NAN; 2], f64::NAN, f64::NAN),
         }
     }
 
+    fn asymmetric(&self) -> bool {
+        self.gain_neg.is_some() || self.groups.iter().any(|g| g.gain_neg.is_some())
+    }
+
     /// Predicted responses of one span's windows, in the units of the observed responses.
+    #[allow(clippy::too_many_arguments)]
     fn predict(
         &self,
         session: &Session,
@@ -79,16 +88,30 @@ impl Readout {
         sums: WindowDeltas,
         obs: &ObsOptions,
         dt: f64,
+        kernel: Option<fit::dataset::SensorKernel>,
     ) -> WindowDeltas {
         let (gain, cue_baseline, reward_baseline) = self.scale(session);
         if !self.poisson {
+            if self.asymmetric() {
+                // Σ w·(g+·δ⁺ + g−·δ⁻): the window sums of the scaled δ, with unit gain.
+                let scaled: Vec<f64> = delta
+                    .iter()
+                    .map(|&d| gain[0] * d.max(0.0) + gain[1] * d.min(0.0))
+                    .collect();
+                let s = fitted_window_deltas(kernel, span, &scaled, obs, dt);
+                return WindowDeltas {
+                    cue: s.cue.map(|d| cue_baseline + d),
+                    reward: s.reward.map(|d| reward_baseline + d),
+                };
+            }
             return WindowDeltas {
-                cue: sums.cue.map(|d| cue_baseline + gain * d),
-                reward: sums.reward.map(|d| reward_baseline + gain * d),
+                cue: sums.cue.map(|d| cue_baseline + gain[0] * d),
+                reward: sums.reward.map(|d| reward_baseline + gain[0] * d),
             };
         }
         let (cue, reward) = obs::window::window_slices(span, delta, obs, dt);
-        let predict = |d: &[f64], b: f64| fit::likelihood::predicted_response(d, b, gain);
+        let predict =
+            |d: &[f64], b: f64| fit::likelihood::predicted_response_asym(d, b, gain[0], gain[1]);
         WindowDeltas {
             cue: cue.map(|d| predict(d, cue_baseline)),
             reward: reward.map(|d| predict(d, reward_baseline)),
@@ -150,6 +173,7 @@ impl ModelSettings {
             cue_baseline: f.baselines.cue.unwrap_or(0.0),
             reward_baseline: f.baselines.reward.unwrap_or(0.0),
             gain: f.gain,
+            gain_neg: f.gain_neg,
             poisson: f.likelihood.as_deref() == Some("poisson"),
             scale_by: f.scale_by.clone(),
             groups: f.groups.clone(),
@@ -238,6 +262,7 @@ impl ModelView {
                         window_deltas[i],
                         obs,
                         params.dt,
+                        kernel,
                     )
                 }
                 None => window_deltas[i],

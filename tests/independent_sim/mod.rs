@@ -27,6 +27,8 @@ pub struct Spec {
     pub units: usize,
     pub baseline_hz: f64,
     pub gain_hz: f64,
+    /// The gain of negative δ, when it differs from `gain_hz` (an asymmetric unit).
+    pub gain_neg_hz: Option<f64>,
     pub latency_s: f64,
     pub seed: u64,
 }
@@ -47,6 +49,7 @@ impl Default for Spec {
             units: 6,
             baseline_hz: 4.5,
             gain_hz: 15.0,
+            gain_neg_hz: None,
             latency_s: 0.05,
             seed: 1,
         }
@@ -195,7 +198,11 @@ pub fn subject(spec: &Spec) -> Subject {
                             let a = s.t0 + k as f64 * spec.dt + spec.latency_s;
                             let b = a + spec.dt;
                             poisson(spec.baseline_hz, cursor, a, &mut rng, &mut out);
-                            let rate = (spec.baseline_hz + spec.gain_hz * dk).max(0.0);
+                            let g = match (dk < 0.0, spec.gain_neg_hz) {
+                                (true, Some(neg)) => neg,
+                                _ => spec.gain_hz,
+                            };
+                            let rate = (spec.baseline_hz + g * dk).max(0.0);
                             poisson(rate, a.max(cursor), b, &mut rng, &mut out);
                             cursor = b;
                         }
