@@ -148,6 +148,28 @@ fn scale_by_rig_on_the_command_line_reports_saves_and_plots_each_rig() {
     let svg = std::fs::read_to_string(pictures.join("fit_trials.svg")).unwrap();
     assert!(!svg.contains("NaN"), "a window without a prediction");
 
+    // The summary names the rigs and points at the option.
+    let out = Command::new(env!("CARGO_BIN_EXE_trialdesk"))
+        .arg("summary")
+        .arg(&subject)
+        .output()
+        .unwrap();
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        text.contains("rigs: box-2 (day 1-2), box-7 (day 3-4);"),
+        "{text}"
+    );
+    // The reviewer's fit screen lists each rig's gain.
+    let settings = trialdesk::tui::derived::ModelSettings::from_subject(&subject).unwrap();
+    assert!(
+        settings
+            .lines
+            .iter()
+            .any(|l| l.starts_with("gain per rig: box-2 ")),
+        "{:?}",
+        settings.lines
+    );
+
     // An unknown group is a usage error naming the choices.
     let out = fit(&subject, &["--scale-by", "cage", "--no-save"]);
     assert_eq!(out.status.code(), Some(2));

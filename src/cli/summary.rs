@@ -202,6 +202,7 @@ fn summarise(
             notes.extend(methods.lines().map(|m| format!("photometry: {m}")));
         }
     }
+    notes.extend(crate::summary::rig_note(&subject));
     notes.push(exclusions);
     let suggested = rules.map(|(rules, _)| suggested_counts(&subject, &journal, rules));
     notes.push(match rules {

@@ -271,3 +271,58 @@ pub fn day_rows(
         })
         .collect()
 }
+
+/// The rigs the sessions were recorded on, when there is more than one: "rigs: box-2 (days
+/// 1-4), box-7 (days 5-6); ...". A signal's amplitude differs between rigs, so the note points
+/// at `fit --scale-by rig`. `None` for one rig (or none named).
+pub fn rig_note(subject: &Subject) -> Option<String> {
+    let mut rigs: Vec<(String, Vec<usize>)> = Vec::new();
+    for (i, s) in subject.sessions.iter().enumerate() {
+        let rig = s.meta.rig.clone().unwrap_or_else(|| "(no rig)".to_string());
+        match rigs.iter_mut().find(|(r, _)| *r == rig) {
+            Some((_, days)) => days.push(i + 1),
+            None => rigs.push((rig, vec![i + 1])),
+        }
+    }
+    if rigs.len() < 2 {
+        return None;
+    }
+    let list: Vec<String> = rigs
+        .iter()
+        .map(|(rig, days)| format!("{rig} (day {})", day_ranges(days)))
+        .collect();
+    Some(format!(
+        "rigs: {}; a response's size can differ between rigs: `trialdesk fit --scale-by rig` \
+         gives each rig its own gain and baselines",
+        list.join(", ")
+    ))
+}
+
+/// "1-4, 6" from sorted day numbers.
+fn day_ranges(days: &[usize]) -> String {
+    let mut parts: Vec<String> = Vec::new();
+    let mut i = 0;
+    while i < days.len() {
+        let mut j = i;
+        while j + 1 < days.len() && days[j + 1] == days[j] + 1 {
+            j += 1;
+        }
+        parts.push(match j > i {
+            true => format!("{}-{}", days[i], days[j]),
+            false => days[i].to_string(),
+        });
+        i = j + 1;
+    }
+    parts.join(", ")
+}
+
+#[cfg(test)]
+mod tests {
+    use super::day_ranges;
+
+    #[test]
+    fn day_ranges_join_runs() {
+        assert_eq!(day_ranges(&[1, 2, 3, 4, 6, 8, 9]), "1-4, 6, 8-9");
+        assert_eq!(day_ranges(&[5]), "5");
+    }
+}

@@ -169,6 +169,23 @@ impl ModelSettings {
             quality = format!("log-likelihood {ll:.1} over {n} observations; {quality}");
         }
         lines.push(quality);
+        // The readout's own parameters: each group's gain, and the asymmetry of the gains.
+        if let (Some(by), false) = (&f.scale_by, f.groups.is_empty()) {
+            let gains: Vec<String> = f
+                .groups
+                .iter()
+                .map(|g| format!("{} {}", g.name, crate::util::fmt_by_magnitude(g.gain)))
+                .collect();
+            lines.push(format!("gain per {by}: {}", gains.join(", ")));
+        }
+        if let Some(neg) = f.gain_neg {
+            lines.push(format!(
+                "gains: positive δ {}, negative δ {} (asymmetry g+/(g+ + g-) {})",
+                crate::util::fmt_by_magnitude(f.gain),
+                crate::util::fmt_by_magnitude(neg),
+                crate::util::fmt_by_magnitude(f.gain / (f.gain + neg))
+            ));
+        }
         let readout = Readout {
             cue_baseline: f.baselines.cue.unwrap_or(0.0),
             reward_baseline: f.baselines.reward.unwrap_or(0.0),
