@@ -131,3 +131,29 @@ fn the_days_screen_follows_each_cue_in_turn() {
         assert!(caption(&st).contains(&format!("cue {next} |")), "{frame}");
     }
 }
+
+/// next_same_type (t) walks the trials of the current trial's type: on the probe day, from the
+/// first blocked-light probe to the next, skipping compounds and the other light's probes.
+#[test]
+fn next_same_type_steps_through_one_trial_type() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = probe_day(tmp.path());
+    let mut st = state(&dir);
+    let session = st.current_session().clone();
+    let probes: Vec<usize> = session
+        .trials
+        .iter()
+        .enumerate()
+        .filter(|(_, t)| session.cue_name(t) == Some("light-b") && !t.has_events())
+        .map(|(i, _)| i)
+        .collect();
+    assert!(probes.len() >= 3, "{probes:?}");
+    st.trial = probes[0];
+    for &next in &probes[1..] {
+        press(&mut st, "t");
+        assert_eq!(st.trial, next);
+    }
+    press(&mut st, "t");
+    assert_eq!(st.trial, probes[0], "wraps to the first");
+    assert!(st.status.text.contains("wrapped"), "{}", st.status.text);
+}

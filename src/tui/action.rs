@@ -42,6 +42,8 @@ pub enum Action {
     PrevUnit,
     /// Switch the activity source: spikes, photometry, licks.
     CycleSignal,
+    /// Jump to the next trial of the current trial's type (same cues, same outcome), wrapping.
+    NextSameType,
     /// The days screen follows the next cue (a blocking design has several worth following).
     NextCue,
     /// Mark the current trial excluded (asks for a reason).
@@ -118,6 +120,7 @@ pub const BINDABLE: &[(Action, &str)] = &[
     (Action::PrevUnit, "prev_unit"),
     (Action::CycleSignal, "cycle_signal"),
     (Action::NextCue, "next_cue"),
+    (Action::NextSameType, "next_same_type"),
     (Action::MarkExclude, "mark_exclude"),
     (Action::MarkSuspect, "mark_suspect"),
     (Action::MarkClear, "mark_clear"),
@@ -166,6 +169,7 @@ impl Action {
             Action::PrevUnit => "previous unit",
             Action::CycleSignal => "spikes/photometry/licks",
             Action::NextCue => "days: follow next cue",
+            Action::NextSameType => "next trial of this type",
             Action::MarkExclude => "exclude (pick a reason)",
             Action::MarkSuspect => "suspect (pick a reason)",
             Action::MarkClear => "clear trial's mark",

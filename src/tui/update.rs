@@ -53,6 +53,7 @@ pub fn update(state: &mut State, action: Action) {
         Action::FirstTrial => state.trial = 0,
         Action::LastTrial => state.trial = last,
         Action::NextUnmarked => next_unmarked(state),
+        Action::NextSameType => next_same_type(state),
         Action::NextSession => open_session(state, state.session + 1),
         Action::PrevSession => {
             if state.session > 0 {
@@ -125,6 +126,29 @@ fn next_unmarked(state: &mut State) {
     match found {
         Some(i) => state.trial = i,
         None => info(state, "no unmarked trial after this one"),
+    }
+}
+
+/// The next trial (wrapping past the last) with the current trial's cues and outcome.
+fn next_same_type(state: &mut State) {
+    let session = state.current_session();
+    let n = session.trials.len();
+    let ty = |i: usize| crate::obs::TrialType::of(session, &session.trials[i]);
+    let Some(want) = state.current_trial().and_then(|_| ty(state.trial)) else {
+        return info(state, "this trial has no type (no cue and no reward)");
+    };
+    let found = (1..n)
+        .map(|k| (state.trial + k) % n)
+        .find(|&i| ty(i).as_ref() == Some(&want));
+    match found {
+        Some(i) => {
+            let wrapped = i < state.trial;
+            state.trial = i;
+            if wrapped {
+                info(state, "wrapped to the first trial of this type");
+            }
+        }
+        None => info(state, "no other trial of this type in the session"),
     }
 }
 
