@@ -38,6 +38,7 @@ fn example() -> SavedFit {
         sensor_decay_s: None,
         likelihood: None,
         gain_neg: None,
+        zscore: None,
         scale_by: None,
         groups: Vec::new(),
     }

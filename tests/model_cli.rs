@@ -305,6 +305,7 @@ fn saved_fit(alpha: f64) -> trialdesk::fit::saved::SavedFit {
         sensor_decay_s: None,
         likelihood: None,
         gain_neg: None,
+        zscore: None,
         scale_by: None,
         groups: Vec::new(),
     }

@@ -164,6 +164,7 @@ fn saved_with_dt_zero() -> SavedFit {
         sensor_decay_s: None,
         likelihood: None,
         gain_neg: None,
+        zscore: None,
         scale_by: None,
         groups: Vec::new(),
     }

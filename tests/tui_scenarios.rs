@@ -368,6 +368,7 @@ fn saved_fit_parameters_are_used_and_labelled() {
         sensor_decay_s: None,
         likelihood: None,
         gain_neg: None,
+        zscore: None,
         scale_by: None,
         groups: Vec::new(),
     };

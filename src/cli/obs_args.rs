@@ -45,6 +45,11 @@ pub struct ObsArgs {
     /// Photometry: rise time constant of the sensor kernel, seconds [default: 0.1]
     #[arg(long, value_name = "S", allow_negative_numbers = true)]
     pub sensor_rise: Option<f64>,
+    /// Photometry: divide each trial's responses by the standard deviation of its own baseline
+    /// window (a z-score against the pre-cue baseline) [default: off; readers of a fit: as the
+    /// fit was made]
+    #[arg(long)]
+    pub zscore: bool,
 }
 
 impl ObsArgs {
@@ -62,6 +67,7 @@ impl ObsArgs {
             latency: self.latency,
             sensor_rise: self.sensor_rise,
             sensor_decay: self.sensor_decay,
+            zscore: self.zscore,
         }
     }
 }

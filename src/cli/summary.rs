@@ -197,6 +197,10 @@ fn summarise(
         opts.baseline.0,
         opts.baseline.1
     )];
+    if opts.zscore {
+        notes
+            .push("z-score: each response divided by the SD of its trial's baseline window".into());
+    }
     if opts.signal == Signal::Photometry {
         if let Some(methods) = crate::obs::photometry::photometry_methods(&subject) {
             notes.extend(methods.lines().map(|m| format!("photometry: {m}")));

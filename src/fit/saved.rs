@@ -68,6 +68,9 @@ pub struct SavedFit {
     /// `gaussian` or `poisson` (absent: gaussian, as in files written before Poisson fits).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub likelihood: Option<String>,
+    /// `--zscore`: the responses were z-scored against each trial's baseline (absent: not).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub zscore: Option<bool>,
     /// `--asymmetric`: the gain of negative δ (`gain` is then the gain of positive δ).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub gain_neg: Option<f64>,
@@ -387,6 +390,7 @@ pub fn option_changes(old: &SavedFit, new: &SavedFit) -> Vec<String> {
     );
     field("likelihood", show(&old.likelihood), show(&new.likelihood));
     field("scale by", show(&old.scale_by), show(&new.scale_by));
+    field("z-score", show(&old.zscore), show(&new.zscore));
     field(
         "asymmetric gains",
         old.gain_neg.is_some().to_string(),

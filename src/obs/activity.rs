@@ -153,6 +153,23 @@ impl<'a> SessionActivity<'a> {
         }
     }
 
+    /// Sample standard deviation of the photometry activity in [lo, hi) (n − 1 in the
+    /// denominator); `None` for spikes or fewer than two samples.
+    pub fn sd(&self, lo: f64, hi: f64) -> Option<f64> {
+        let SessionActivity::Photometry { time, values, .. } = self else {
+            return None;
+        };
+        let a = time.partition_point(|&t| t < lo);
+        let b = a + time[a..].partition_point(|&t| t < hi);
+        let v = values.get(a..b)?;
+        if v.len() < 2 {
+            return None;
+        }
+        let mean = v.iter().sum::<f64>() / v.len() as f64;
+        let ss: f64 = v.iter().map(|x| (x - mean).powi(2)).sum();
+        Some((ss / (v.len() - 1) as f64).sqrt())
+    }
+
     /// [`SessionActivity::mean`] of many windows at once. Spike trains are swept one unit at a
     /// time with a cursor, so each long train streams through the cache once instead of taking
     /// a cold binary search per window (64 units × 1,000 trials: benches/obs.rs). Fastest when

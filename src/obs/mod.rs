@@ -61,6 +61,9 @@ pub struct ObsOptions {
     pub reward_window: (f64, f64),
     pub baseline: (f64, f64),
     pub latency: f64,
+    /// Photometry: each trial's responses divided by the standard deviation of its own
+    /// baseline window (a z-score against the pre-cue baseline); off by default.
+    pub zscore: bool,
 }
 
 impl Default for ObsOptions {
@@ -75,6 +78,7 @@ impl Default for ObsOptions {
             reward_window: (0.05, 0.35),
             baseline: (-1.0, 0.0),
             latency: 0.05,
+            zscore: false,
         }
     }
 }
@@ -92,6 +96,7 @@ impl ObsOptions {
             reward_window: (0.0, 1.0),
             baseline: (-1.0, 0.0),
             latency: 0.05,
+            zscore: false,
         }
     }
 
@@ -287,10 +292,11 @@ pub fn observe_lenient(
             .iter()
             .flat_map(|(_, p)| p.windows().into_iter().chain(p.extra_windows(opts)))
             .collect();
-        let means = match SessionActivity::new(session, &opts.signal) {
+        let act = SessionActivity::new(session, &opts.signal);
+        let means = match &act {
             Ok(act) => act.means(&windows),
             Err(e) => {
-                problems.push(e);
+                problems.push(e.clone());
                 vec![None; windows.len()]
             }
         };
@@ -300,6 +306,9 @@ pub fn observe_lenient(
             at += m.len();
             let mut o = p.finish(session, &session.trials[*ti], m[0], m[1], m[2]);
             p.finish_events(&mut o, m[0], &m[3..]);
+            if opts.zscore {
+                zscore(&mut o, act.as_ref().ok(), p.baseline);
+            }
             out.push(TrialObs {
                 session: chunk[0].session,
                 trial: *ti,
@@ -325,7 +334,24 @@ pub fn observe_trial(
         .map(|(lo, hi)| act.mean(lo, hi))
         .collect();
     p.finish_events(&mut o, b, &extra);
+    if opts.zscore {
+        zscore(&mut o, Some(act), p.baseline);
+    }
     Some(o)
+}
+
+/// Divide a trial's responses by the standard deviation of its baseline window (photometry
+/// `--zscore`); a baseline without spread (or without two samples) leaves no response.
+fn zscore(o: &mut TrialObs, act: Option<&SessionActivity>, baseline: (f64, f64)) {
+    let sd = act
+        .and_then(|a| a.sd(baseline.0, baseline.1))
+        .filter(|sd| *sd > 0.0 && sd.is_finite());
+    let scale = |v: Option<f64>| Some(v? / sd?);
+    o.cue = scale(o.cue);
+    o.reward = scale(o.reward);
+    for e in &mut o.events {
+        e.value = scale(e.value);
+    }
 }
 
 /// The windows one trial is measured in.

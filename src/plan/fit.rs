@@ -191,6 +191,7 @@ fn saved_record(
         sensor_decay_s: m.kernel.map(|k| k.decay_s),
         likelihood: Some(outcome.best.linear.likelihood.name().to_string()),
         gain_neg: lin.gain_neg,
+        zscore: o.zscore.then_some(true),
         scale_by: data.groups.as_ref().map(|g| g.by.name().to_string()),
         groups: match &data.groups {
             Some(g) => lin
@@ -212,12 +213,15 @@ fn saved_record(
 /// The observation options in words; for photometry also how ΔF/F was made per session.
 pub fn describe_obs(m: &Measurement, subject: &Subject) -> String {
     let o = &m.obs;
-    let method = match o.signal {
+    let mut method = match o.signal {
         Signal::Photometry => crate::obs::photometry::photometry_methods(subject)
             .map(|m| format!("; ΔF/F: {m}"))
             .unwrap_or_default(),
         _ => String::new(),
     };
+    if o.zscore {
+        method.push_str("; each response divided by the SD of its trial's baseline (z-score)");
+    }
     format!(
         "{}; cue window [{}, {}] s, reward window [{}, {}] s after the event (the expected \
          time on omissions), baseline [{}, {}] s from cue onset; windows mapped onto model bins \

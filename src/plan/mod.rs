@@ -41,6 +41,8 @@ pub struct ObsRequest {
     pub sensor_rise: Option<f64>,
     /// 0 turns the kernel off (plain window sums).
     pub sensor_decay: Option<f64>,
+    /// `--zscore` (photometry): responses in units of each trial's baseline SD.
+    pub zscore: bool,
 }
 
 /// What will be measured and how: the outcome of the plan.
@@ -130,8 +132,15 @@ pub fn measurement(
             .latency
             .or(fit.and_then(|s| s.latency_s))
             .unwrap_or(base.latency),
+        // Asked for, or the saved fit was made so: readers measure as the fit measured.
+        zscore: req.zscore || fit.and_then(|s| s.zscore).unwrap_or(false),
         signal: choice.signal.clone(),
     };
+    if obs.zscore && obs.signal != Signal::Photometry {
+        return Err(PlanError::Usage(
+            "--zscore applies to --signal photometry (spike responses are rates)".into(),
+        ));
+    }
     obs.validate()
         .map_err(|e| PlanError::Usage(e.to_string()))?;
     let kernel = sensor_kernel(req, fit, &obs)?;
