@@ -39,6 +39,7 @@ fn example() -> SavedFit {
         likelihood: None,
         gain_neg: None,
         zscore: None,
+        control_fit: None,
         scale_by: None,
         groups: Vec::new(),
     }

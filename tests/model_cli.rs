@@ -306,6 +306,7 @@ fn saved_fit(alpha: f64) -> trialdesk::fit::saved::SavedFit {
         likelihood: None,
         gain_neg: None,
         zscore: None,
+        control_fit: None,
         scale_by: None,
         groups: Vec::new(),
     }

@@ -165,6 +165,7 @@ fn saved_with_dt_zero() -> SavedFit {
         likelihood: None,
         gain_neg: None,
         zscore: None,
+        control_fit: None,
         scale_by: None,
         groups: Vec::new(),
     }

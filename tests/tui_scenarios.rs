@@ -369,6 +369,7 @@ fn saved_fit_parameters_are_used_and_labelled() {
         likelihood: None,
         gain_neg: None,
         zscore: None,
+        control_fit: None,
         scale_by: None,
         groups: Vec::new(),
     };

@@ -50,6 +50,11 @@ pub struct ObsArgs {
     /// fit was made]
     #[arg(long)]
     pub zscore: bool,
+    /// Photometry: how the isosbestic control is fitted to the signal: irls (robust, the
+    /// default) or ols (ordinary least squares, faster on long 1 kHz recordings) [readers of a
+    /// fit: as the fit was made]
+    #[arg(long, value_name = "FIT")]
+    pub control_fit: Option<String>,
 }
 
 impl ObsArgs {
@@ -68,6 +73,7 @@ impl ObsArgs {
             sensor_rise: self.sensor_rise,
             sensor_decay: self.sensor_decay,
             zscore: self.zscore,
+            control_fit: self.control_fit.clone(),
         }
     }
 }

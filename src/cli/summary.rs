@@ -202,7 +202,9 @@ fn summarise(
             .push("z-score: each response divided by the SD of its trial's baseline window".into());
     }
     if opts.signal == Signal::Photometry {
-        if let Some(methods) = crate::obs::photometry::photometry_methods(&subject) {
+        if let Some(methods) =
+            crate::obs::photometry::photometry_methods_with(&subject, opts.control_fit)
+        {
             notes.extend(methods.lines().map(|m| format!("photometry: {m}")));
         }
     }

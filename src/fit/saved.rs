@@ -68,6 +68,9 @@ pub struct SavedFit {
     /// `gaussian` or `poisson` (absent: gaussian, as in files written before Poisson fits).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub likelihood: Option<String>,
+    /// `--control-fit`: `ols` when the photometry control was fitted by OLS (absent: IRLS).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub control_fit: Option<String>,
     /// `--zscore`: the responses were z-scored against each trial's baseline (absent: not).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub zscore: Option<bool>,
@@ -391,6 +394,11 @@ pub fn option_changes(old: &SavedFit, new: &SavedFit) -> Vec<String> {
     field("likelihood", show(&old.likelihood), show(&new.likelihood));
     field("scale by", show(&old.scale_by), show(&new.scale_by));
     field("z-score", show(&old.zscore), show(&new.zscore));
+    field(
+        "control fit",
+        show(&old.control_fit),
+        show(&new.control_fit),
+    );
     field(
         "asymmetric gains",
         old.gain_neg.is_some().to_string(),

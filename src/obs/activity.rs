@@ -1,7 +1,7 @@
 //! Activity of one session in a time window: spike rates by binary search on sorted spike
 //! times, photometry means by prefix sums. Built once per session, queried per trial.
 
-use super::{alignment_time, photometry_activity, ObsError, Signal};
+use super::{alignment_time, ObsError, Signal};
 use crate::data::{Session, Trial};
 
 /// Spikes (or licks) in [lo, hi) of a sorted list, by two binary searches.
@@ -70,7 +70,21 @@ pub enum SessionActivity<'a> {
 }
 
 impl<'a> SessionActivity<'a> {
+    /// The activity `opts` measure (photometry preprocessed with `opts.control_fit`).
+    pub fn measuring(session: &'a Session, opts: &super::ObsOptions) -> Result<Self, ObsError> {
+        Self::with_control_fit(session, &opts.signal, opts.control_fit)
+    }
+
+    /// The activity of `signal`, photometry preprocessed with the default control fit.
     pub fn new(session: &'a Session, signal: &Signal) -> Result<Self, ObsError> {
+        Self::with_control_fit(session, signal, crate::photometry::ControlFit::default())
+    }
+
+    fn with_control_fit(
+        session: &'a Session,
+        signal: &Signal,
+        control_fit: crate::photometry::ControlFit,
+    ) -> Result<Self, ObsError> {
         match signal {
             Signal::Spikes { unit } => {
                 let spikes = session
@@ -107,7 +121,8 @@ impl<'a> SessionActivity<'a> {
                         session: session.name.clone(),
                         hint: "no photometry.csv or no samples in it".into(),
                     })?;
-                let values = photometry_activity(session)?;
+                let values =
+                    super::photometry::photometry_processed_with(session, control_fit)?.dff;
                 Ok(SessionActivity::from_samples(&ph.time_s, values))
             }
         }

@@ -64,6 +64,9 @@ pub struct ObsOptions {
     /// Photometry: each trial's responses divided by the standard deviation of its own
     /// baseline window (a z-score against the pre-cue baseline); off by default.
     pub zscore: bool,
+    /// Photometry: how the isosbestic control is fitted to the signal (`--control-fit`);
+    /// default IRLS with Tukey's bisquare, OLS an option (faster on long 1 kHz recordings).
+    pub control_fit: crate::photometry::ControlFit,
 }
 
 impl Default for ObsOptions {
@@ -79,6 +82,7 @@ impl Default for ObsOptions {
             baseline: (-1.0, 0.0),
             latency: 0.05,
             zscore: false,
+            control_fit: crate::photometry::ControlFit::default(),
         }
     }
 }
@@ -97,6 +101,7 @@ impl ObsOptions {
             baseline: (-1.0, 0.0),
             latency: 0.05,
             zscore: false,
+            control_fit: crate::photometry::ControlFit::default(),
         }
     }
 
@@ -292,7 +297,7 @@ pub fn observe_lenient(
             .iter()
             .flat_map(|(_, p)| p.windows().into_iter().chain(p.extra_windows(opts)))
             .collect();
-        let act = SessionActivity::new(session, &opts.signal);
+        let act = SessionActivity::measuring(session, opts);
         let means = match &act {
             Ok(act) => act.means(&windows),
             Err(e) => {

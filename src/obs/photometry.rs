@@ -18,7 +18,7 @@
 
 use super::ObsError;
 use crate::data::{Session, Subject};
-use crate::photometry::{preprocess, PreprocessOptions, Processed, ZScoreMode};
+use crate::photometry::{preprocess, ControlFit, PreprocessOptions, Processed, ZScoreMode};
 
 /// The preprocessing options the observation layer uses: the library defaults, no z-score.
 pub fn obs_preprocess_options() -> PreprocessOptions {
@@ -31,6 +31,14 @@ pub fn obs_preprocess_options() -> PreprocessOptions {
 /// The session's photometry preprocessed into ΔF/F, with its method, fit and QC figures. Keep
 /// it for as long as the session is shown: it costs a full pass over the recording.
 pub fn photometry_processed(session: &Session) -> Result<Processed, ObsError> {
+    photometry_processed_with(session, ControlFit::default())
+}
+
+/// [`photometry_processed`] with the control fitted by `fit` (`--control-fit`).
+pub fn photometry_processed_with(
+    session: &Session,
+    fit: ControlFit,
+) -> Result<Processed, ObsError> {
     let ph = session
         .photometry
         .as_ref()
@@ -39,7 +47,11 @@ pub fn photometry_processed(session: &Session) -> Result<Processed, ObsError> {
             session: session.name.clone(),
             hint: "no photometry.csv".into(),
         })?;
-    preprocess(ph, &obs_preprocess_options()).map_err(|e| {
+    let options = PreprocessOptions {
+        fit,
+        ..obs_preprocess_options()
+    };
+    preprocess(ph, &options).map_err(|e| {
         let what = match ph.control {
             Some(_) => "the isosbestic correction",
             None => "the photobleaching detrend (no control channel)",
@@ -63,7 +75,12 @@ pub fn photometry_activity(session: &Session) -> Result<Vec<f64>, ObsError> {
 /// isosbestic control fitted ... ; no z-score"), or why it could not be. Runs the
 /// preprocessing: if the trace is needed too, call [`photometry_processed`] once instead.
 pub fn photometry_method(session: &Session) -> String {
-    match photometry_processed(session) {
+    photometry_method_with(session, ControlFit::default())
+}
+
+/// [`photometry_method`] with the control fitted by `fit`.
+pub fn photometry_method_with(session: &Session, fit: ControlFit) -> String {
+    match photometry_processed_with(session, fit) {
         Ok(p) => p.method,
         Err(e) => e.to_string(),
     }
@@ -73,9 +90,14 @@ pub fn photometry_method(session: &Session) -> String {
 /// that used it counted: "ΔF/F against ... (8 sessions)". Sessions without photometry are
 /// left out; `None` when no session has any. One preprocessing pass per session.
 pub fn photometry_methods(subject: &Subject) -> Option<String> {
+    photometry_methods_with(subject, ControlFit::default())
+}
+
+/// [`photometry_methods`] with the control fitted by `fit`.
+pub fn photometry_methods_with(subject: &Subject, fit: ControlFit) -> Option<String> {
     let mut methods: Vec<(String, usize)> = Vec::new();
     for s in subject.sessions.iter().filter(|s| s.photometry.is_some()) {
-        let m = photometry_method(s);
+        let m = photometry_method_with(s, fit);
         match methods.iter_mut().find(|(x, _)| *x == m) {
             Some((_, n)) => *n += 1,
             None => methods.push((m, 1)),

@@ -192,6 +192,10 @@ fn saved_record(
         likelihood: Some(outcome.best.linear.likelihood.name().to_string()),
         gain_neg: lin.gain_neg,
         zscore: o.zscore.then_some(true),
+        // Only a choice away from the default is written, so default fits' files stay as before.
+        control_fit: (o.signal == Signal::Photometry
+            && o.control_fit != crate::photometry::ControlFit::default())
+        .then(|| super::control_fit_name(o.control_fit).to_string()),
         scale_by: data.groups.as_ref().map(|g| g.by.name().to_string()),
         groups: match &data.groups {
             Some(g) => lin
@@ -214,9 +218,11 @@ fn saved_record(
 pub fn describe_obs(m: &Measurement, subject: &Subject) -> String {
     let o = &m.obs;
     let mut method = match o.signal {
-        Signal::Photometry => crate::obs::photometry::photometry_methods(subject)
-            .map(|m| format!("; ΔF/F: {m}"))
-            .unwrap_or_default(),
+        Signal::Photometry => {
+            crate::obs::photometry::photometry_methods_with(subject, o.control_fit)
+                .map(|m| format!("; ΔF/F: {m}"))
+                .unwrap_or_default()
+        }
         _ => String::new(),
     };
     if o.zscore {

@@ -43,6 +43,25 @@ pub struct ObsRequest {
     pub sensor_decay: Option<f64>,
     /// `--zscore` (photometry): responses in units of each trial's baseline SD.
     pub zscore: bool,
+    /// `--control-fit irls|ols` (photometry).
+    pub control_fit: Option<String>,
+}
+
+/// The control fit named `irls` or `ols`.
+pub fn control_fit_named(name: &str) -> Option<crate::photometry::ControlFit> {
+    match name {
+        "irls" => Some(crate::photometry::ControlFit::default()),
+        "ols" => Some(crate::photometry::ControlFit::Ols),
+        _ => None,
+    }
+}
+
+/// The name of a control fit as `--control-fit` takes it.
+pub fn control_fit_name(fit: crate::photometry::ControlFit) -> &'static str {
+    match fit {
+        crate::photometry::ControlFit::Ols => "ols",
+        crate::photometry::ControlFit::Irls(_) => "irls",
+    }
 }
 
 /// What will be measured and how: the outcome of the plan.
@@ -134,8 +153,14 @@ pub fn measurement(
             .unwrap_or(base.latency),
         // Asked for, or the saved fit was made so: readers measure as the fit measured.
         zscore: req.zscore || fit.and_then(|s| s.zscore).unwrap_or(false),
+        control_fit: control_fit_of(req, fit)?,
         signal: choice.signal.clone(),
     };
+    if req.control_fit.is_some() && obs.signal != Signal::Photometry {
+        return Err(PlanError::Usage(
+            "--control-fit applies to --signal photometry".into(),
+        ));
+    }
     if obs.zscore && obs.signal != Signal::Photometry {
         return Err(PlanError::Usage(
             "--zscore applies to --signal photometry (spike responses are rates)".into(),
@@ -149,6 +174,25 @@ pub fn measurement(
         obs,
         kernel,
     })
+}
+
+/// The control fit: the flag, else the saved fit's, else IRLS.
+fn control_fit_of(
+    req: &ObsRequest,
+    fit: Option<&crate::fit::saved::SavedFit>,
+) -> Result<crate::photometry::ControlFit, PlanError> {
+    let name = req
+        .control_fit
+        .clone()
+        .or_else(|| fit.and_then(|f| f.control_fit.clone()));
+    match name {
+        None => Ok(crate::photometry::ControlFit::default()),
+        Some(n) => control_fit_named(&n).ok_or_else(|| {
+            PlanError::Usage(format!(
+                "--control-fit '{n}' is not known (expected irls or ols)"
+            ))
+        }),
+    }
 }
 
 /// The kernel: flags, else the saved fit's (a saved plain-sum fit keeps plain sums), else the

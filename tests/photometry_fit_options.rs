@@ -2,7 +2,8 @@
 //! its own baseline window. A hand-made trace with a known baseline (alternating 0 and 2:
 //! mean 1, SD sqrt(20/19) over 20 samples, closed form) checks the arithmetic; a simulated
 //! photometry subject checks the command line: the report says so, the saved fit records it,
-//! `summary` then measures the same way, and spikes refuse the flag.
+//! `summary` then measures the same way, and spikes refuse the flag. `--control-fit ols` is
+//! checked the same way (named in the report, recorded, followed by `summary`).
 
 use std::process::Command;
 use trialdesk::data::{CueDef, Photometry, Session, SessionMeta, Trial};
@@ -128,4 +129,54 @@ fn fit_zscore_is_reported_saved_and_followed_by_summary() {
     let out = run(&["fit", "--signal", "spikes", "--zscore", "--no-save"]);
     assert_eq!(out.status.code(), Some(2), "{out:?}");
     assert!(String::from_utf8_lossy(&out.stderr).contains("--zscore applies to"));
+}
+
+#[test]
+fn control_fit_ols_is_reported_saved_and_followed() {
+    let tmp = tempfile::tempdir().unwrap();
+    let subject = tmp.path().join("m-931");
+    let mut c = SimConfig {
+        seed: 6,
+        ..Default::default()
+    };
+    c.schedule.days = 2;
+    c.schedule.trials_per_day = 30;
+    c.schedule.subject = "m-931".into();
+    c.photometry = Some(PhotometryParams::default());
+    let sim = simulate(&c).unwrap();
+    write_subject(&sim, &subject, false).unwrap();
+    let run = |args: &[&str]| {
+        Command::new(env!("CARGO_BIN_EXE_trialdesk"))
+            .args(args)
+            .arg(&subject)
+            .output()
+            .unwrap()
+    };
+    let fit = |extra: &[&str]| {
+        let mut args = vec![
+            "fit",
+            "--signal",
+            "photometry",
+            "--bootstrap",
+            "0",
+            "--no-compare",
+            "--no-sensitivity",
+        ];
+        args.extend_from_slice(extra);
+        run(&args)
+    };
+    let out = fit(&["--control-fit", "ols"]);
+    assert!(out.status.success(), "{out:?}");
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains("by ordinary least squares"), "{text}");
+    let saved = std::fs::read_to_string(subject.join("trialdesk-fit.toml")).unwrap();
+    assert!(saved.contains("control_fit = \"ols\""), "{saved}");
+    let text = String::from_utf8_lossy(&run(&["summary"]).stdout).to_string();
+    assert!(text.contains("by ordinary least squares"), "{text}");
+    // The default is IRLS, and an unknown name is a usage error.
+    let out = fit(&["--no-save"]);
+    assert!(String::from_utf8_lossy(&out.stdout).contains("by IRLS"));
+    let out = fit(&["--control-fit", "median", "--no-save"]);
+    assert_eq!(out.status.code(), Some(2), "{out:?}");
+    assert!(String::from_utf8_lossy(&out.stderr).contains("expected irls or ols"));
 }
