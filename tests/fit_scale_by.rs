@@ -222,3 +222,32 @@ fn scan() {
         );
     }
 }
+
+/// `--compare-readouts` refits with each readout and prints them side by side: one gain,
+/// asymmetric gains, a gain per session (no held-out error) and, with two rigs, per rig; the
+/// readout of the reported parameters is starred.
+#[test]
+fn compare_readouts_lists_each_readout_with_its_criteria() {
+    let tmp = tempfile::tempdir().unwrap();
+    let subject = tmp.path().join("m-910");
+    small_subject(&subject);
+    let out = fit(&subject, &["--compare-readouts", "--scale-by", "rig", "--no-save"]);
+    assert!(out.status.success(), "{out:?}");
+    let text = String::from_utf8_lossy(&out.stdout);
+    let table: Vec<&str> = text
+        .lines()
+        .skip_while(|l| !l.starts_with("Readouts of csc"))
+        .take(6)
+        .collect();
+    let row = |label: &str| {
+        table
+            .iter()
+            .find(|l| l.trim_start().starts_with(label))
+            .unwrap_or_else(|| panic!("{label} missing:\n{text}"))
+            .to_string()
+    };
+    assert!(!row("one gain ").ends_with('*'), "{text}");
+    assert!(row("one gain, asymmetric").contains("(n="), "{text}");
+    assert!(row("gain per session").contains("n/a"), "{text}");
+    assert!(row("gain per rig").ends_with(" *"), "{text}");
+}

@@ -61,6 +61,10 @@ pub struct Args {
     /// g+/(g+ + g−) (0.5: symmetric)
     #[arg(long)]
     pub asymmetric: bool,
+    /// Also refit the reported model with each readout (one gain, asymmetric gains, a gain per
+    /// session, per rig) and print their AIC, BIC and held-out error side by side
+    #[arg(long)]
+    pub compare_readouts: bool,
     /// What the bootstrap resamples: trials, blocks (20 neighbouring trials) or sessions
     #[arg(long, default_value = "trials")]
     pub bootstrap_by: String,
@@ -229,6 +233,7 @@ pub(crate) fn fit_subject(
         obs: args.obs.request(),
         dt: args.dt,
         scale_by,
+        compare_readouts: args.compare_readouts,
         ignore_marks: args.ignore_marks,
         sensitivity: !args.no_sensitivity,
         command: command_line(),

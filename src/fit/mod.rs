@@ -23,6 +23,7 @@ pub mod objective;
 pub mod optimise;
 pub mod params;
 pub mod profile;
+pub mod readouts;
 pub mod report;
 pub mod saved;
 pub mod sensitivity;

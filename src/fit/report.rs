@@ -92,6 +92,8 @@ pub struct ReportContext {
     pub command: String,
     /// The sensitivity-to-suggested-marks line ([`super::sensitivity::line`]), if computed.
     pub sensitivity: Option<String>,
+    /// `--compare-readouts`: the readout table ([`super::readouts::table`]).
+    pub readouts: Option<String>,
 }
 
 /// The plain-text report.
@@ -218,6 +220,9 @@ pub fn text_report(
     if !out.comparison.is_empty() {
         write_comparison(&mut s, out, data, lambda_fitted);
         let _ = writeln!(s);
+    }
+    if let Some(table) = &ctx.readouts {
+        let _ = writeln!(s, "{table}");
     }
 
     write_exclusions(&mut s, out, data);

@@ -17,6 +17,8 @@ pub struct FitRequest {
     pub ignore_marks: bool,
     /// What gets its own gain and baselines.
     pub scale_by: dataset::ScaleBy,
+    /// Refit the reported representation with every readout and report the table.
+    pub compare_readouts: bool,
     /// Refit with pending suggested marks excluded too (the report's sensitivity line).
     pub sensitivity: bool,
     /// The command line as the user would retype it (the report suggests it with `nice`).
@@ -119,6 +121,9 @@ impl<'a> FitJob<'a> {
             observations,
             command: request.command.clone(),
             sensitivity,
+            readouts: request
+                .compare_readouts
+                .then(|| readout_table(subject, &data, &outcome, opts, progress)),
         };
         let text = report::text_report(&outcome, &data, &ctx, opts.lambda_fitted());
         let n_excluded = if request.ignore_marks {
@@ -136,6 +141,57 @@ impl<'a> FitJob<'a> {
             warnings,
         })
     }
+}
+
+/// The readouts of `--compare-readouts`: one gain, asymmetric gains, a gain per session, and a
+/// gain per rig when the sessions name more than one rig.
+fn readout_table(
+    subject: &Subject,
+    data: &FitData,
+    outcome: &fit::FitOutcome,
+    opts: &FitOptions,
+    progress: &dyn Progress,
+) -> String {
+    use fit::readouts::{compare_readouts, table, Readout};
+    let grouped = |by| dataset::groups(data, subject, by);
+    let mut variants = vec![
+        Readout {
+            label: "one gain".into(),
+            groups: None,
+            asymmetric: false,
+        },
+        Readout {
+            label: "one gain, asymmetric".into(),
+            groups: None,
+            asymmetric: true,
+        },
+        Readout {
+            label: "gain per session".into(),
+            groups: grouped(dataset::ScaleBy::Session),
+            asymmetric: false,
+        },
+    ];
+    if let Some(rigs) = grouped(dataset::ScaleBy::Rig).filter(|g| g.names.len() > 1) {
+        variants.push(Readout {
+            label: "gain per rig".into(),
+            groups: Some(rigs),
+            asymmetric: false,
+        });
+    }
+    // The fit's own readout, when it is none of the above (asymmetric per group).
+    let own = Readout {
+        label: "as fitted".into(),
+        groups: data.groups.clone(),
+        asymmetric: opts.asymmetric,
+    };
+    if !variants.iter().any(|v| {
+        v.asymmetric == own.asymmetric
+            && v.groups.as_ref().map(|g| g.by) == own.groups.as_ref().map(|g| g.by)
+    }) {
+        variants.push(own);
+    }
+    let rows = compare_readouts(data, opts, outcome.model, &variants, progress);
+    table(&rows, outcome.model)
 }
 
 /// Why a fit did not run.
