@@ -231,7 +231,10 @@ fn compare_readouts_lists_each_readout_with_its_criteria() {
     let tmp = tempfile::tempdir().unwrap();
     let subject = tmp.path().join("m-910");
     small_subject(&subject);
-    let out = fit(&subject, &["--compare-readouts", "--scale-by", "rig", "--no-save"]);
+    let out = fit(
+        &subject,
+        &["--compare-readouts", "--scale-by", "rig", "--no-save"],
+    );
     assert!(out.status.success(), "{out:?}");
     let text = String::from_utf8_lossy(&out.stdout);
     let table: Vec<&str> = text

@@ -55,6 +55,37 @@ fn session() -> Session {
     }
 }
 
+/// A simulated photometry subject written under `dir`.
+fn photometry_subject(
+    dir: &std::path::Path,
+    name: &str,
+    seed: u64,
+    days: usize,
+    trials: usize,
+) -> std::path::PathBuf {
+    let subject = dir.join(name);
+    let mut c = SimConfig {
+        seed,
+        ..Default::default()
+    };
+    c.schedule.days = days;
+    c.schedule.trials_per_day = trials;
+    c.schedule.subject = name.into();
+    c.photometry = Some(PhotometryParams::default());
+    let sim = simulate(&c).unwrap();
+    write_subject(&sim, &subject, false).unwrap();
+    subject
+}
+
+/// `trialdesk <args> <subject>`.
+fn trialdesk(args: &[&str], subject: &std::path::Path) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_trialdesk"))
+        .args(args)
+        .arg(subject)
+        .output()
+        .unwrap()
+}
+
 #[test]
 fn a_response_is_divided_by_its_baselines_sample_sd() {
     let s = session();
@@ -86,24 +117,8 @@ fn a_response_is_divided_by_its_baselines_sample_sd() {
 #[test]
 fn fit_zscore_is_reported_saved_and_followed_by_summary() {
     let tmp = tempfile::tempdir().unwrap();
-    let subject = tmp.path().join("m-930");
-    let mut c = SimConfig {
-        seed: 5,
-        ..Default::default()
-    };
-    c.schedule.days = 3;
-    c.schedule.trials_per_day = 40;
-    c.schedule.subject = "m-930".into();
-    c.photometry = Some(PhotometryParams::default());
-    let sim = simulate(&c).unwrap();
-    write_subject(&sim, &subject, false).unwrap();
-    let run = |args: &[&str]| {
-        Command::new(env!("CARGO_BIN_EXE_trialdesk"))
-            .args(args)
-            .arg(&subject)
-            .output()
-            .unwrap()
-    };
+    let subject = photometry_subject(tmp.path(), "m-930", 5, 3, 40);
+    let run = |args: &[&str]| trialdesk(args, &subject);
     let out = run(&[
         "fit",
         "--signal",
@@ -134,24 +149,8 @@ fn fit_zscore_is_reported_saved_and_followed_by_summary() {
 #[test]
 fn control_fit_ols_is_reported_saved_and_followed() {
     let tmp = tempfile::tempdir().unwrap();
-    let subject = tmp.path().join("m-931");
-    let mut c = SimConfig {
-        seed: 6,
-        ..Default::default()
-    };
-    c.schedule.days = 2;
-    c.schedule.trials_per_day = 30;
-    c.schedule.subject = "m-931".into();
-    c.photometry = Some(PhotometryParams::default());
-    let sim = simulate(&c).unwrap();
-    write_subject(&sim, &subject, false).unwrap();
-    let run = |args: &[&str]| {
-        Command::new(env!("CARGO_BIN_EXE_trialdesk"))
-            .args(args)
-            .arg(&subject)
-            .output()
-            .unwrap()
-    };
+    let subject = photometry_subject(tmp.path(), "m-931", 6, 2, 30);
+    let run = |args: &[&str]| trialdesk(args, &subject);
     let fit = |extra: &[&str]| {
         let mut args = vec![
             "fit",

@@ -236,20 +236,27 @@ impl<'a> Problem<'a> {
         z
     }
 
+    /// The TD pass over every trial at learning parameters `p` (`None` for Rescorla–Wagner).
+    fn td_run(&self, p: &LearnParams) -> Option<crate::model::TdRun> {
+        let (ModelSpec::Td(representation), Some(space)) = (self.model, &self.space) else {
+            return None;
+        };
+        let params = TdParams {
+            alpha: p.alpha,
+            gamma: p.gamma,
+            lambda: p.lambda,
+            dt: self.data.dt,
+            representation,
+        };
+        Some(td::run_in(space, &self.data.spans, &params))
+    }
+
     /// The model's δ summed over each point's window (excluded points too: one pass over all
     /// trials serves every point).
     pub fn predictors(&self, p: &LearnParams) -> Vec<f64> {
         let data = self.data;
-        match (self.model, &self.space) {
-            (ModelSpec::Td(repr), Some(space)) => {
-                let params = TdParams {
-                    alpha: p.alpha,
-                    gamma: p.gamma,
-                    lambda: p.lambda,
-                    dt: data.dt,
-                    representation: repr,
-                };
-                let run = td::run_in(space, &data.spans, &params);
+        match self.td_run(p) {
+            Some(run) => {
                 if let Some(weighted) = &data.weighted {
                     return data
                         .points
@@ -292,35 +299,26 @@ impl<'a> Problem<'a> {
                 (a + wt * d.max(0.0), b + wt * d.min(0.0))
             })
         };
-        let parts: Vec<(f64, f64)> = match (self.model, &self.space) {
-            (ModelSpec::Td(repr), Some(space)) => {
-                let params = TdParams {
-                    alpha: p.alpha,
-                    gamma: p.gamma,
-                    lambda: p.lambda,
-                    dt: data.dt,
-                    representation: repr,
-                };
-                let run = td::run_in(space, &data.spans, &params);
-                data.points
-                    .iter()
-                    .enumerate()
-                    .map(|(i, pt)| {
-                        let d = run.trial_delta(pt.span);
-                        match &data.weighted {
-                            Some(weighted) => {
-                                let w = &weighted[i];
-                                let d = d.get(w.first_bin as usize..).unwrap_or(&[]);
-                                split(&mut w.weights.iter().copied().zip(d.iter().copied()))
-                            }
-                            None => {
-                                let d = &d[pt.first_bin as usize..pt.end_bin as usize];
-                                split(&mut d.iter().map(|&x| (1.0, x)))
-                            }
+        let parts: Vec<(f64, f64)> = match self.td_run(p) {
+            Some(run) => data
+                .points
+                .iter()
+                .enumerate()
+                .map(|(i, pt)| {
+                    let d = run.trial_delta(pt.span);
+                    match &data.weighted {
+                        Some(weighted) => {
+                            let w = &weighted[i];
+                            let d = d.get(w.first_bin as usize..).unwrap_or(&[]);
+                            split(&mut w.weights.iter().copied().zip(d.iter().copied()))
                         }
-                    })
-                    .collect()
-            }
+                        None => {
+                            let d = &d[pt.first_bin as usize..pt.end_bin as usize];
+                            split(&mut d.iter().map(|&x| (1.0, x)))
+                        }
+                    }
+                })
+                .collect(),
             _ => self
                 .predictors(p)
                 .into_iter()
@@ -339,16 +337,8 @@ impl<'a> Problem<'a> {
             offsets: Vec::with_capacity(data.points.len() + 1),
         };
         out.offsets.push(0);
-        match (self.model, &self.space) {
-            (ModelSpec::Td(repr), Some(space)) => {
-                let params = TdParams {
-                    alpha: p.alpha,
-                    gamma: p.gamma,
-                    lambda: p.lambda,
-                    dt: data.dt,
-                    representation: repr,
-                };
-                let run = td::run_in(space, &data.spans, &params);
+        match self.td_run(p) {
+            Some(run) => {
                 for pt in &data.points {
                     let d = run.trial_delta(pt.span);
                     out.values
