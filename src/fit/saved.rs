@@ -100,6 +100,18 @@ pub struct SavedGroup {
     pub baseline_reward: Option<f64>,
 }
 
+impl SavedGroup {
+    /// [gain of positive δ, gain of negative δ]; equal for a symmetric readout.
+    pub fn gains(&self) -> [f64; 2] {
+        [self.gain, self.gain_neg.unwrap_or(self.gain)]
+    }
+}
+
+/// The saved group called `name` (`None` when the fit never saw it: a new rig or session).
+pub fn group_named<'a>(groups: &'a [SavedGroup], name: Option<&str>) -> Option<&'a SavedGroup> {
+    groups.iter().find(|g| Some(g.name.as_str()) == name)
+}
+
 /// The group name of a session under a fit's `scale_by` (`None`: not grouped).
 pub fn group_key(scale_by: Option<&str>, session: &crate::data::Session) -> Option<String> {
     match scale_by? {
@@ -180,11 +192,8 @@ impl SavedFit {
                 .groups
                 .as_ref()
                 .map(|g| &g.names[g.of_point[i] as usize]);
-            match self.groups.iter().find(|g| Some(&g.name) == name) {
-                Some(g) => (
-                    [g.gain, g.gain_neg.unwrap_or(g.gain)],
-                    [g.baseline_cue, g.baseline_reward],
-                ),
+            match group_named(&self.groups, name.map(String::as_str)) {
+                Some(g) => (g.gains(), [g.baseline_cue, g.baseline_reward]),
                 None => ([f64::NAN; 2], [None, None]),
             }
         };

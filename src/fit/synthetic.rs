@@ -137,21 +137,30 @@ pub fn observations(spec: &SyntheticSpec, subj: &Subject, obs_opts: &ObsOptions)
             };
             let cue = draw(cue_bin, obs_opts.cue_window, spec.baselines[0]);
             let reward = draw(reward_bin, obs_opts.reward_window, spec.baselines[1]);
-            let session = &subj.sessions[span.session];
-            let trial = &session.trials[span.trial];
-            let kind = TrialKind::of(session, trial).expect("cue or reward");
-            TrialObs {
-                session: span.session,
-                trial: span.trial,
-                cue,
-                reward,
-                omission: kind == TrialKind::Omission,
-                anticipatory_lick_rate: None,
-                kind,
-                events: Vec::new(),
-            }
+            span_obs(subj, span, cue, reward)
         })
         .collect()
+}
+
+/// A synthetic trial's observation: its measured cue and reward responses, no licks.
+fn span_obs(
+    subj: &Subject,
+    span: &crate::model::TrialSpan,
+    cue: Option<f64>,
+    reward: Option<f64>,
+) -> TrialObs {
+    let session = &subj.sessions[span.session];
+    let kind = TrialKind::of(session, &session.trials[span.trial]).expect("cue or reward");
+    TrialObs {
+        session: span.session,
+        trial: span.trial,
+        cue,
+        reward,
+        omission: kind == TrialKind::Omission,
+        anticipatory_lick_rate: None,
+        kind,
+        events: Vec::new(),
+    }
 }
 
 /// Subject, observations and fitting data in one go (no marks).
@@ -239,19 +248,7 @@ pub fn spike_fit_data(spec: &SyntheticSpec, spikes: &SpikeSpec) -> (Subject, Fit
             };
             let cue = window(WindowKind::Cue, cue_bin, obs_opts.cue_window);
             let reward = window(WindowKind::Reward, reward_bin, obs_opts.reward_window);
-            let session = &subj.sessions[span.session];
-            let trial = &session.trials[span.trial];
-            let kind = TrialKind::of(session, trial).expect("cue or reward");
-            TrialObs {
-                session: span.session,
-                trial: span.trial,
-                cue,
-                reward,
-                omission: kind == TrialKind::Omission,
-                anticipatory_lick_rate: None,
-                kind,
-                events: Vec::new(),
-            }
+            span_obs(&subj, span, cue, reward)
         })
         .collect();
     let mut data = build(&subj, &obs, &obs_opts, spec.dt, &[] as &[MarkState], false);

@@ -130,11 +130,15 @@ pub fn cue_presentation(session: &Session, o: &TrialObs, name: &str) -> Option<C
             first: true,
         });
     }
-    let label = format!("cue:{name}");
-    let cues = || o.events.iter().filter(|e| e.label.starts_with("cue:"));
-    let at = cues().position(|e| e.label == label)?;
+    // No allocation and one scan: this runs per trial on every frame of the days screen.
+    let (at, e) = o
+        .events
+        .iter()
+        .filter(|e| e.label.starts_with("cue:"))
+        .enumerate()
+        .find(|(_, e)| e.label.strip_prefix("cue:") == Some(name))?;
     Some(CuePresentation {
-        response: cues().nth(at).and_then(|e| e.value),
+        response: e.value,
         first: at == 0,
     })
 }

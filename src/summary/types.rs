@@ -36,11 +36,14 @@ pub fn type_days(
     deltas: &[Option<WindowDeltas>],
     with_model: bool,
 ) -> Vec<TypeDay> {
+    // Each trial's type once; every mean below filters on it.
     let type_of = |o: &TrialObs| TrialType::of(session, session.trials.get(o.trial)?);
+    let row_types: Vec<Option<TrialType>> = rows.iter().map(|o| type_of(o)).collect();
+    let included_types: Vec<Option<TrialType>> = included.iter().map(|o| type_of(o)).collect();
     let mut types: Vec<TrialType> = Vec::new();
-    for ty in rows.iter().filter_map(|o| type_of(o)) {
-        if !types.contains(&ty) {
-            types.push(ty);
+    for ty in row_types.iter().flatten() {
+        if !types.contains(ty) {
+            types.push(ty.clone());
         }
     }
     types.sort_by_key(TrialType::order_key);
@@ -51,14 +54,13 @@ pub fn type_days(
                 included
                     .iter()
                     .zip(deltas)
-                    .filter(|(o, _)| type_of(o).as_ref() == Some(&ty))
+                    .zip(&included_types)
+                    .filter(|(_, t)| t.as_ref() == Some(&ty))
+                    .map(|(pair, _)| pair)
             };
             TypeDay {
                 label: ty.label(session),
-                trials: rows
-                    .iter()
-                    .filter(|o| type_of(o).as_ref() == Some(&ty))
-                    .count(),
+                trials: row_types.iter().filter(|t| t.as_ref() == Some(&ty)).count(),
                 cue_response: Mean::of(mine().filter_map(|(o, _)| o.cue)),
                 reward_response: Mean::of(mine().filter_map(|(o, _)| o.reward)),
                 lick_rate: Mean::of(mine().filter_map(|(o, _)| o.anticipatory_lick_rate)),

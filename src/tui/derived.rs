@@ -64,9 +64,9 @@ impl Readout {
             return (gains, self.cue_baseline, self.reward_baseline);
         }
         let key = fit::saved::group_key(self.scale_by.as_deref(), session);
-        match self.groups.iter().find(|g| Some(&g.name) == key.as_ref()) {
+        match fit::saved::group_named(&self.groups, key.as_deref()) {
             Some(g) => (
-                [g.gain, g.gain_neg.unwrap_or(g.gain)],
+                g.gains(),
                 g.baseline_cue.unwrap_or(0.0),
                 g.baseline_reward.unwrap_or(0.0),
             ),
