@@ -173,7 +173,8 @@ fn scale_by_rig_on_the_command_line_reports_saves_and_plots_each_rig() {
     // An unknown group is a usage error naming the choices.
     let out = fit(&subject, &["--scale-by", "cage", "--no-save"]);
     assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("expected subject, session or rig"));
+    assert!(String::from_utf8_lossy(&out.stderr)
+        .contains("expected subject, session, rig, unit or session-unit"));
 }
 
 /// The default (`subject`) is today's single-gain fit, to the byte.
@@ -182,10 +183,17 @@ fn scale_by_subject_is_the_single_gain_fit() {
     let tmp = tempfile::tempdir().unwrap();
     let subject = tmp.path().join("m-910");
     small_subject(&subject);
-    let a = fit(&subject, &["--no-save", "--out", "a"]);
+    let (dir_a, dir_b) = (tmp.path().join("a"), tmp.path().join("b"));
+    let a = fit(&subject, &["--no-save", "--out", dir_a.to_str().unwrap()]);
     let b = fit(
         &subject,
-        &["--no-save", "--scale-by", "subject", "--out", "b"],
+        &[
+            "--no-save",
+            "--scale-by",
+            "subject",
+            "--out",
+            dir_b.to_str().unwrap(),
+        ],
     );
     assert!(a.status.success() && b.status.success(), "{a:?}");
     let strip = |o: &std::process::Output| {
@@ -253,4 +261,58 @@ fn compare_readouts_lists_each_readout_with_its_criteria() {
     assert!(row("one gain, asymmetric").contains("(n="), "{text}");
     assert!(row("gain per session").contains("n/a"), "{text}");
     assert!(row("gain per rig").ends_with(" *"), "{text}");
+}
+
+/// `--scale-by unit` end to end: each unit's gain reported, its responses in trials.csv with
+/// a `unit` column, the fit saved per unit and plotted with each unit's own prediction.
+#[test]
+fn scale_by_unit_on_the_command_line() {
+    let tmp = tempfile::tempdir().unwrap();
+    let subject = tmp.path().join("m-910");
+    small_subject(&subject);
+    let tables = tmp.path().join("tables");
+    let out = fit(
+        &subject,
+        &["--scale-by", "unit", "--out", tables.to_str().unwrap()],
+    );
+    assert!(out.status.success(), "{out:?}");
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains(" per unit ("), "{text}");
+    assert!(text.contains("gain[u1]"), "{text}");
+    let trials = std::fs::read_to_string(tables.join("trials.csv")).unwrap();
+    assert!(
+        trials.starts_with("session,trial,window,unit,observed,predicted,excluded\n"),
+        "{}",
+        &trials[..200]
+    );
+    assert!(trials.contains(",u1,") && trials.contains(",u2,"));
+    let saved = std::fs::read_to_string(subject.join("trialdesk-fit.toml")).unwrap();
+    assert!(saved.contains("scale_by = \"unit\""), "{saved}");
+    let pictures = tmp.path().join("pictures");
+    let out = Command::new(env!("CARGO_BIN_EXE_trialdesk"))
+        .arg("plot")
+        .arg(&subject)
+        .arg("--out")
+        .arg(&pictures)
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "{out:?}");
+    let svg = std::fs::read_to_string(pictures.join("fit_trials.svg")).unwrap();
+    assert!(!svg.contains("NaN"), "a window without a prediction");
+    let settings = trialdesk::tui::derived::ModelSettings::from_subject(&subject).unwrap();
+    assert!(
+        settings
+            .lines
+            .iter()
+            .any(|l| l.starts_with("gain per unit: u1 ")),
+        "{:?}",
+        settings.lines
+    );
+    // One unit and a gain per unit contradict each other; photometry has no units.
+    let out = fit(
+        &subject,
+        &["--scale-by", "unit", "--unit", "u1", "--no-save"],
+    );
+    assert!(!out.status.success());
+    assert!(String::from_utf8_lossy(&out.stderr).contains("--unit u1 picks one"));
 }

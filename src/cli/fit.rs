@@ -53,8 +53,9 @@ pub struct Args {
     /// gaussian for photometry]
     #[arg(long)]
     pub likelihood: Option<String>,
-    /// Give each session or each rig (`rig` in session.toml) its own gain and baselines, the
-    /// learning parameters shared: subject (one gain, the default), session or rig
+    /// Give each session, rig (`rig` in session.toml) or unit its own gain and baselines, the
+    /// learning parameters shared: subject (one gain, the default), session, rig, unit (an id
+    /// is one neuron on every day) or session-unit (acute: each session's units their own)
     #[arg(long, default_value = "subject", value_name = "GROUP")]
     pub scale_by: String,
     /// Give positive and negative prediction errors separate gains and report their asymmetry
@@ -225,7 +226,7 @@ pub(crate) fn fit_subject(
     }
     let scale_by = dataset::ScaleBy::parse(&args.scale_by).ok_or_else(|| {
         CliError::usage(format!(
-            "--scale-by '{}' is not known (expected subject, session or rig)",
+            "--scale-by '{}' is not known (expected subject, session, rig, unit or session-unit)",
             args.scale_by
         ))
     })?;

@@ -295,13 +295,21 @@ fn run_subject(args: Args) -> CmdResult {
 
     match (&saved, &model_run) {
         (Some(fit), Some((_, _, p))) => {
-            let data = dataset::build(&subject, &obs, &opts, p.dt, &marks, false);
-            let data = match kernel {
-                Some(k) => dataset::with_sensor_kernel(data, k, &opts),
-                None => data,
+            let by = fit.fit.scale_by.as_deref().and_then(dataset::ScaleBy::parse);
+            let data = match by.filter(|b| b.per_unit()) {
+                // A per-unit fit predicts each unit's own responses.
+                Some(by) => crate::fit::units::per_unit(&subject, &opts, p.dt, &marks, false, by)
+                    .map_err(|e| CliError::failed(format!("fit_trials.svg: {e}")))?,
+                None => {
+                    let data = dataset::build(&subject, &obs, &opts, p.dt, &marks, false);
+                    let data = match kernel {
+                        Some(k) => dataset::with_sensor_kernel(data, k, &opts),
+                        None => data,
+                    };
+                    fit.fit.with_groups(data, &subject)
+                }
             };
             // The representation was checked with the saved fit.
-            let data = fit.fit.with_groups(data, &subject);
             let predicted = fit.fit.predictions(&data).unwrap_or_default();
             let rows = fit_trials::rows_from(&data, &predicted);
             let title = format!(

@@ -109,17 +109,36 @@ pub enum ScaleBy {
     Session,
     /// Each rig (`rig` in session.toml; sessions without one form the group "(no rig)").
     Rig,
+    /// Each unit, one id the same neuron on every day it appears (chronic recordings): every
+    /// unit's own responses are points ([`super::units`]), a unit contributes the sessions
+    /// it was recorded in.
+    Unit,
+    /// Each unit of each session (acute recordings: `u1` on two days is two neurons).
+    SessionUnit,
 }
 
 impl ScaleBy {
-    pub const ALL: [ScaleBy; 3] = [ScaleBy::Subject, ScaleBy::Session, ScaleBy::Rig];
+    pub const ALL: [ScaleBy; 5] = [
+        ScaleBy::Subject,
+        ScaleBy::Session,
+        ScaleBy::Rig,
+        ScaleBy::Unit,
+        ScaleBy::SessionUnit,
+    ];
 
     pub fn name(self) -> &'static str {
         match self {
             ScaleBy::Subject => "subject",
             ScaleBy::Session => "session",
             ScaleBy::Rig => "rig",
+            ScaleBy::Unit => "unit",
+            ScaleBy::SessionUnit => "session-unit",
         }
+    }
+
+    /// Each unit's own responses are the points (built by [`super::units::per_unit`]).
+    pub fn per_unit(self) -> bool {
+        matches!(self, ScaleBy::Unit | ScaleBy::SessionUnit)
     }
 
     pub fn parse(s: &str) -> Option<Self> {
@@ -137,12 +156,13 @@ pub struct Groups {
     pub of_point: Vec<u32>,
 }
 
-/// The points' groups under `by`; `None` for [`ScaleBy::Subject`].
+/// The points' groups under `by`; `None` for [`ScaleBy::Subject`], and for the per-unit
+/// groupings, whose points carry no unit: [`super::units::per_unit`] groups those itself.
 pub fn groups(data: &FitData, subject: &Subject, by: ScaleBy) -> Option<Groups> {
     let key = |point: usize| -> String {
         let session = data.session_of(point);
         match by {
-            ScaleBy::Subject => String::new(),
+            ScaleBy::Subject | ScaleBy::Unit | ScaleBy::SessionUnit => String::new(),
             ScaleBy::Session => data.session_names[session].clone(),
             ScaleBy::Rig => subject.sessions[session]
                 .meta
@@ -151,7 +171,7 @@ pub fn groups(data: &FitData, subject: &Subject, by: ScaleBy) -> Option<Groups> 
                 .unwrap_or_else(|| "(no rig)".to_string()),
         }
     };
-    if by == ScaleBy::Subject {
+    if by == ScaleBy::Subject || by.per_unit() {
         return None;
     }
     let mut names: Vec<String> = Vec::new();

@@ -28,6 +28,7 @@ pub mod report;
 pub mod saved;
 pub mod sensitivity;
 pub mod synthetic;
+pub mod units;
 
 pub use bootstrap::{GammaProfile, Intervals, ResampleUnit};
 pub use compare::ModelRow;

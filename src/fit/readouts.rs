@@ -60,7 +60,10 @@ pub fn compare_readouts(
         let Some(full) = fit_multistart(&problem, &idx, &o.search, progress) else {
             continue;
         };
-        let per_session = v.groups.as_ref().is_some_and(|g| g.by == ScaleBy::Session);
+        let per_session = v
+            .groups
+            .as_ref()
+            .is_some_and(|g| matches!(g.by, ScaleBy::Session | ScaleBy::SessionUnit));
         let heldout = match per_session {
             true => None,
             false => heldout_error(&problem, &full, &train, &test, &o, progress),

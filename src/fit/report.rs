@@ -57,25 +57,30 @@ pub fn write_trials_csv(
     predicted: &[f64],
 ) -> Result<(), csv::Error> {
     let mut out = csv::Writer::from_writer(w);
-    out.write_record([
-        "session",
-        "trial",
-        "window",
-        "observed",
-        "predicted",
-        "excluded",
-    ])?;
-    for (p, &pred) in data.points.iter().zip(predicted) {
+    // A per-unit fit has a row per unit and window: a `unit` column after `window`.
+    let units = data.groups.as_ref().filter(|g| g.by.per_unit());
+    let mut header = vec!["session", "trial", "window"];
+    header.extend(units.map(|_| "unit"));
+    header.extend(["observed", "predicted", "excluded"]);
+    out.write_record(&header)?;
+    for (i, (p, &pred)) in data.points.iter().zip(predicted).enumerate() {
         let (session, trial) = data.label(p.span);
-        out.write_record([
-            crate::text::for_csv(session).as_ref(),
-            &trial.to_string(),
+        let mut row = vec![
+            crate::text::for_csv(session).into_owned(),
+            trial.to_string(),
             // Data text (cue names): neutralised like the session name.
-            crate::text::for_csv(p.label.as_deref().unwrap_or(p.kind.name())).as_ref(),
-            &fmt_f64(p.observed),
-            &fmt_f64(pred),
-            if p.excluded { "true" } else { "false" },
-        ])?;
+            crate::text::for_csv(p.label.as_deref().unwrap_or(p.kind.name())).into_owned(),
+        ];
+        if let Some(g) = units {
+            let name = &g.names[g.of_point[i] as usize];
+            row.push(crate::text::for_csv(super::units::unit_of_group(g.by, name)).into_owned());
+        }
+        row.extend([
+            fmt_f64(p.observed),
+            fmt_f64(pred),
+            (if p.excluded { "true" } else { "false" }).to_string(),
+        ]);
+        out.write_record(&row)?;
     }
     out.flush()?;
     Ok(())
@@ -277,7 +282,7 @@ pub fn fitted_and_fixed(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -
             " per {} ({} groups: {}; the learning parameters shared)",
             g.by.name(),
             g.names.len(),
-            g.names.join(", ")
+            short_list(&g.names)
         ),
         None => String::new(),
     };
@@ -309,6 +314,9 @@ fn write_comparison(s: &mut String, out: &FitOutcome, data: &FitData, lambda_fit
         match data.groups.as_ref().map(|g| g.by) {
             Some(super::dataset::ScaleBy::Session) => "held-out RMSE: n/a (with a gain per \
                  session, a held-out session has no gain of its own to predict with)"
+                .to_string(),
+            Some(by) if by.per_unit() => "held-out RMSE: n/a (units first seen in a held-out \
+                 session have no gain of their own to predict with)"
                 .to_string(),
             _ => "held-out RMSE: n/a (needs at least two sessions with observations)".to_string(),
         }
@@ -430,6 +438,18 @@ fn write_exclusions(s: &mut String, out: &FitOutcome, data: &FitData) {
             "Caution: excluding trials after seeing a fit can bias it; rerun with --ignore-marks to compare."
         );
     }
+}
+
+/// Names joined with commas; past eight, the first six and how many more (params.csv has all).
+fn short_list(names: &[String]) -> String {
+    if names.len() <= 8 {
+        return names.join(", ");
+    }
+    format!(
+        "{}, … {} more in params.csv",
+        names[..6].join(", "),
+        names.len() - 6
+    )
 }
 
 #[cfg(test)]

@@ -112,18 +112,32 @@ pub fn group_named<'a>(groups: &'a [SavedGroup], name: Option<&str>) -> Option<&
     groups.iter().find(|g| Some(g.name.as_str()) == name)
 }
 
-/// The group name of a session under a fit's `scale_by` (`None`: not grouped).
-pub fn group_key(scale_by: Option<&str>, session: &crate::data::Session) -> Option<String> {
-    match scale_by? {
-        "session" => Some(session.name.clone()),
-        "rig" => Some(
-            session
-                .meta
-                .rig
-                .clone()
-                .unwrap_or_else(|| "(no rig)".to_string()),
-        ),
-        _ => None,
+/// The group names that make up what is shown of a session under a fit's `scale_by`: its
+/// session or rig; for a per-unit fit the unit `unit` (when the session has it) or every
+/// unit of the session (their mean is what a screen of all units shows). Empty: not grouped.
+pub fn group_keys(
+    scale_by: Option<&str>,
+    session: &crate::data::Session,
+    unit: Option<&str>,
+) -> Vec<String> {
+    let Some(by) = scale_by.and_then(dataset::ScaleBy::parse) else {
+        return Vec::new();
+    };
+    match by {
+        dataset::ScaleBy::Subject => Vec::new(),
+        dataset::ScaleBy::Session => vec![session.name.clone()],
+        dataset::ScaleBy::Rig => vec![session
+            .meta
+            .rig
+            .clone()
+            .unwrap_or_else(|| "(no rig)".to_string())],
+        dataset::ScaleBy::Unit | dataset::ScaleBy::SessionUnit => session
+            .spikes
+            .iter()
+            .flat_map(|s| &s.units)
+            .filter(|u| unit.is_none_or(|want| want == u.as_str()))
+            .map(|u| super::units::group_name(by, &session.name, u))
+            .collect(),
     }
 }
 

@@ -61,9 +61,20 @@ impl<'a> FitJob<'a> {
                 m.choice.reason
             )));
         }
+        let policy = MarksPolicy::asked(request.ignore_marks);
+        if request.scale_by.per_unit() {
+            let marks = standing_marks(subject, policy)?;
+            let data = per_unit_data(subject, &m, request, &marks.per_session)?;
+            return Ok(FitJob {
+                subject,
+                request,
+                measurement: m,
+                data,
+                warnings: marks.warnings,
+            });
+        }
         let observations =
             obs::observe(subject, &m.obs).map_err(|e| FitError::Data(e.to_string()))?;
-        let policy = MarksPolicy::asked(request.ignore_marks);
         let marks = standing_marks(subject, policy)?;
         let mut data = dataset::build(
             subject,
@@ -143,6 +154,36 @@ impl<'a> FitJob<'a> {
     }
 }
 
+/// `--scale-by unit|session-unit`: every unit's own responses, for spikes of all units.
+fn per_unit_data(
+    subject: &Subject,
+    m: &Measurement,
+    request: &FitRequest,
+    marks: &[crate::marks::MarkState],
+) -> Result<FitData, FitError> {
+    let by = request.scale_by;
+    match &m.obs.signal {
+        Signal::Spikes { unit: None } => {}
+        Signal::Spikes { unit: Some(u) } => {
+            return Err(FitError::Data(format!(
+                "--scale-by {} fits every unit with its own gain; --unit {u} picks one: drop \
+                 one of the two",
+                by.name()
+            )))
+        }
+        Signal::Photometry => {
+            return Err(FitError::Data(format!(
+                "{}: --scale-by {} needs spikes (a gain per unit), but the signal is \
+                 photometry; choose --signal spikes, or --scale-by session or rig",
+                subject.root.display(),
+                by.name()
+            )))
+        }
+    }
+    fit::units::per_unit(subject, &m.obs, request.dt, marks, request.ignore_marks, by)
+        .map_err(|e| FitError::Data(e.to_string()))
+}
+
 /// The readouts of `--compare-readouts`: one gain, asymmetric gains, a gain per session, and a
 /// gain per rig when the sessions name more than one rig.
 fn readout_table(
@@ -177,6 +218,20 @@ fn readout_table(
             groups: Some(rigs),
             asymmetric: false,
         });
+    }
+    // Per-unit data: one gain per unit, with and without asymmetry (each unit's τ).
+    if let Some(units) = data.groups.as_ref().filter(|g| g.by.per_unit()) {
+        for asymmetric in [false, true] {
+            variants.push(Readout {
+                label: format!(
+                    "gain per {}{}",
+                    units.by.name(),
+                    if asymmetric { ", asymmetric" } else { "" }
+                ),
+                groups: Some(units.clone()),
+                asymmetric,
+            });
+        }
     }
     // The fit's own readout, when it is none of the above (asymmetric per group).
     let own = Readout {

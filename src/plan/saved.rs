@@ -89,9 +89,11 @@ impl CheckedFit {
         if let Some(s) = fit
             .scale_by
             .as_deref()
-            .filter(|s| !["subject", "session", "rig"].contains(s))
+            .filter(|s| crate::fit::dataset::ScaleBy::parse(s).is_none())
         {
-            let msg = format!("`{s}` is not known (expected subject, session or rig)");
+            let msg = format!(
+                "`{s}` is not known (expected subject, session, rig, unit or session-unit)"
+            );
             return Err(bad(&path, "scale_by", msg));
         }
         for g in &fit.groups {

@@ -56,22 +56,33 @@ pub struct Readout {
 
 impl Readout {
     /// ([gain of positive δ, of negative δ], cue baseline, reward baseline) for a trial of
-    /// `session`; NaN for a group the fit never saw (a new rig or session: no prediction
-    /// rather than a wrong one).
-    fn scale(&self, session: &Session) -> ([f64; 2], f64, f64) {
+    /// `session` showing `unit` (or all units); NaN for a group the fit never saw (a new rig or
+    /// session: no prediction rather than a wrong one). A per-unit fit shown for several units
+    /// maps with their mean gains and baselines: exactly the mean of their predictions for a
+    /// Gaussian readout, close to it for Poisson counts, whose rates bend at zero.
+    fn scale(&self, session: &Session, unit: Option<&str>) -> ([f64; 2], f64, f64) {
         if self.groups.is_empty() {
             let gains = [self.gain, self.gain_neg.unwrap_or(self.gain)];
             return (gains, self.cue_baseline, self.reward_baseline);
         }
-        let key = fit::saved::group_key(self.scale_by.as_deref(), session);
-        match fit::saved::group_named(&self.groups, key.as_deref()) {
-            Some(g) => (
-                g.gains(),
-                g.baseline_cue.unwrap_or(0.0),
-                g.baseline_reward.unwrap_or(0.0),
-            ),
-            None => ([f64::NAN; 2], f64::NAN, f64::NAN),
+        let keys = fit::saved::group_keys(self.scale_by.as_deref(), session, unit);
+        let found: Vec<&fit::saved::SavedGroup> = keys
+            .iter()
+            .filter_map(|k| fit::saved::group_named(&self.groups, Some(k)))
+            .collect();
+        // Every shown unit must be known, or the mean would silently leave some out.
+        if found.is_empty() || found.len() < keys.len() {
+            return ([f64::NAN; 2], f64::NAN, f64::NAN);
         }
+        let n = found.len() as f64;
+        let mean = |f: &dyn Fn(&fit::saved::SavedGroup) -> f64| {
+            found.iter().map(|g| f(g)).sum::<f64>() / n
+        };
+        (
+            [mean(&|g| g.gains()[0]), mean(&|g| g.gains()[1])],
+            mean(&|g| g.baseline_cue.unwrap_or(0.0)),
+            mean(&|g| g.baseline_reward.unwrap_or(0.0)),
+        )
     }
 
     fn asymmetric(&self) -> bool {
@@ -90,7 +101,11 @@ impl Readout {
         dt: f64,
         kernel: Option<fit::dataset::SensorKernel>,
     ) -> WindowDeltas {
-        let (gain, cue_baseline, reward_baseline) = self.scale(session);
+        let unit = match &obs.signal {
+            crate::obs::Signal::Spikes { unit } => unit.as_deref(),
+            crate::obs::Signal::Photometry => None,
+        };
+        let (gain, cue_baseline, reward_baseline) = self.scale(session, unit);
         if !self.poisson {
             if self.asymmetric() {
                 // Σ w·(g+·δ⁺ + g−·δ⁻): the window sums of the scaled δ, with unit gain.

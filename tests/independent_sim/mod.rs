@@ -31,6 +31,14 @@ pub struct Spec {
     pub gain_neg_hz: Option<f64>,
     pub latency_s: f64,
     pub seed: u64,
+    /// Each unit its own (baseline, gain of δ ≥ 0, gain of δ < 0), overriding the three
+    /// above (`units` must equal its length); empty: every unit alike.
+    pub unit_params: Vec<(f64, f64, f64)>,
+    /// Acute recordings: every session records new neurons, still named u1, u2, …, each with
+    /// a gain drawn uniformly from this range (baseline `baseline_hz`, symmetric).
+    pub acute_gains: Option<(f64, f64)>,
+    /// (session, unit) pairs (0-based) not recorded: the unit is missing from that day.
+    pub missing: Vec<(usize, usize)>,
 }
 
 impl Default for Spec {
@@ -52,6 +60,9 @@ impl Default for Spec {
             gain_neg_hz: None,
             latency_s: 0.05,
             seed: 1,
+            unit_params: Vec::new(),
+            acute_gains: None,
+            missing: Vec::new(),
         }
     }
 }
@@ -178,6 +189,19 @@ pub fn subject(spec: &Spec) -> Subject {
     }
     let spans: Vec<Span> = plans.iter().flatten().map(|p| span(p, spec)).collect();
     let deltas = td_csc(&spans, spec);
+    // Per-unit parameters come from their own generator, so subjects without them are drawn
+    // exactly as before.
+    let mut unit_rng = ChaCha8Rng::seed_from_u64(spec.seed ^ 0x005e_ed0f);
+    let unit_of = |u: usize, unit_rng: &mut ChaCha8Rng| -> (f64, f64, Option<f64>) {
+        if let Some((lo, hi)) = spec.acute_gains {
+            let g = lo + (hi - lo) * unit_rng.random::<f64>();
+            return (spec.baseline_hz, g, None);
+        }
+        match spec.unit_params.get(u) {
+            Some(&(b, gp, gn)) => (b, gp, Some(gn)),
+            None => (spec.baseline_hz, spec.gain_hz, spec.gain_neg_hz),
+        }
+    };
     let mut next = 0;
     let sessions = plans
         .iter()
@@ -188,8 +212,13 @@ pub fn subject(spec: &Spec) -> Subject {
             let end_s = day
                 .last()
                 .map_or(10.0, |p| p.cue_s.or(p.reward_s).unwrap() + 10.0);
-            let times: Vec<Vec<f64>> = (0..spec.units)
-                .map(|_| {
+            let recorded: Vec<usize> = (0..spec.units)
+                .filter(|u| !spec.missing.contains(&(d, *u)))
+                .collect();
+            let times: Vec<Vec<f64>> = recorded
+                .iter()
+                .map(|&u| {
+                    let (baseline_hz, gain_hz, gain_neg_hz) = unit_of(u, &mut unit_rng);
                     let mut out = Vec::new();
                     let mut cursor = 0.0;
                     for i in first..next {
@@ -197,17 +226,17 @@ pub fn subject(spec: &Spec) -> Subject {
                         for (k, &dk) in deltas[i].iter().enumerate() {
                             let a = s.t0 + k as f64 * spec.dt + spec.latency_s;
                             let b = a + spec.dt;
-                            poisson(spec.baseline_hz, cursor, a, &mut rng, &mut out);
-                            let g = match (dk < 0.0, spec.gain_neg_hz) {
+                            poisson(baseline_hz, cursor, a, &mut rng, &mut out);
+                            let g = match (dk < 0.0, gain_neg_hz) {
                                 (true, Some(neg)) => neg,
-                                _ => spec.gain_hz,
+                                _ => gain_hz,
                             };
-                            let rate = (spec.baseline_hz + g * dk).max(0.0);
+                            let rate = (baseline_hz + g * dk).max(0.0);
                             poisson(rate, a.max(cursor), b, &mut rng, &mut out);
                             cursor = b;
                         }
                     }
-                    poisson(spec.baseline_hz, cursor, end_s, &mut rng, &mut out);
+                    poisson(baseline_hz, cursor, end_s, &mut rng, &mut out);
                     out
                 })
                 .collect();
@@ -243,7 +272,7 @@ pub fn subject(spec: &Spec) -> Subject {
                     })
                     .collect(),
                 spikes: Some(Spikes {
-                    units: (1..=spec.units).map(|u| format!("u{u}")).collect(),
+                    units: recorded.iter().map(|u| format!("u{}", u + 1)).collect(),
                     times,
                 }),
                 licks: None,
