@@ -57,6 +57,7 @@ fn main() {
         alpha: 0.05,
         gamma: 0.98,
         lambda: 0.9,
+        lick: None,
     };
     let reps = 20;
     let t = Instant::now();

@@ -84,6 +84,7 @@ fn excluded_trials_change_the_likelihood_but_not_the_model_pass() {
         alpha: 0.1,
         gamma: 0.98,
         lambda: 0.0,
+        lick: None,
     };
     let model = ModelSpec::Td(Representation::Csc);
     let pm = Problem::new(&marked, model, false, 0.0);

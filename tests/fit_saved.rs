@@ -41,6 +41,7 @@ fn example() -> SavedFit {
         zscore: None,
         control_fit: None,
         scale_by: None,
+        lick: None,
         groups: Vec::new(),
     }
 }
@@ -195,6 +196,7 @@ fn predictions_rebuilt_from_a_kernel_fit_match_the_fitters_own() {
         let x = match pt.kind {
             WindowKind::Cue => w.cue,
             WindowKind::Reward => w.reward,
+            WindowKind::Licks => unreachable!("no lick windows in this fit"),
         }
         .expect("the point's event is in its span");
         let predicted = lin.predict(pt.kind, x);

@@ -37,6 +37,7 @@ fn replicates_start_from_every_optimum_the_search_reached() {
         alpha: 0.0005,
         gamma: 0.2,
         lambda: 0.05,
+        lick: None,
     });
     let mut poor = evaluate(&problem, &corner, &idx, 0).unwrap();
     let alone = refine(

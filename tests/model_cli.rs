@@ -308,6 +308,7 @@ fn saved_fit(alpha: f64) -> trialdesk::fit::saved::SavedFit {
         zscore: None,
         control_fit: None,
         scale_by: None,
+        lick: None,
         groups: Vec::new(),
     }
 }

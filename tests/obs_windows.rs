@@ -226,8 +226,11 @@ fn anticipatory_licks_between_cue_and_expected_reward() {
     let mut s = four_kinds();
     // Trial 1: 3 licks in [10, 11.5) → 2/s; the licks after the reward are consummatory.
     // Trial 2 (omission): 6 licks in [20, 21.5) → 4/s.
+    // Trial 3 (a cue never rewarded): over the session's longest reward delay, [30, 31.5):
+    // 3 licks → 2/s (the one at 31.6 is past it).
     s.licks = Some(vec![
-        9.9, 10.5, 11.0, 11.4, 11.6, 11.7, 20.1, 20.3, 20.5, 20.7, 20.9, 21.1,
+        9.9, 10.5, 11.0, 11.4, 11.6, 11.7, 20.1, 20.3, 20.5, 20.7, 20.9, 21.1, 30.2, 30.9, 31.4,
+        31.6,
     ]);
     s.spikes = Some(Spikes {
         units: vec!["u1".into()],
@@ -236,8 +239,11 @@ fn anticipatory_licks_between_cue_and_expected_reward() {
     let obs = observe(&subject(vec![s]), &ObsOptions::default()).unwrap();
     assert!(close(obs[0].anticipatory_lick_rate, 2.0));
     assert!(close(obs[1].anticipatory_lick_rate, 4.0));
-    assert_eq!(obs[2].anticipatory_lick_rate, None);
-    assert_eq!(obs[3].anticipatory_lick_rate, None);
+    assert!(close(obs[2].anticipatory_lick_rate, 2.0));
+    assert_eq!(
+        obs[3].anticipatory_lick_rate, None,
+        "no cue, no anticipation"
+    );
 }
 
 #[test]

@@ -167,6 +167,7 @@ fn saved_with_dt_zero() -> SavedFit {
         zscore: None,
         control_fit: None,
         scale_by: None,
+        lick: None,
         groups: Vec::new(),
     }
 }

@@ -104,3 +104,22 @@ fn anticipatory_licking_rises() {
     let second = pooled(&rows, &[5, 6, 7, 8], |r| r.lick_rate);
     assert!(second > first);
 }
+
+/// Anticipatory licking per cue follows the cue's reward probability once learned (tone-hi >
+/// tone-mid > tone-lo), and the never-rewarded tone-lo gets its own figure over the same span
+/// as the rewarded cues: low, and not rising (anticipatory licking graded by the cue's reward
+/// probability is common practice in these tasks; our simulator licks by the Ludvig, Sutton &
+/// Kehoe 2012 rule, so this checks the measurement, not the animal).
+#[test]
+fn anticipatory_licking_per_cue_follows_probability() {
+    let (rows, _) = demo_rows();
+    let licks = |name: &'static str| {
+        move |r: &DayRow| r.cues.iter().find(|c| c.cue == name).unwrap().lick_rate
+    };
+    let hi = pooled(&rows, &LATE, licks("tone-hi"));
+    let mid = pooled(&rows, &LATE, licks("tone-mid"));
+    let lo = pooled(&rows, &LATE, licks("tone-lo"));
+    assert!(hi > mid && mid > lo, "hi {hi}, mid {mid}, lo {lo}");
+    let lo_early = pooled(&rows, &EARLY, licks("tone-lo"));
+    assert!(lo < 0.3 && lo_early < 0.3, "tone-lo {lo_early} -> {lo}");
+}

@@ -371,6 +371,7 @@ fn saved_fit_parameters_are_used_and_labelled() {
         zscore: None,
         control_fit: None,
         scale_by: None,
+        lick: None,
         groups: Vec::new(),
     };
     save(&dir, &fit).unwrap();

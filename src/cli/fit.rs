@@ -66,6 +66,10 @@ pub struct Args {
     /// session, per rig) and print their AIC, BIC and held-out error side by side
     #[arg(long)]
     pub compare_readouts: bool,
+    /// Anticipatory licking as a readout of value (Ludvig, Sutton & Kehoe 2012): off, with
+    /// (fitted with the recorded activity, sharing α, γ and λ) or only (behaviour alone)
+    #[arg(long, default_value = "off", value_name = "USE")]
+    pub licks: String,
     /// What the bootstrap resamples: trials, blocks (20 neighbouring trials) or sessions
     #[arg(long, default_value = "trials")]
     pub bootstrap_by: String,
@@ -230,7 +234,14 @@ pub(crate) fn fit_subject(
             args.scale_by
         ))
     })?;
+    let licks = fit::licks::LickUse::parse(&args.licks).ok_or_else(|| {
+        CliError::usage(format!(
+            "--licks '{}' is not known (expected off, with or only)",
+            args.licks
+        ))
+    })?;
     let request = plan::fit::FitRequest {
+        licks,
         obs: args.obs.request(),
         dt: args.dt,
         scale_by,

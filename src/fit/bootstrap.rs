@@ -54,6 +54,8 @@ pub struct Replicate {
     pub baselines: [Option<f64>; 2],
     /// `--scale-by`: each group's gain and baselines in this replicate.
     pub groups: Vec<super::objective::GroupLinear>,
+    /// `fit --licks`: the lick readout's rates in this replicate.
+    pub lick: Option<super::licks::LickLinear>,
 }
 
 /// Percentile intervals (2.5 %, 97.5 %) from the replicates that could be fitted.
@@ -176,6 +178,7 @@ pub fn bootstrap(
                     gain_neg: f.linear.gain_neg,
                     baselines: f.linear.baselines,
                     groups: f.linear.groups,
+                    lick: f.linear.lick,
                 };
                 (rep, f.evaluations)
             })

@@ -212,6 +212,7 @@ pub fn heldout_error(
     progress.tick();
     let predicted = problem.predict_responses(&fit.params, &fit.linear);
     let data = problem.data;
+    let test = super::linear::scored(data, test);
     let sse: f64 = test
         .iter()
         .map(|&i| (data.points[i].observed - predicted[i]).powi(2))
@@ -231,6 +232,7 @@ mod tests {
                 alpha: 0.1,
                 gamma: 0.9,
                 lambda: 0.0,
+                lick: None,
             },
             log_likelihood: -aic / 2.0,
             k: 0,

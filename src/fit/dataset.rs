@@ -17,6 +17,9 @@ pub enum WindowKind {
     Cue,
     /// After the delivered reward, or after the expected reward time on omission trials.
     Reward,
+    /// A window of the anticipation period whose lick count is observed (`fit --licks`,
+    /// [`super::licks`]); never among the activity windows of [`WindowKind::ALL`].
+    Licks,
 }
 
 impl WindowKind {
@@ -26,14 +29,23 @@ impl WindowKind {
         match self {
             WindowKind::Cue => "cue",
             WindowKind::Reward => "reward",
+            WindowKind::Licks => "licks",
         }
     }
 
+    /// Index into per-kind arrays of the activity readout (baselines); lick windows have
+    /// their own readout and index past them.
     pub fn index(self) -> usize {
         match self {
             WindowKind::Cue => 0,
             WindowKind::Reward => 1,
+            WindowKind::Licks => 2,
         }
+    }
+
+    /// A window of recorded activity (not of licks).
+    pub fn is_activity(self) -> bool {
+        self != WindowKind::Licks
     }
 }
 
@@ -367,6 +379,7 @@ fn plain_label(subject: &Subject, o: &TrialObs, kind: WindowKind) -> String {
         (WindowKind::Cue, _) => format!("cue:{name}"),
         (WindowKind::Reward, true) => format!("omission:{name}"),
         (WindowKind::Reward, false) => "reward:1".to_string(),
+        (WindowKind::Licks, _) => "licks".to_string(),
     }
 }
 
@@ -435,6 +448,11 @@ pub fn spike_counts(
         let window = match p.kind {
             WindowKind::Cue => obs.cue_window,
             WindowKind::Reward => obs.reward_window,
+            WindowKind::Licks => {
+                let (exposure, count) = super::licks::window_count(p, data.dt);
+                counts.push(super::likelihood::WindowCount { count, exposure });
+                continue;
+            }
         };
         let act = match acts.entry(span.session) {
             std::collections::hash_map::Entry::Occupied(e) => e.into_mut(),
@@ -534,6 +552,12 @@ pub fn with_sensor_kernel(mut data: FitData, kernel: SensorKernel, obs: &ObsOpti
             let window = match p.kind {
                 WindowKind::Cue => obs.cue_window,
                 WindowKind::Reward => obs.reward_window,
+                WindowKind::Licks => {
+                    return WeightedWindow {
+                        first_bin: 0,
+                        weights: Vec::new(),
+                    }
+                }
             };
             let w = kernel_weights(kernel, span, p.event_bin as usize, window, data.dt);
             // Bins whose response has died out or not yet begun add nothing.

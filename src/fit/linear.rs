@@ -3,8 +3,116 @@
 //! information criteria and goodness of fit (see [`super::objective`] for the model).
 
 use super::dataset::{FitData, WindowKind};
+use super::licks::LickLinear;
 use super::likelihood::Likelihood;
-use super::objective::LinearFit;
+
+/// The closed-form part of a fit.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LinearFit {
+    /// The gain (with `--scale-by`: the first fitted group's; every group's in `groups`); with
+    /// `--asymmetric`, the gain of positive δ.
+    pub gain: f64,
+    /// `--asymmetric`: the gain of negative δ (`None`: one gain for both signs).
+    pub gain_neg: Option<f64>,
+    /// Baseline per window kind (`WindowKind::index`); `None` when no such window was fitted.
+    pub baselines: [Option<f64>; 2],
+    pub rss: f64,
+    pub n: usize,
+    /// The observation model that scored this fit.
+    pub likelihood: Likelihood,
+    /// Maximised log-likelihood (σ² profiled out for the Gaussian).
+    pub loglik: f64,
+    /// `--scale-by`: each group's own gain and baselines (groups without points in the fitted
+    /// set are absent); empty for one gain over the subject.
+    pub groups: Vec<GroupLinear>,
+    /// `fit --licks`: the lick readout's rates; its log-likelihood and windows are included
+    /// in `loglik` and `n`.
+    pub lick: Option<LickLinear>,
+}
+
+/// Gain and baselines of one group of points ([`super::dataset::Groups`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct GroupLinear {
+    /// Index into `Groups::names`.
+    pub group: usize,
+    pub gain: f64,
+    pub gain_neg: Option<f64>,
+    pub baselines: [Option<f64>; 2],
+    /// Points of the group in the fit.
+    pub n: usize,
+}
+
+impl LinearFit {
+    pub fn predict(&self, kind: WindowKind, x: f64) -> f64 {
+        self.baselines[kind.index()].unwrap_or(0.0) + self.gain * x
+    }
+
+    /// ([gain of positive δ, gain of negative δ], baselines) that map δ onto responses for a
+    /// point of `group` (`None`: ungrouped data); both gains equal for a symmetric readout. A
+    /// group the fit never saw gets NaN: no prediction is better than a wrong one.
+    pub fn scale_of(&self, group: Option<usize>) -> ([f64; 2], [Option<f64>; 2]) {
+        let gains = |g: f64, n: Option<f64>| [g, n.unwrap_or(g)];
+        match (group, self.groups.is_empty()) {
+            (None, _) | (_, true) => (gains(self.gain, self.gain_neg), self.baselines),
+            (Some(g), false) => self
+                .groups
+                .iter()
+                .find(|x| x.group == g)
+                .map_or(([f64::NAN; 2], [None; 2]), |x| {
+                    (gains(x.gain, x.gain_neg), x.baselines)
+                }),
+        }
+    }
+
+    /// A readout of recorded activity was fitted (not so for `fit --licks only`, whose gain is
+    /// NaN).
+    pub fn has_activity(&self) -> bool {
+        !self.gain.is_nan()
+    }
+
+    /// A fit of lick windows alone: no activity gain or baselines.
+    pub fn licks_only(likelihood: Likelihood) -> Self {
+        LinearFit {
+            gain: f64::NAN,
+            gain_neg: None,
+            baselines: [None; 2],
+            rss: 0.0,
+            n: 0,
+            likelihood,
+            loglik: 0.0,
+            groups: Vec::new(),
+            lick: None,
+        }
+    }
+
+    /// Number of baselines estimated (over every group).
+    pub fn n_baselines(&self) -> usize {
+        let count = |b: &[Option<f64>; 2]| b.iter().filter(|b| b.is_some()).count();
+        if self.groups.is_empty() {
+            count(&self.baselines)
+        } else {
+            self.groups.iter().map(|g| count(&g.baselines)).sum()
+        }
+    }
+
+    /// Number of gains estimated (one per group, two when asymmetric).
+    pub fn n_gains(&self) -> usize {
+        if !self.has_activity() {
+            return 0;
+        }
+        self.groups.len().max(1) * (1 + usize::from(self.gain_neg.is_some()))
+    }
+
+    /// Number of groups (1 without `--scale-by`).
+    pub fn n_groups(&self) -> usize {
+        self.groups.len().max(1)
+    }
+
+    /// Maximised log-likelihood under [`LinearFit::likelihood`].
+    pub fn log_likelihood(&self) -> f64 {
+        self.loglik
+    }
+}
 
 /// lnL of n residuals with sum of squares `rss` at the maximum-likelihood σ² = rss/n.
 pub fn gaussian_loglik(rss: f64, n: usize) -> f64 {
@@ -89,6 +197,7 @@ pub fn least_squares(
         loglik: gaussian_loglik(rss, idx.len()),
         groups: Vec::new(),
         gain_neg: None,
+        lick: None,
     })
 }
 
@@ -168,11 +277,29 @@ pub fn least_squares_split(
         likelihood: Likelihood::Gaussian,
         loglik: gaussian_loglik(rss, idx.len()),
         groups: Vec::new(),
+        lick: None,
     })
+}
+
+/// The points of `idx` that goodness of fit and held-out error are scored on: the activity
+/// windows, or with none (`fit --licks only`) the lick windows; lick rates and activity have
+/// different units and are never mixed in one R² or RMSE.
+pub fn scored(data: &FitData, idx: &[usize]) -> Vec<usize> {
+    let activity: Vec<usize> = idx
+        .iter()
+        .copied()
+        .filter(|&i| data.points[i].kind.is_activity())
+        .collect();
+    match activity.is_empty() {
+        true => idx.to_vec(),
+        false => activity,
+    }
 }
 
 /// (R², RMSE) of `predicted` against the observed values of the points `idx`.
 pub fn goodness(data: &FitData, idx: &[usize], predicted: &[f64]) -> (f64, f64) {
+    let scored = scored(data, idx);
+    let idx = &scored[..];
     let n = idx.len().max(1) as f64;
     let mean = idx.iter().map(|&i| data.points[i].observed).sum::<f64>() / n;
     let (mut ss_res, mut ss_tot) = (0.0, 0.0);

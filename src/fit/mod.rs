@@ -17,6 +17,7 @@
 pub mod bootstrap;
 pub mod compare;
 pub mod dataset;
+pub mod licks;
 pub mod likelihood;
 pub mod linear;
 pub mod objective;

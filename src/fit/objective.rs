@@ -10,8 +10,11 @@
 //! lnL = −n/2·(ln(2π·RSS/n) + 1).
 
 use super::dataset::{FitData, WindowKind};
+use super::licks::LickRule;
 use super::likelihood::{self, Likelihood, WindowDeltas};
-pub use super::linear::{aic, bic, gaussian_loglik, goodness, least_squares};
+pub use super::linear::{
+    aic, bic, gaussian_loglik, goodness, least_squares, GroupLinear, LinearFit,
+};
 use crate::model::{rw, td, FeatureSpace, Representation, TdParams};
 
 /// A model the fitter can score.
@@ -37,87 +40,8 @@ pub struct LearnParams {
     pub alpha: f64,
     pub gamma: f64,
     pub lambda: f64,
-}
-
-/// The closed-form part of a fit.
-#[derive(Debug, Clone, PartialEq)]
-pub struct LinearFit {
-    /// The gain (with `--scale-by`: the first fitted group's; every group's in `groups`); with
-    /// `--asymmetric`, the gain of positive δ.
-    pub gain: f64,
-    /// `--asymmetric`: the gain of negative δ (`None`: one gain for both signs).
-    pub gain_neg: Option<f64>,
-    /// Baseline per window kind (`WindowKind::index`); `None` when no such window was fitted.
-    pub baselines: [Option<f64>; 2],
-    pub rss: f64,
-    pub n: usize,
-    /// The observation model that scored this fit.
-    pub likelihood: Likelihood,
-    /// Maximised log-likelihood (σ² profiled out for the Gaussian).
-    pub loglik: f64,
-    /// `--scale-by`: each group's own gain and baselines (groups without points in the fitted
-    /// set are absent); empty for one gain over the subject.
-    pub groups: Vec<GroupLinear>,
-}
-
-/// Gain and baselines of one group of points ([`super::dataset::Groups`]).
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct GroupLinear {
-    /// Index into `Groups::names`.
-    pub group: usize,
-    pub gain: f64,
-    pub gain_neg: Option<f64>,
-    pub baselines: [Option<f64>; 2],
-    /// Points of the group in the fit.
-    pub n: usize,
-}
-
-impl LinearFit {
-    pub fn predict(&self, kind: WindowKind, x: f64) -> f64 {
-        self.baselines[kind.index()].unwrap_or(0.0) + self.gain * x
-    }
-
-    /// ([gain of positive δ, gain of negative δ], baselines) that map δ onto responses for a
-    /// point of `group` (`None`: ungrouped data); both gains equal for a symmetric readout. A
-    /// group the fit never saw gets NaN: no prediction is better than a wrong one.
-    pub fn scale_of(&self, group: Option<usize>) -> ([f64; 2], [Option<f64>; 2]) {
-        let gains = |g: f64, n: Option<f64>| [g, n.unwrap_or(g)];
-        match (group, self.groups.is_empty()) {
-            (None, _) | (_, true) => (gains(self.gain, self.gain_neg), self.baselines),
-            (Some(g), false) => self
-                .groups
-                .iter()
-                .find(|x| x.group == g)
-                .map_or(([f64::NAN; 2], [None; 2]), |x| {
-                    (gains(x.gain, x.gain_neg), x.baselines)
-                }),
-        }
-    }
-
-    /// Number of baselines estimated (over every group).
-    pub fn n_baselines(&self) -> usize {
-        let count = |b: &[Option<f64>; 2]| b.iter().filter(|b| b.is_some()).count();
-        if self.groups.is_empty() {
-            count(&self.baselines)
-        } else {
-            self.groups.iter().map(|g| count(&g.baselines)).sum()
-        }
-    }
-
-    /// Number of gains estimated (one per group, two when asymmetric).
-    pub fn n_gains(&self) -> usize {
-        self.groups.len().max(1) * (1 + usize::from(self.gain_neg.is_some()))
-    }
-
-    /// Number of groups (1 without `--scale-by`).
-    pub fn n_groups(&self) -> usize {
-        self.groups.len().max(1)
-    }
-
-    /// Maximised log-likelihood under [`LinearFit::likelihood`].
-    pub fn log_likelihood(&self) -> f64 {
-        self.loglik
-    }
+    /// `fit --licks`: the lick response rule's threshold and leak, searched with the rest.
+    pub lick: Option<LickRule>,
 }
 
 /// Bounds of the search on the logit scale: keeps α in about [6e-6, 0.99999] and γ, λ likewise,
@@ -155,6 +79,8 @@ pub struct Problem<'a> {
     pub likelihood: Likelihood,
     /// `--asymmetric`: positive and negative δ each with its own gain.
     pub asymmetric: bool,
+    /// The data hold lick windows: the lick rule's θ and υ are searched too.
+    pub licks: bool,
     /// Built once per representation; every evaluation reuses it.
     space: Option<FeatureSpace>,
     observed: Vec<f64>,
@@ -174,6 +100,7 @@ impl<'a> Problem<'a> {
             lambda,
             likelihood: Likelihood::Gaussian,
             asymmetric: false,
+            licks: data.points.iter().any(|p| p.kind == WindowKind::Licks),
             space,
             observed: data.points.iter().map(|p| p.observed).collect(),
             kinds: data.points.iter().map(|p| p.kind).collect(),
@@ -196,8 +123,14 @@ impl<'a> Problem<'a> {
         matches!(self.model, ModelSpec::Td(_))
     }
 
-    /// Number of searched coordinates: α, then γ, then λ.
+    /// Number of searched coordinates: α, then γ, then λ; then the lick rule's ln θ and
+    /// logit υ.
     pub fn n_free(&self) -> usize {
+        self.n_learning() + 2 * usize::from(self.licks)
+    }
+
+    /// Number of learning parameters searched (α, γ, λ).
+    fn n_learning(&self) -> usize {
         match self.model {
             ModelSpec::Td(_) => 2 + usize::from(self.fit_lambda),
             ModelSpec::RescorlaWagner => 1,
@@ -210,7 +143,9 @@ impl<'a> Problem<'a> {
         self.n_free()
             + linear.n_gains()
             + linear.n_baselines()
-            + usize::from(linear.likelihood == Likelihood::Gaussian) * linear.n_groups()
+            + usize::from(linear.likelihood == Likelihood::Gaussian && linear.has_activity())
+                * linear.n_groups()
+            + 2 * usize::from(linear.lick.is_some())
     }
 
     pub fn to_params(&self, z: &[f64]) -> LearnParams {
@@ -222,6 +157,13 @@ impl<'a> Problem<'a> {
             } else {
                 self.lambda
             },
+            lick: self.licks.then(|| {
+                let at = self.n_learning();
+                LickRule {
+                    theta: z[at].clamp(-Z_BOUND, Z_BOUND).exp(),
+                    upsilon: expit(z[at + 1]),
+                }
+            }),
         }
     }
 
@@ -233,11 +175,16 @@ impl<'a> Problem<'a> {
         if self.fit_lambda {
             z.push(logit(p.lambda));
         }
+        if self.licks {
+            let rule = p.lick.unwrap_or(super::licks::START_RULE);
+            z.push(rule.theta.max(1e-12).ln().clamp(-Z_BOUND, Z_BOUND));
+            z.push(logit(rule.upsilon));
+        }
         z
     }
 
     /// The TD pass over every trial at learning parameters `p` (`None` for Rescorla–Wagner).
-    fn td_run(&self, p: &LearnParams) -> Option<crate::model::TdRun> {
+    pub(super) fn td_run(&self, p: &LearnParams) -> Option<crate::model::TdRun> {
         let (ModelSpec::Td(representation), Some(space)) = (self.model, &self.space) else {
             return None;
         };
@@ -284,6 +231,7 @@ impl<'a> Problem<'a> {
                     .map(|pt| match pt.kind {
                         WindowKind::Cue => trials[pt.span].delta_cue,
                         WindowKind::Reward => trials[pt.span].delta_reward,
+                        WindowKind::Licks => 0.0,
                     })
                     .collect()
             }
@@ -361,6 +309,24 @@ impl<'a> Problem<'a> {
     /// at learning parameters `p` on the points `idx`; with `--scale-by` groups, each group's
     /// on its own points (the likelihood separates over groups, each with its own σ).
     pub fn fit_linear(&self, p: &LearnParams, idx: &[usize]) -> Option<LinearFit> {
+        if !self.licks {
+            return self.fit_activity(p, idx);
+        }
+        let (activity, lick): (Vec<usize>, Vec<usize>) =
+            idx.iter().partition(|&&i| self.kinds[i].is_activity());
+        let lick_fit = self.fit_licks(p, &lick)?;
+        let mut lin = match activity.is_empty() {
+            true => LinearFit::licks_only(self.likelihood),
+            false => self.fit_activity(p, &activity)?,
+        };
+        lin.loglik += lick_fit.loglik;
+        lin.n += lick_fit.n;
+        lin.lick = Some(lick_fit);
+        Some(lin)
+    }
+
+    /// The activity readout of [`Problem::fit_linear`] on activity windows only.
+    fn fit_activity(&self, p: &LearnParams, idx: &[usize]) -> Option<LinearFit> {
         let pred = match (self.likelihood, &self.data.counts) {
             (Likelihood::Poisson, Some(_)) => Predictors::Deltas(self.window_deltas(p)),
             _ if self.asymmetric => {
@@ -394,6 +360,7 @@ impl<'a> Problem<'a> {
             n,
             likelihood: first.likelihood,
             loglik,
+            lick: None,
             groups: fits
                 .iter()
                 .map(|(g, f)| GroupLinear {
@@ -421,6 +388,7 @@ impl<'a> Problem<'a> {
                     likelihood: Likelihood::Poisson,
                     loglik: f.log_likelihood,
                     groups: Vec::new(),
+                    lick: None,
                 })
             }
             (Predictors::Sums(x), _) => self.linear(x, idx),
@@ -440,13 +408,28 @@ impl<'a> Problem<'a> {
     /// gain × predictor (Gaussian); mean softplus rate in the window minus the resting rate
     /// (Poisson).
     pub fn predict_responses(&self, p: &LearnParams, fit: &LinearFit) -> Vec<f64> {
+        let mut out = self.predict_activity(p, fit);
+        if let (Some(rule), Some(lick)) = (p.lick, fit.lick) {
+            self.predict_licks(p, rule, &lick, &mut out);
+        }
+        out
+    }
+
+    /// [`Problem::predict_responses`] of the activity windows (NaN for lick windows).
+    fn predict_activity(&self, p: &LearnParams, fit: &LinearFit) -> Vec<f64> {
         let points = &self.data.points;
+        if !fit.has_activity() {
+            return vec![f64::NAN; points.len()];
+        }
         match fit.likelihood {
             Likelihood::Gaussian if fit.gain_neg.is_none() => points
                 .iter()
                 .zip(self.predictors(p))
                 .enumerate()
                 .map(|(i, (pt, x))| {
+                    if !pt.kind.is_activity() {
+                        return f64::NAN;
+                    }
                     let (g, baselines) = fit.scale_of(self.group_of(i));
                     baselines[pt.kind.index()].unwrap_or(0.0) + g[0] * x
                 })
@@ -457,6 +440,9 @@ impl<'a> Problem<'a> {
                     .iter()
                     .enumerate()
                     .map(|(i, pt)| {
+                        if !pt.kind.is_activity() {
+                            return f64::NAN;
+                        }
                         let (g, baselines) = fit.scale_of(self.group_of(i));
                         baselines[pt.kind.index()].unwrap_or(0.0) + g[0] * pos[i] + g[1] * neg[i]
                     })
@@ -468,6 +454,9 @@ impl<'a> Problem<'a> {
                     .iter()
                     .enumerate()
                     .map(|(i, pt)| {
+                        if !pt.kind.is_activity() {
+                            return f64::NAN;
+                        }
                         let (g, baselines) = fit.scale_of(self.group_of(i));
                         match baselines[pt.kind.index()] {
                             Some(b) => likelihood::predicted_response_asym(d.of(i), b, g[0], g[1]),
@@ -530,6 +519,7 @@ mod tests {
             alpha: 0.1,
             gamma: 0.98,
             lambda: 0.0,
+            lick: None,
         };
         let model = ModelSpec::Td(Representation::Csc);
         let plain = Problem::new(&data, model, false, 0.0).predictors(&p);

@@ -99,6 +99,7 @@ pub fn grid(problem: &Problem) -> Vec<LearnParams> {
                     alpha,
                     gamma,
                     lambda,
+                    lick: problem.licks.then_some(super::licks::START_RULE),
                 });
             }
         }
@@ -160,7 +161,7 @@ pub fn evaluate(
     let params = problem.to_params(z);
     let linear = problem.fit_linear(&params, idx)?;
     let log_likelihood = linear.log_likelihood();
-    if !log_likelihood.is_finite() || !linear.gain.is_finite() {
+    if !log_likelihood.is_finite() || (linear.has_activity() && !linear.gain.is_finite()) {
         return None;
     }
     Some(FitResult {

@@ -59,9 +59,14 @@ pub fn param_rows(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -> Vec<
             });
         }
     }
+    lick_rows(&mut rows, out, &iv);
+    if !lin.has_activity() {
+        return rows;
+    }
     let baseline_name = |kind: WindowKind| match kind {
         WindowKind::Cue => "baseline_cue",
         WindowKind::Reward => "baseline_reward",
+        WindowKind::Licks => "baseline_licks",
     };
     let Some(groups) = data.groups.as_ref().filter(|_| !lin.groups.is_empty()) else {
         gain_rows(
@@ -104,6 +109,34 @@ pub fn param_rows(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -> Vec<
         }
     }
     rows
+}
+
+/// `fit --licks`: the lick rule's θ (µL) and υ (per bin), then the rate per µL of value above
+/// θ and the rate without value (licks/s).
+fn lick_rows(rows: &mut Vec<ParamRow>, out: &FitOutcome, iv: IntervalOf) {
+    let (Some(rule), Some(lick)) = (out.best.params.lick, out.best.linear.lick) else {
+        return;
+    };
+    type Of<'a> = &'a dyn Fn(&Replicate) -> Option<f64>;
+    let values: [(&'static str, f64, Of); 4] = [
+        ("lick_theta", rule.theta, &|r| {
+            r.params.lick.map(|l| l.theta)
+        }),
+        ("lick_upsilon", rule.upsilon, &|r| {
+            r.params.lick.map(|l| l.upsilon)
+        }),
+        ("lick_hz_per_ul", lick.hz_per_ul, &|r| {
+            r.lick.map(|l| l.hz_per_ul)
+        }),
+        ("lick_base_hz", lick.base_hz, &|r| r.lick.map(|l| l.base_hz)),
+    ];
+    for (name, estimate, of) in values {
+        rows.push(ParamRow {
+            name: name.into(),
+            estimate,
+            interval: iv(of),
+        });
+    }
 }
 
 /// A replicate's (gain, gain of negative δ) for one group, or the subject's.

@@ -126,7 +126,22 @@ pub fn text_report(
         data.dt
     );
     let _ = writeln!(s, "{}", fitted_and_fixed(out, data, lambda_fitted));
-    let _ = writeln!(s, "likelihood: {}", out.best.linear.likelihood.describe());
+    let lin = &out.best.linear;
+    match (lin.has_activity(), lin.lick.is_some()) {
+        (true, false) => {
+            let _ = writeln!(s, "likelihood: {}", lin.likelihood.describe());
+        }
+        (true, true) => {
+            let _ = writeln!(
+                s,
+                "likelihood: activity {}; lick counts Poisson (the two log-likelihoods added)",
+                lin.likelihood.describe()
+            );
+        }
+        (false, _) => {
+            let _ = writeln!(s, "likelihood: lick counts Poisson");
+        }
+    }
     if !ctx.observations.is_empty() {
         let _ = writeln!(s, "observations: {}", ctx.observations);
     }
@@ -290,9 +305,19 @@ pub fn fitted_and_fixed(out: &FitOutcome, data: &FitData, lambda_fitted: bool) -
         Some(_) => "gains of positive and negative δ",
         None => "gain",
     };
+    let lin = &out.best.linear;
+    let readout = match (lin.has_activity(), lin.lick.is_some()) {
+        (true, false) => format!("{gains} and baselines{scaled} ({profiled})"),
+        (true, true) => format!(
+            "{gains} and baselines{scaled} ({profiled}); the lick rule's θ and υ searched with \
+             them, its licks/s per µL and licks/s without value by Poisson maximum likelihood"
+        ),
+        (false, _) => "the lick rule's θ and υ searched with them, its licks/s per µL and \
+             licks/s without value by Poisson maximum likelihood"
+            .to_string(),
+    };
     format!(
-        "fitted: {learning} (multi-start Nelder–Mead), {gains} and baselines{scaled} \
-         ({profiled}); fixed: {}",
+        "fitted: {learning} (multi-start Nelder–Mead), {readout}; fixed: {}",
         fixed.join(", ")
     )
 }

@@ -80,10 +80,32 @@ pub struct SavedFit {
     /// `--scale-by` of the fit: `session` or `rig` (absent: one gain for the subject).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub scale_by: Option<String>,
+    /// `fit --licks`: the lick readout (absent: licking was not fitted).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub lick: Option<SavedLick>,
     /// With `scale_by`: each group's own gain and baselines (`gain` and `baselines` above are
     /// the first group's).
     #[serde(default, rename = "group", skip_serializing_if = "Vec::is_empty")]
     pub groups: Vec<SavedGroup>,
+}
+
+/// The lick readout of a fit made with `--licks` ([`super::licks`]).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct SavedLick {
+    /// `with` (beside the activity) or `only` (licking alone: `gain` is then 0 and unused).
+    pub used: LickUseName,
+    pub theta: f64,
+    pub upsilon: f64,
+    pub hz_per_ul: f64,
+    pub base_hz: f64,
+}
+
+/// How the saved fit used licking.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum LickUseName {
+    With,
+    Only,
 }
 
 /// One group's readout in a fit made with `--scale-by`.
@@ -191,6 +213,7 @@ impl SavedFit {
             alpha: self.alpha,
             gamma: self.gamma,
             lambda: self.lambda,
+            lick: None,
         };
         let likelihood = match self.likelihood.as_deref() {
             None => Likelihood::Gaussian,

@@ -137,7 +137,7 @@ pub enum Sensitivity {
         n_trials: usize,
         /// Included windows that the suggestions drop.
         n_windows: usize,
-        fit: FitResult,
+        fit: Box<FitResult>,
     },
 }
 
@@ -183,7 +183,7 @@ pub fn sensitivity(
         Some(fit) => Sensitivity::Refit {
             n_trials,
             n_windows,
-            fit,
+            fit: Box::new(fit),
         },
         None => Sensitivity::Failed {
             n_trials,

@@ -189,8 +189,9 @@ pub struct TrialObs {
     /// the expected reward time; `None` for unrewarded cues (no expectation).
     pub reward: Option<f64>,
     pub omission: bool,
-    /// Licks/s from cue onset to the expected reward (or the delivery, if earlier); `None`
-    /// without licks.csv, without a cue, or without an expected reward time.
+    /// Licks/s from cue onset to the expected reward (or the delivery, if earlier; for a cue
+    /// never rewarded, over the session's longest reward delay); `None` without licks.csv or
+    /// without a cue ([`anticipatory_lick_rate`]).
     pub anticipatory_lick_rate: Option<f64>,
     pub kind: TrialKind,
     /// A trial with an event list (events.csv, cue_off_s): one observation per cue event,
@@ -461,7 +462,9 @@ fn plan(session: &Session, trial: &Trial, opts: &ObsOptions) -> Option<Plan> {
 }
 
 /// Licks/s from cue onset to the expected reward time, cut at the delivery if the reward came
-/// earlier, so consummatory licks never count (common practice).
+/// earlier, so consummatory licks never count (common practice). A cue that is never rewarded
+/// is measured over the longest reward delay of its session's cues, so CS+ and CS− licking
+/// cover the same span (common practice); `None` when no cue of the session has a delay.
 pub fn anticipatory_lick_rate(session: &Session, trial: &Trial) -> Option<f64> {
     let licks = session.licks.as_deref()?;
     let start = trial.cue_s.filter(|_| trial.cue.is_some())?;
@@ -470,7 +473,18 @@ pub fn anticipatory_lick_rate(session: &Session, trial: &Trial) -> Option<f64> {
         (Some(e), Some(r)) => e.min(r),
         (Some(e), None) => e,
         (None, Some(r)) => r,
-        (None, None) => return None,
+        (None, None) => {
+            let longest = session
+                .meta
+                .cues
+                .iter()
+                .filter_map(|c| c.reward_delay_s)
+                .fold(f64::NAN, f64::max);
+            if !longest.is_finite() {
+                return None;
+            }
+            start + longest
+        }
     };
     if end <= start {
         return None;

@@ -19,6 +19,8 @@ pub struct FitRequest {
     pub scale_by: dataset::ScaleBy,
     /// Refit the reported representation with every readout and report the table.
     pub compare_readouts: bool,
+    /// Anticipatory licking as a readout too (`with`), or alone (`only`).
+    pub licks: fit::licks::LickUse,
     /// Refit with pending suggested marks excluded too (the report's sensitivity line).
     pub sensitivity: bool,
     /// The command line as the user would retype it (the report suggests it with `nice`).
@@ -51,6 +53,67 @@ impl<'a> FitJob<'a> {
     /// Measure, read the marks (an unreadable journal stops the fit unless marks are ignored)
     /// and build the fitter's data.
     pub fn prepare(subject: &'a Subject, request: &'a FitRequest) -> Result<Self, FitError> {
+        use fit::licks::LickUse;
+        if request.licks == LickUse::Only {
+            return Self::prepare_licks_only(subject, request);
+        }
+        let mut job = Self::prepare_activity(subject, request)?;
+        if request.licks == LickUse::With {
+            let marks = standing_marks(subject, MarksPolicy::asked(request.ignore_marks))?;
+            let n = fit::licks::add_lick_points(
+                &mut job.data,
+                subject,
+                &marks.per_session,
+                request.ignore_marks,
+            );
+            if n == 0 {
+                return Err(no_lick_windows(subject));
+            }
+        }
+        Ok(job)
+    }
+
+    /// `--licks only`: the lick windows alone; no recorded activity is needed or measured.
+    fn prepare_licks_only(subject: &'a Subject, request: &'a FitRequest) -> Result<Self, FitError> {
+        let marks = standing_marks(subject, MarksPolicy::asked(request.ignore_marks))?;
+        let obs = obs::ObsOptions::default();
+        let mut data = dataset::build(
+            subject,
+            &[],
+            &obs,
+            request.dt,
+            &marks.per_session,
+            request.ignore_marks,
+        );
+        let n = fit::licks::add_lick_points(
+            &mut data,
+            subject,
+            &marks.per_session,
+            request.ignore_marks,
+        );
+        if n == 0 {
+            return Err(no_lick_windows(subject));
+        }
+        let measurement = Measurement {
+            choice: super::SignalChoice {
+                signal: Signal::Spikes { unit: None },
+                reason: "--licks only".into(),
+                missing: Vec::new(),
+            },
+            obs,
+            kernel: None,
+        };
+        Ok(FitJob {
+            subject,
+            request,
+            measurement,
+            data,
+            warnings: marks.warnings,
+        })
+    }
+
+    /// The recorded activity's fitting data (one gain, per group, or per unit).
+    fn prepare_activity(subject: &'a Subject, request: &'a FitRequest) -> Result<Self, FitError> {
         let m = measurement(subject, &request.obs, None)?;
         if let Some(note) = m.choice.missing_note() {
             return Err(FitError::Data(format!(
@@ -123,6 +186,11 @@ impl<'a> FitJob<'a> {
             ),
             None => describe_obs(&m, subject),
         };
+        let observations = match request.licks {
+            fit::licks::LickUse::Off => observations,
+            fit::licks::LickUse::With => format!("{observations}; {}", fit::licks::DESCRIPTION),
+            fit::licks::LickUse::Only => fit::licks::DESCRIPTION.to_string(),
+        };
         let ctx = report::ReportContext {
             subject: subject
                 .sessions
@@ -152,6 +220,14 @@ impl<'a> FitJob<'a> {
             warnings,
         })
     }
+}
+
+fn no_lick_windows(subject: &Subject) -> FitError {
+    FitError::Data(format!(
+        "{}: --licks needs licks.csv and cued trials with a reward delay (or a cue of a \
+         session that has one), but no session gave a lick window",
+        subject.root.display()
+    ))
 }
 
 /// `--scale-by unit|session-unit`: every unit's own responses, for spikes of all units.
@@ -278,7 +354,8 @@ fn saved_record(
         lambda: p.lambda,
         dt: data.dt,
         representation: outcome.model.name().to_string(),
-        gain: lin.gain,
+        // A fit of licking alone has no activity gain; 0 keeps the file's gain a number.
+        gain: if lin.has_activity() { lin.gain } else { 0.0 },
         baselines: saved::Baselines {
             cue: lin.baselines[0],
             reward: lin.baselines[1],
@@ -289,7 +366,23 @@ fn saved_record(
         lambda_fitted: opts.lambda_fitted(),
         log_likelihood: Some(outcome.best.log_likelihood),
         n_observations: Some(outcome.n_included),
-        signal: Some(super::signal_name(&o.signal).to_string()),
+        signal: Some(match request.licks {
+            fit::licks::LickUse::Only => "licks".to_string(),
+            _ => super::signal_name(&o.signal).to_string(),
+        }),
+        lick: match (outcome.best.params.lick, lin.lick) {
+            (Some(rule), Some(l)) => Some(saved::SavedLick {
+                used: match request.licks {
+                    fit::licks::LickUse::Only => saved::LickUseName::Only,
+                    _ => saved::LickUseName::With,
+                },
+                theta: rule.theta,
+                upsilon: rule.upsilon,
+                hz_per_ul: l.hz_per_ul,
+                base_hz: l.base_hz,
+            }),
+            _ => None,
+        },
         unit: match &o.signal {
             Signal::Spikes { unit } => unit.clone(),
             Signal::Photometry => None,

@@ -145,11 +145,12 @@ impl CheckedFit {
             }
         }
         if let Some(s) = fit.signal.as_deref() {
-            if s != "spikes" && s != "photometry" {
+            // `licks`: fitted on anticipatory licking alone (`fit --licks only`).
+            if s != "spikes" && s != "photometry" && s != "licks" {
                 return Err(bad(
                     &path,
                     "signal",
-                    format!("`{s}` is not known (expected spikes or photometry)"),
+                    format!("`{s}` is not known (expected spikes, photometry or licks)"),
                 ));
             }
             if s == "photometry" && fit.unit.is_some() {

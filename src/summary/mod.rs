@@ -259,7 +259,14 @@ pub fn day_rows(
                 reward_response,
                 uncued_reward_response,
                 omission_dip,
-                lick_rate: Mean::of(included.iter().filter_map(|o| o.anticipatory_lick_rate)),
+                // Trials that expect a reward, as the column has always meant (a never-rewarded
+                // cue's licking is in its own cue's column).
+                lick_rate: Mean::of(
+                    included
+                        .iter()
+                        .filter(|o| o.kind != TrialKind::UnrewardedCue)
+                        .filter_map(|o| o.anticipatory_lick_rate),
+                ),
                 model: model.map(|_| ModelDay {
                     reward: model_reward,
                     uncued_reward: model_uncued,

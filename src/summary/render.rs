@@ -172,6 +172,36 @@ fn subject_tables(s: &SubjectSummary, suggested: Option<&SuggestedCounts>) -> Ve
         footer: compound_note(&s.rows),
     });
 
+    // Licking per cue, the never-rewarded cue included (its own column above is the response):
+    // only with licks and more than one cue, where it says more than the licks/s column.
+    let licked = |c: &String| {
+        s.rows
+            .iter()
+            .any(|r| r.cues.iter().any(|d| d.cue == *c && d.lick_rate.n > 0))
+    };
+    if cues.len() > 1 && cues.iter().any(licked) {
+        let mut h = lead_h();
+        h.extend(cues.iter().map(|c| format!("licks:{c}")));
+        tables.push(Table {
+            title: "Anticipatory licks/s by cue (a never-rewarded cue over the longest delay)"
+                .into(),
+            licks: cues.len(),
+            headers: h,
+            rows: s
+                .rows
+                .iter()
+                .map(|r| {
+                    let mut v = lead(r);
+                    v.extend(cues.iter().map(|c| cue_cell(r, c, |d| Some(d.lick_rate))));
+                    v
+                })
+                .collect(),
+            left: left.clone(),
+            left_last: false,
+            footer: Vec::new(),
+        });
+    }
+
     if s.rows.iter().any(|r| r.model.is_some()) {
         let mut h = lead_h();
         h.extend(cues.iter().map(|c| format!("d:{c}")));

@@ -201,6 +201,23 @@ impl ModelSettings {
                 crate::util::fmt_by_magnitude(f.gain / (f.gain + neg))
             ));
         }
+        if let Some(l) = &f.lick {
+            lines.push(format!(
+                "licking{}: θ {} µL, υ {} per bin, {} licks/s per µL above θ, {} licks/s without",
+                if l.used == fit::saved::LickUseName::Only {
+                    " alone (no activity readout)"
+                } else {
+                    ""
+                },
+                crate::util::fmt_by_magnitude(l.theta),
+                crate::util::fmt_by_magnitude(l.upsilon),
+                crate::util::fmt_by_magnitude(l.hz_per_ul),
+                crate::util::fmt_by_magnitude(l.base_hz)
+            ));
+        }
+        let licks_only = f
+            .lick
+            .is_some_and(|l| l.used == fit::saved::LickUseName::Only);
         let readout = Readout {
             cue_baseline: f.baselines.cue.unwrap_or(0.0),
             reward_baseline: f.baselines.reward.unwrap_or(0.0),
@@ -215,7 +232,8 @@ impl ModelSettings {
             source: ParamSource::SavedFit {
                 label: format!("{}, {}", SAVED_FIT_FILE, f.fitted_at),
             },
-            readout: Some(readout),
+            // Fitted on licking alone: there is no mapping of δ onto the recorded activity.
+            readout: (!licks_only).then_some(readout),
             lines,
             saved: Some(c),
             request: ObsRequest::default(),

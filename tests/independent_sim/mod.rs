@@ -39,6 +39,20 @@ pub struct Spec {
     pub acute_gains: Option<(f64, f64)>,
     /// (session, unit) pairs (0-based) not recorded: the unit is missing from that day.
     pub missing: Vec<(usize, usize)>,
+    /// Licking, when simulated: the response rule of Ludvig, Sutton & Kehoe 2012.
+    pub licks: Option<LickSpec>,
+}
+
+/// Licks: a_k = υ·a_{k−1} + [V_{k−1} − θ]₊ from cue onset (a_{−1} = V_{−1} = 0), licking at
+/// base_hz + hz_per_ul·(1 − υ)·a_k in bin k until the reward is delivered (to the span's end on
+/// omissions), base_hz everywhere else, and a consummatory bout at 7 Hz for 2 s after each
+/// delivery.
+#[derive(Debug, Clone, Copy)]
+pub struct LickSpec {
+    pub theta: f64,
+    pub upsilon: f64,
+    pub hz_per_ul: f64,
+    pub base_hz: f64,
 }
 
 impl Default for Spec {
@@ -63,6 +77,7 @@ impl Default for Spec {
             unit_params: Vec::new(),
             acute_gains: None,
             missing: Vec::new(),
+            licks: None,
         }
     }
 }
@@ -78,6 +93,8 @@ struct Planned {
 /// a later reward lengthening the span).
 struct Span {
     t0: f64,
+    /// The delivery time on the session clock.
+    reward_s: Option<f64>,
     cued: bool,
     n_bins: usize,
     reward_bin: Option<usize>,
@@ -98,6 +115,7 @@ fn span(p: &Planned, spec: &Spec) -> Span {
     }
     Span {
         t0,
+        reward_s: p.reward_s,
         cued: p.cue_s.is_some(),
         n_bins: k,
         reward_bin,
@@ -111,8 +129,9 @@ fn span(p: &Planned, spec: &Spec) -> Span {
 
 /// TD(λ) over CSC features (one weight per bin since cue onset; uncued trials have no
 /// features), weights carried across trials and sessions: δ_k = r_k + γ·V(x_k) − V(x_{k−1}),
-/// e ← γλe + x_{k−1}, w ← w + αδe, k = 0..K with x_K = 0 and x_{−1} = 0. Returns δ per bin.
-fn td_csc(spans: &[Span], spec: &Spec) -> Vec<Vec<f64>> {
+/// e ← γλe + x_{k−1}, w ← w + αδe, k = 0..K with x_K = 0 and x_{−1} = 0. Returns δ per bin
+/// and the value V(x_k) of every bin before its update.
+fn td_csc(spans: &[Span], spec: &Spec) -> (Vec<Vec<f64>>, Vec<Vec<f64>>) {
     let n = spans
         .iter()
         .filter(|s| s.cued)
@@ -121,7 +140,9 @@ fn td_csc(spans: &[Span], spec: &Spec) -> Vec<Vec<f64>> {
         .unwrap_or(0);
     let mut w = vec![0.0; n];
     let mut out = Vec::with_capacity(spans.len());
+    let mut values = Vec::with_capacity(spans.len());
     for s in spans {
+        let mut vs = Vec::with_capacity(s.n_bins);
         let mut e = vec![0.0; n];
         let mut deltas = Vec::with_capacity(s.n_bins);
         let mut prev: Option<usize> = None;
@@ -146,12 +167,14 @@ fn td_csc(spans: &[Span], spec: &Spec) -> Vec<Vec<f64>> {
             }
             if k < s.n_bins {
                 deltas.push(delta);
+                vs.push(v);
             }
             prev = cur;
         }
         out.push(deltas);
+        values.push(vs);
     }
-    out
+    (out, values)
 }
 
 /// Poisson events at `rate` on [a, b), appended.
@@ -188,7 +211,7 @@ pub fn subject(spec: &Spec) -> Subject {
         plans.push(day);
     }
     let spans: Vec<Span> = plans.iter().flatten().map(|p| span(p, spec)).collect();
-    let deltas = td_csc(&spans, spec);
+    let (deltas, values) = td_csc(&spans, spec);
     // Per-unit parameters come from their own generator, so subjects without them are drawn
     // exactly as before.
     let mut unit_rng = ChaCha8Rng::seed_from_u64(spec.seed ^ 0x005e_ed0f);
@@ -202,6 +225,7 @@ pub fn subject(spec: &Spec) -> Subject {
             None => (spec.baseline_hz, spec.gain_hz, spec.gain_neg_hz),
         }
     };
+    let mut lick_rng = ChaCha8Rng::seed_from_u64(spec.seed ^ 0x00c0_ffee);
     let mut next = 0;
     let sessions = plans
         .iter()
@@ -275,7 +299,16 @@ pub fn subject(spec: &Spec) -> Subject {
                     units: recorded.iter().map(|u| format!("u{}", u + 1)).collect(),
                     times,
                 }),
-                licks: None,
+                licks: spec.licks.map(|l| {
+                    session_licks(
+                        &l,
+                        &spans[first..next],
+                        &values[first..next],
+                        spec.dt,
+                        end_s,
+                        &mut lick_rng,
+                    )
+                }),
                 photometry: None,
             }
         })
@@ -284,4 +317,35 @@ pub fn subject(spec: &Spec) -> Subject {
         root: PathBuf::from("independent"),
         sessions,
     }
+}
+
+/// One session's sorted lick times (see [`LickSpec`]).
+fn session_licks(
+    l: &LickSpec,
+    spans: &[Span],
+    values: &[Vec<f64>],
+    dt: f64,
+    end_s: f64,
+    rng: &mut ChaCha8Rng,
+) -> Vec<f64> {
+    let mut out = Vec::new();
+    poisson(l.base_hz, 0.0, end_s, rng, &mut out);
+    for (s, v) in spans.iter().zip(values) {
+        if s.cued {
+            let stop = s.reward_s.unwrap_or(f64::INFINITY);
+            let (mut a, mut v_prev) = (0.0, 0.0);
+            for (k, &vk) in v.iter().enumerate() {
+                a = l.upsilon * a + (v_prev - l.theta).max(0.0);
+                v_prev = vk;
+                let lo = s.t0 + k as f64 * dt;
+                let hi = (lo + dt).min(stop);
+                poisson(l.hz_per_ul * (1.0 - l.upsilon) * a, lo, hi, rng, &mut out);
+            }
+        }
+        if let Some(r) = s.reward_s {
+            poisson(7.0, r + 0.05, r + 2.0, rng, &mut out);
+        }
+    }
+    out.sort_by(f64::total_cmp);
+    out
 }
