@@ -308,6 +308,14 @@ fn scale_by_unit_on_the_command_line() {
         "{:?}",
         settings.lines
     );
+    // The summary names each unit's gain under the saved fit's model line.
+    let out = Command::new(env!("CARGO_BIN_EXE_trialdesk"))
+        .arg("summary")
+        .arg(&subject)
+        .output()
+        .unwrap();
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains("readout: gain per unit: u1 "), "{text}");
     // One unit and a gain per unit contradict each other; photometry has no units.
     let out = fit(
         &subject,

@@ -328,6 +328,11 @@ fn model_params(
         return Ok(None);
     };
     notes.push(format!("model δ: {}", fit.describe()));
+    notes.extend(
+        crate::fit::saved::readout_lines(&fit.fit)
+            .into_iter()
+            .map(|l| format!("readout: {l}")),
+    );
     Ok(Some(fit.params))
 }
 

@@ -163,6 +163,62 @@ pub fn group_keys(
     }
 }
 
+/// The readout's own parameters in words, one line each, for the reviewer's fit screen and the
+/// summary: each group's gain (`--scale-by`), the gains' asymmetry, the lick rule. Empty for a
+/// fit with one symmetric gain and no licking.
+pub fn readout_lines(f: &SavedFit) -> Vec<String> {
+    use crate::util::fmt_by_magnitude;
+    let mut lines = Vec::new();
+    if let (Some(by), false) = (&f.scale_by, f.groups.is_empty()) {
+        let gains: Vec<String> = f
+            .groups
+            .iter()
+            .map(|g| format!("{} {}", g.name, fmt_by_magnitude(g.gain)))
+            .collect();
+        lines.push(format!("gain per {by}: {}", gains.join(", ")));
+        let taus: Vec<String> = f
+            .groups
+            .iter()
+            .filter_map(|g| {
+                let neg = g.gain_neg?;
+                Some(format!(
+                    "{} {}",
+                    g.name,
+                    fmt_by_magnitude(g.gain / (g.gain + neg))
+                ))
+            })
+            .collect();
+        if !taus.is_empty() {
+            lines.push(format!(
+                "asymmetry g+/(g+ + g-) per {by}: {}",
+                taus.join(", ")
+            ));
+        }
+    } else if let Some(neg) = f.gain_neg {
+        lines.push(format!(
+            "gains: positive δ {}, negative δ {} (asymmetry g+/(g+ + g-) {})",
+            fmt_by_magnitude(f.gain),
+            fmt_by_magnitude(neg),
+            fmt_by_magnitude(f.gain / (f.gain + neg))
+        ));
+    }
+    if let Some(l) = &f.lick {
+        lines.push(format!(
+            "licking{}: θ {} µL, υ {} per bin, {} licks/s per µL above θ, {} licks/s without",
+            if l.used == LickUseName::Only {
+                " alone (no activity readout)"
+            } else {
+                ""
+            },
+            fmt_by_magnitude(l.theta),
+            fmt_by_magnitude(l.upsilon),
+            fmt_by_magnitude(l.hz_per_ul),
+            fmt_by_magnitude(l.base_hz)
+        ));
+    }
+    lines
+}
+
 impl SavedFit {
     /// The sensor kernel of this fit, starting `obs.latency` after the δ as in the fit; `None`
     /// for a plain-sum fit or an unusable pair of time constants.

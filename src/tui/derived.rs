@@ -184,37 +184,7 @@ impl ModelSettings {
             quality = format!("log-likelihood {ll:.1} over {n} observations; {quality}");
         }
         lines.push(quality);
-        // The readout's own parameters: each group's gain, and the asymmetry of the gains.
-        if let (Some(by), false) = (&f.scale_by, f.groups.is_empty()) {
-            let gains: Vec<String> = f
-                .groups
-                .iter()
-                .map(|g| format!("{} {}", g.name, crate::util::fmt_by_magnitude(g.gain)))
-                .collect();
-            lines.push(format!("gain per {by}: {}", gains.join(", ")));
-        }
-        if let Some(neg) = f.gain_neg {
-            lines.push(format!(
-                "gains: positive δ {}, negative δ {} (asymmetry g+/(g+ + g-) {})",
-                crate::util::fmt_by_magnitude(f.gain),
-                crate::util::fmt_by_magnitude(neg),
-                crate::util::fmt_by_magnitude(f.gain / (f.gain + neg))
-            ));
-        }
-        if let Some(l) = &f.lick {
-            lines.push(format!(
-                "licking{}: θ {} µL, υ {} per bin, {} licks/s per µL above θ, {} licks/s without",
-                if l.used == fit::saved::LickUseName::Only {
-                    " alone (no activity readout)"
-                } else {
-                    ""
-                },
-                crate::util::fmt_by_magnitude(l.theta),
-                crate::util::fmt_by_magnitude(l.upsilon),
-                crate::util::fmt_by_magnitude(l.hz_per_ul),
-                crate::util::fmt_by_magnitude(l.base_hz)
-            ));
-        }
+        lines.extend(fit::saved::readout_lines(f));
         let licks_only = f
             .lick
             .is_some_and(|l| l.used == fit::saved::LickUseName::Only);
