@@ -509,8 +509,16 @@ impl Hasher for Fnv1a {
         self.0 = h;
     }
     fn write_u64(&mut self, x: u64) {
-        // A multiply spreads the packed bytes into the high bits the table probes with.
-        self.0 = (x ^ self.0).wrapping_mul(0x9e37_79b9_7f4a_7c15);
+        // The table picks a bucket by the low bits and tags entries with the high ones. A
+        // multiply alone leaves the low bits of the product a function of the low bits of
+        // the id — its first byte, the same `u` for every unit — so every id landed in one
+        // probe group. Folding the high half back (the finaliser of splitmix64) mixes every
+        // byte into both ends.
+        let mut h = (x ^ self.0).wrapping_mul(0x9e37_79b9_7f4a_7c15);
+        h ^= h >> 30;
+        h = h.wrapping_mul(0xbf58_476d_1ce4_e5b9);
+        h ^= h >> 27;
+        self.0 = h;
     }
     fn finish(&self) -> u64 {
         self.0
@@ -520,6 +528,22 @@ impl Hasher for Fnv1a {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Ids that share their first bytes (`u1` … `u64`) spread over the table's buckets: the
+    /// low bits of the hash (the bucket) take many values, not one.
+    #[test]
+    fn short_id_hashes_spread_over_the_low_bits() {
+        use std::hash::{BuildHasher, BuildHasherDefault};
+        let build = BuildHasherDefault::<Fnv1a>::default();
+        let buckets: std::collections::HashSet<u64> = (1..=64)
+            .map(|u| build.hash_one(short_key(format!("u{u}").as_bytes()).unwrap()) & 63)
+            .collect();
+        assert!(
+            buckets.len() > 32,
+            "{} distinct buckets of 64",
+            buckets.len()
+        );
+    }
 
     #[test]
     fn spikes_group_by_unit_for_short_and_long_ids() {
