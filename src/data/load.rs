@@ -320,11 +320,22 @@ pub fn read_session(dir: &Path, out: &mut Vec<Diagnostic>) -> Option<Session> {
     };
     let span = raw_trials.as_ref().and_then(|t| span_end(&t.value));
 
-    let spikes = optional_file(dir, SPIKES_FILE, out, |p, r, out| {
-        tables::read_spikes(p, r, span, out)
-    });
+    // The large tables try the fast path first; a file it does not take is read again by the
+    // standard reader, which reports whatever made it unusual.
+    let spikes = optional_file(
+        dir,
+        SPIKES_FILE,
+        out,
+        |p, r, out| match super::fast::spikes(r, span) {
+            Some(value) => Some(tables::Parsed { value, errors: 0 }),
+            None => reopened(p, out, |r, out| tables::read_spikes(p, r, span, out)),
+        },
+    );
     let licks = optional_file(dir, LICKS_FILE, out, |p, r, out| {
-        tables::read_licks(p, r, span, out)
+        match super::fast::licks(r, span) {
+            Some(value) => Some(tables::Parsed { value, errors: 0 }),
+            None => reopened(p, out, |r, out| tables::read_licks(p, r, span, out)),
+        }
     });
     let photometry = optional_file(dir, PHOTOMETRY_FILE, out, |p, r, out| {
         tables::read_photometry(p, r, out)
@@ -369,6 +380,21 @@ pub fn read_session(dir: &Path, out: &mut Vec<Diagnostic>) -> Option<Session> {
 }
 
 type Reader = BufReader<File>;
+
+/// `read` on a fresh reader of `path` (after the fast path gave up on it).
+fn reopened<T>(
+    path: &Path,
+    out: &mut Vec<Diagnostic>,
+    read: impl FnOnce(Reader, &mut Vec<Diagnostic>) -> Option<tables::Parsed<T>>,
+) -> Option<tables::Parsed<T>> {
+    match open(path) {
+        Ok(r) => read(r, out),
+        Err(e) => {
+            out.push(Diagnostic::error(path, e));
+            None
+        }
+    }
+}
 
 fn optional_file<T>(
     dir: &Path,

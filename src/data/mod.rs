@@ -8,8 +8,9 @@ mod consistency;
 pub mod csvio;
 pub mod diag;
 pub mod events;
+pub mod fast;
 pub mod follow;
-mod guard;
+pub(crate) mod guard;
 pub mod load;
 mod lookalike;
 pub mod meta;
@@ -138,7 +139,7 @@ impl Trial {
 }
 
 /// Sorted single units: spike times per unit, each list sorted.
-#[derive(Debug, Clone, Default)]
+#[derive(Debug, Clone, Default, PartialEq)]
 pub struct Spikes {
     pub units: Vec<String>,
     pub times: Vec<Vec<f64>>,

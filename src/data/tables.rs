@@ -213,15 +213,11 @@ pub fn read_spikes<R: BufRead>(
     out: &mut Vec<Diagnostic>,
 ) -> Option<Parsed<Spikes>> {
     let mut t = Table::new(path, reader, &[required("unit"), required("time_s")], out)?;
-    let mut short: HashMap<u64, usize, BuildHasherDefault<Fnv1a>> = HashMap::default();
-    let mut long: HashMap<Box<[u8]>, usize, BuildHasherDefault<Fnv1a>> = HashMap::default();
-    // Ids as bytes while reading (rows were checked to be UTF-8), text at the end.
-    let mut names: Vec<Box<[u8]>> = Vec::new();
+    let mut units = UnitIndex::default();
     let mut times: Vec<Vec<f64>> = Vec::new();
     let mut last: Vec<f64> = Vec::new();
     let mut first_unsorted: Option<u64> = None;
     let mut late = LateTimes::default();
-    let mut cached: Option<(Option<u64>, usize)> = None;
     while t.next_row() {
         let line = t.line();
         let v = t.non_negative(1, "time_s", "a spike time in seconds");
@@ -234,35 +230,13 @@ pub fn read_spikes<R: BufRead>(
                 .error_at(line, "unit", "empty unit id".into(), "a unit id such as u3");
             continue;
         }
-        // Ids of up to 7 bytes (nearly all) are looked up as one integer; rows of one unit
-        // often come in runs, so the previous unit is tried first.
-        let key = short_key(unit);
-        let u = match cached.filter(|&(k, u)| k == key && (key.is_some() || *names[u] == *unit)) {
-            Some((_, u)) => u,
-            None => {
-                let found = match key {
-                    Some(k) => short.get(&k).copied(),
-                    None => long.get(unit).copied(),
-                };
-                match found {
-                    Some(u) => u,
-                    None => {
-                        let u = names.len();
-                        match key {
-                            Some(k) => short.insert(k, u),
-                            None => long.insert(unit.into(), u),
-                        };
-                        names.push(unit.into());
-                        // Plain doubling: measured within 10 % of pre-sizing from the file
-                        // size (large vectors grow in place by mremap), shrunk at the end.
-                        times.push(Vec::new());
-                        last.push(f64::NEG_INFINITY);
-                        u
-                    }
-                }
-            }
-        };
-        cached = Some((key, u));
+        let u = units.index(unit);
+        if u == times.len() {
+            // Plain doubling: measured within 10 % of pre-sizing from the file size (large
+            // vectors grow in place by mremap), shrunk at the end.
+            times.push(Vec::new());
+            last.push(f64::NEG_INFINITY);
+        }
         if time < last[u] {
             first_unsorted.get_or_insert(line);
         }
@@ -279,27 +253,78 @@ pub fn read_spikes<R: BufRead>(
     }
     late.report(&mut t, "spike");
     let errors = t.finish(out);
-    for v in &mut times {
-        if first_unsorted.is_some() {
+    if first_unsorted.is_some() {
+        for v in &mut times {
             v.sort_unstable_by(f64::total_cmp);
         }
-        v.shrink_to_fit();
     }
-    let mut order: Vec<usize> = (0..names.len()).collect();
-    let names: Vec<String> = names
-        .iter()
-        .map(|b| String::from_utf8_lossy(b).into_owned())
-        .collect();
-    order.sort_by(|&a, &b| natural_cmp(&names[a], &names[b]));
-    let mut slots: Vec<Option<Vec<f64>>> = times.into_iter().map(Some).collect();
-    let spikes = Spikes {
-        units: order.iter().map(|&i| names[i].clone()).collect(),
-        times: order.iter().filter_map(|&i| slots[i].take()).collect(),
-    };
     Some(Parsed {
-        value: spikes,
+        value: units.into_spikes(times),
         errors,
     })
+}
+
+/// Unit ids in first-seen order, looked up fast: ids of up to 7 bytes (nearly all) as one
+/// integer, rows of one unit often in runs, so the previous unit is tried first.
+#[derive(Default)]
+pub(super) struct UnitIndex {
+    short: HashMap<u64, usize, BuildHasherDefault<Fnv1a>>,
+    long: HashMap<Box<[u8]>, usize, BuildHasherDefault<Fnv1a>>,
+    /// Ids as bytes while reading (rows were checked to be UTF-8), text at the end.
+    names: Vec<Box<[u8]>>,
+    cached: Option<(Option<u64>, usize)>,
+}
+
+impl UnitIndex {
+    /// The index of `unit`; a new id gets the next index (`== len` before the call).
+    pub(super) fn index(&mut self, unit: &[u8]) -> usize {
+        let key = short_key(unit);
+        let names = &self.names;
+        if let Some((_, u)) = self
+            .cached
+            .filter(|&(k, u)| k == key && (key.is_some() || *names[u] == *unit))
+        {
+            return u;
+        }
+        let found = match key {
+            Some(k) => self.short.get(&k).copied(),
+            None => self.long.get(unit).copied(),
+        };
+        let u = found.unwrap_or_else(|| {
+            let u = self.names.len();
+            match key {
+                Some(k) => self.short.insert(k, u),
+                None => self.long.insert(unit.into(), u),
+            };
+            self.names.push(unit.into());
+            u
+        });
+        self.cached = Some((key, u));
+        u
+    }
+
+    /// The spike trains (`times[i]` of unit `i`) with the units in natural name order, each
+    /// train shrunk to its length.
+    pub(super) fn into_spikes(self, times: Vec<Vec<f64>>) -> Spikes {
+        let mut order: Vec<usize> = (0..self.names.len()).collect();
+        let names: Vec<String> = self
+            .names
+            .iter()
+            .map(|b| String::from_utf8_lossy(b).into_owned())
+            .collect();
+        order.sort_by(|&a, &b| natural_cmp(&names[a], &names[b]));
+        let mut slots: Vec<Option<Vec<f64>>> = times
+            .into_iter()
+            .map(|mut v| {
+                v.shrink_to_fit();
+                Some(v)
+            })
+            .collect();
+        Spikes {
+            units: order.iter().map(|&i| names[i].clone()).collect(),
+            times: order.iter().filter_map(|&i| slots[i].take()).collect(),
+        }
+    }
 }
 
 /// Read licks.csv into sorted lick times.

@@ -1,0 +1,166 @@
+//! The fast path for the two large event tables, spikes.csv and licks.csv.
+//!
+//! A clean file — the exact header, plain unsigned decimals, no quotes, no spaces around
+//! fields, no blank or over-long lines, UTF-8, times in order per unit and inside the
+//! session span — is read in large blocks: lines split with a vectorised search, fields by
+//! position, numbers parsed in the same pass, times gathered per unit. Such a file gives the
+//! standard reader nothing to report. Anything else returns `None` and the caller reads the
+//! file again with the standard reader ([`super::tables`]), which reports what it finds, so
+//! every diagnostic stays exactly as it was (the property test in `tests/prop_fast_path.rs`
+//! feeds both readers the same files).
+
+use super::guard::MAX_LINE_BYTES;
+use super::number::parse_plain_decimal;
+use super::tables::{Span, UnitIndex};
+use super::Spikes;
+use std::io::Read;
+
+/// Bytes read per block.
+const BLOCK: usize = 1 << 22;
+
+/// Calls `row` with every data line of a clean file whose header is `header`; `false` as soon
+/// as the file is not clean (or `row` says so).
+fn each_line(mut src: impl Read, header: &[u8], mut row: impl FnMut(&[u8]) -> bool) -> bool {
+    let mut buf: Vec<u8> = Vec::with_capacity(BLOCK + MAX_LINE_BYTES);
+    let mut start = 0usize;
+    let mut header_seen = false;
+    let mut first_block = true;
+    loop {
+        // Keep the unfinished line, then fill up to one block more.
+        buf.drain(..start);
+        start = 0;
+        let have = buf.len();
+        buf.resize(have + BLOCK, 0);
+        let n = match read_full(&mut src, &mut buf[have..]) {
+            Ok(n) => n,
+            Err(_) => return false,
+        };
+        buf.truncate(have + n);
+        let at_end = n == 0;
+        if first_block {
+            first_block = false;
+            if buf.starts_with(&[0xEF, 0xBB, 0xBF]) {
+                start = 3;
+            }
+        }
+        // The complete lines of this block (all of it at the end of the file).
+        let end = if at_end {
+            buf.len()
+        } else {
+            match memchr::memrchr(b'\n', &buf[start..]) {
+                Some(i) => start + i + 1,
+                None if buf.len() - start > MAX_LINE_BYTES => return false,
+                None => continue,
+            }
+        };
+        let chunk = &buf[start..end];
+        // File-wide checks once per block: no quotes, no NUL, no carriage returns, UTF-8.
+        if memchr::memchr3(b'"', 0, b'\r', chunk).is_some() || std::str::from_utf8(chunk).is_err() {
+            return false;
+        }
+        let mut pos = 0;
+        // One vectorised sweep finds every line end of the block; the last line of a file
+        // without a final newline ends at the end of the block.
+        let ends = memchr::memchr_iter(b'\n', chunk).chain(
+            (at_end && !chunk.is_empty() && chunk[chunk.len() - 1] != b'\n').then_some(chunk.len()),
+        );
+        for stop in ends {
+            let line = &chunk[pos..stop];
+            pos = stop + 1;
+            if line.len() > MAX_LINE_BYTES || line.is_empty() {
+                return false;
+            }
+            if !header_seen {
+                if line != header {
+                    return false;
+                }
+                header_seen = true;
+                continue;
+            }
+            if !row(line) {
+                return false;
+            }
+        }
+        start = end;
+        if at_end {
+            return header_seen;
+        }
+    }
+}
+
+/// Reads until `buf` is full or the file ends.
+fn read_full(src: &mut impl Read, buf: &mut [u8]) -> std::io::Result<usize> {
+    let mut n = 0;
+    while n < buf.len() {
+        match src.read(&mut buf[n..]) {
+            Ok(0) => break,
+            Ok(k) => n += k,
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
+            Err(e) => return Err(e),
+        }
+    }
+    Ok(n)
+}
+
+/// A time the standard reader takes without a word: a plain decimal inside the span.
+fn clean_time(field: &[u8], span: Option<Span>) -> Option<f64> {
+    let t = parse_plain_decimal(field)?;
+    match span {
+        Some(s) if t > s.end_s => None,
+        _ => Some(t),
+    }
+}
+
+/// spikes.csv of a clean file (see the module), `None` otherwise.
+pub fn spikes(src: impl Read, span: Option<Span>) -> Option<Spikes> {
+    let mut units = UnitIndex::default();
+    let mut times: Vec<Vec<f64>> = Vec::new();
+    let mut rows = 0usize;
+    let clean = each_line(src, b"unit,time_s", |line| {
+        let Some(comma) = memchr::memchr(b',', line) else {
+            return false;
+        };
+        let (unit, rest) = (&line[..comma], &line[comma + 1..]);
+        if unit.is_empty()
+            || unit[0].is_ascii_whitespace()
+            || unit[unit.len() - 1].is_ascii_whitespace()
+        {
+            return false;
+        }
+        // `clean_time` refuses a second comma (a ragged row) with every other odd byte.
+        let Some(t) = clean_time(rest, span) else {
+            return false;
+        };
+        let u = units.index(unit);
+        if u == times.len() {
+            times.push(Vec::new());
+        }
+        let train = &mut times[u];
+        if train.last().is_some_and(|&p| t < p) {
+            return false;
+        }
+        train.push(t);
+        rows += 1;
+        true
+    });
+    (clean && rows > 0).then(|| units.into_spikes(times))
+}
+
+/// licks.csv of a clean file (see the module), `None` otherwise.
+pub fn licks(src: impl Read, span: Option<Span>) -> Option<Vec<f64>> {
+    let mut times: Vec<f64> = Vec::new();
+    let clean = each_line(src, b"time_s", |line| {
+        let Some(t) = clean_time(line, span) else {
+            return false;
+        };
+        if times.last().is_some_and(|&p| t < p) {
+            return false;
+        }
+        times.push(t);
+        true
+    });
+    (clean && !times.is_empty()).then(|| {
+        times.shrink_to_fit();
+        times
+    })
+}
