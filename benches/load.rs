@@ -90,6 +90,106 @@ fn measure(dir: &Path) {
         (hwm - rss_before) as f64 * 1024.0 / data_bytes as f64
     );
     println!("spikes loaded: {n_spikes}");
+    per_table(dir);
+}
+
+/// Each large table read by the fast path and by the standard reader from the same bytes in
+/// memory (alternating rounds, medians of CPU time): the parsing itself, without the disk.
+fn per_table(dir: &Path) {
+    use trialdesk::data::{fast, tables};
+    let spikes = std::fs::read(dir.join("spikes.csv")).expect("spikes.csv");
+    let photometry = synthetic_photometry();
+    let photometry_file = dir.with_file_name("photometry-bench.csv");
+    std::fs::write(&photometry_file, &photometry).expect("write photometry");
+    let pandas = pandas_cpu(&[dir.join("spikes.csv"), photometry_file]);
+    type Reader<'a> = Box<dyn Fn(&[u8]) -> usize + 'a>;
+    let cases: [(&str, &[u8], Reader, Reader); 2] = [
+        (
+            "spikes.csv",
+            &spikes,
+            Box::new(|b| fast::spikes(b, None).map_or(0, |s| s.units.len())),
+            Box::new(|b| {
+                let p = std::path::Path::new("spikes.csv");
+                tables::read_spikes(p, b, None, &mut Vec::new()).map_or(0, |s| s.value.units.len())
+            }),
+        ),
+        (
+            "photometry.csv (10 min at 1 kHz, signal and control)",
+            &photometry,
+            Box::new(|b| fast::photometry(b).map_or(0, |p| p.time_s.len())),
+            Box::new(|b| {
+                let p = std::path::Path::new("photometry.csv");
+                tables::read_photometry(p, b, &mut Vec::new()).map_or(0, |p| p.value.time_s.len())
+            }),
+        ),
+    ];
+    for ((name, bytes, fast_read, standard), pandas) in cases.into_iter().zip(pandas) {
+        let (mut a, mut b) = (Vec::new(), Vec::new());
+        for _ in 0..TIMED_RUNS {
+            let c = cpu_ns();
+            assert!(
+                std::hint::black_box(fast_read(bytes)) > 0,
+                "{name}: fast path refused"
+            );
+            a.push((cpu_ns() - c) as f64 * 1e-9);
+            let c = cpu_ns();
+            std::hint::black_box(standard(bytes));
+            b.push((cpu_ns() - c) as f64 * 1e-9);
+        }
+        a.sort_by(f64::total_cmp);
+        b.sort_by(f64::total_cmp);
+        let mb = bytes.len() as f64 / 1e6;
+        let (fa, fb) = (a[TIMED_RUNS / 2], b[TIMED_RUNS / 2]);
+        println!(
+            "{name}, {mb:.1} MB: fast path {:.1} ms CPU ({:.0} MB/s), standard reader {:.1} ms \
+             ({:.0} MB/s), {:.1}x",
+            fa * 1e3,
+            mb / fa,
+            fb * 1e3,
+            mb / fb,
+            fb / fa
+        );
+        match pandas {
+            Some(p) => println!(
+                "  pandas read_csv on the same file: {:.1} ms CPU ({:.0} MB/s); fast path {:.1}x \
+                 pandas",
+                p * 1e3,
+                mb / p,
+                p / fa
+            ),
+            None => println!("  pandas: not run (python3 with pandas not found)"),
+        }
+    }
+}
+
+/// Median CPU seconds of pandas `read_csv` per file (benches/pandas_read.py), in this run.
+fn pandas_cpu(files: &[std::path::PathBuf]) -> Vec<Option<f64>> {
+    let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("benches/pandas_read.py");
+    let out = std::process::Command::new("python3")
+        .arg(script)
+        .args(files)
+        .output();
+    let text = match out {
+        Ok(o) if o.status.success() => String::from_utf8_lossy(&o.stdout).into_owned(),
+        _ => String::new(),
+    };
+    let mut found = text
+        .lines()
+        .filter_map(|l| l.split_whitespace().nth(2)?.parse::<f64>().ok());
+    files.iter().map(|_| found.next()).collect()
+}
+
+/// A 10-minute two-channel trace at 1 kHz as a rig writes it.
+fn synthetic_photometry() -> Vec<u8> {
+    let mut rng = ChaCha8Rng::seed_from_u64(11);
+    let mut s = String::from("time_s,signal,control\n");
+    for i in 0..600_000u32 {
+        let t = f64::from(i) * 1e-3;
+        let sig = 1.2 + 0.05 * (t * 0.7).sin() + 0.01 * rng.random::<f64>();
+        let ctl = 0.8 + 0.03 * (t * 0.7).sin() + 0.01 * rng.random::<f64>();
+        s.push_str(&format!("{t:.3},{sig:.5},{ctl:.5}\n"));
+    }
+    s.into_bytes()
 }
 
 /// CPU time of this process in ns (first field of /proc/self/schedstat): on a shared machine

@@ -6,7 +6,7 @@
 
 use proptest::prelude::*;
 use std::path::Path;
-use trialdesk::data::tables::{read_licks, read_spikes, Span};
+use trialdesk::data::tables::{read_licks, read_photometry, read_spikes, Span};
 use trialdesk::data::{fast, Spikes};
 
 /// One row's text: usually clean, sometimes with a flaw the fast path must refuse or read
@@ -85,6 +85,55 @@ fn licks_file() -> impl Strategy<Value = Vec<u8>> {
         })
 }
 
+fn signed_value() -> impl Strategy<Value = String> {
+    prop_oneof![
+        8 => (-3000i32..3000, 0u32..10_000).prop_map(|(a, b)| {
+            let sign = if a < 0 { "-" } else { "" };
+            format!("{sign}{}.{b:04}", a.unsigned_abs())
+        }),
+        1 => prop::sample::select(vec!["-0", "-.5", "1e-3", "--1", "", " 1.0", "NaN", "-inf"])
+            .prop_map(str::to_string),
+    ]
+}
+
+fn photometry_file() -> impl Strategy<Value = Vec<u8>> {
+    (
+        prop_oneof![
+            5 => Just("time_s,signal"),
+            5 => Just("time_s,signal,control"),
+            1 => Just("signal,time_s"),
+            1 => Just("time_s,signal,extra"),
+        ],
+        prop::collection::vec(
+            (0u32..50, signed_value(), signed_value(), line_end()),
+            0..40,
+        ),
+        any::<bool>(),
+        any::<bool>(),
+    )
+        .prop_map(|(header, rows, ragged, bom)| {
+            let mut s = String::new();
+            if bom {
+                s.push('\u{feff}');
+            }
+            s.push_str(header);
+            s.push('\n');
+            // Times mostly increasing by a step; a zero step repeats a time.
+            let mut t = 0u32;
+            let three = header.split(',').count() == 3;
+            for (i, (step, a, b, end)) in rows.iter().enumerate() {
+                t += step % 5;
+                s.push_str(&format!("{}.{:03},{a}", t, i % 1000));
+                if three != (ragged && i == 3) {
+                    s.push(',');
+                    s.push_str(b);
+                }
+                s.push_str(end);
+            }
+            s.into_bytes()
+        })
+}
+
 fn span() -> impl Strategy<Value = Option<Span>> {
     prop_oneof![
         Just(None),
@@ -145,6 +194,18 @@ proptest! {
         }
     }
 
+    #[test]
+    fn photometry_fast_path_agrees(file in photometry_file()) {
+        if let Some(fast) = fast::photometry(&file[..]) {
+            let mut diags = Vec::new();
+            let standard = read_photometry(Path::new("photometry.csv"), &file[..], &mut diags);
+            prop_assert!(diags.is_empty(), "{:?}\n{}", diags, String::from_utf8_lossy(&file));
+            let standard = standard.expect("the standard reader reads it too");
+            prop_assert_eq!(standard.errors, 0);
+            prop_assert_eq!(fast, standard.value);
+        }
+    }
+
     /// Clean files are taken by the fast path.
     #[test]
     fn clean_files_take_the_fast_path(
@@ -163,5 +224,13 @@ proptest! {
         let (standard, _) = standard_spikes(s.as_bytes(), None);
         prop_assert_eq!(fast.unwrap(), standard.unwrap().0);
         prop_assert!(fast::licks(l.as_bytes(), None).is_some());
+        let mut p = String::from("time_s,signal,control\n");
+        for (i, (_, a, b)) in rows.iter().enumerate() {
+            p.push_str(&format!("{i}.5,{a}.{b:03},-{b}.{a}\n"));
+        }
+        let fast = fast::photometry(p.as_bytes());
+        prop_assert!(fast.is_some());
+        let standard = read_photometry(Path::new("photometry.csv"), p.as_bytes(), &mut Vec::new());
+        prop_assert_eq!(fast.unwrap(), standard.unwrap().value);
     }
 }

@@ -1,4 +1,4 @@
-//! The fast path for the two large event tables, spikes.csv and licks.csv.
+//! The fast path for the large tables: spikes.csv, licks.csv and photometry.csv.
 //!
 //! A clean file — the exact header, plain unsigned decimals, no quotes, no spaces around
 //! fields, no blank or over-long lines, UTF-8, times in order per unit and inside the
@@ -12,7 +12,7 @@
 use super::guard::MAX_LINE_BYTES;
 use super::number::parse_plain_decimal;
 use super::tables::{Span, UnitIndex};
-use super::Spikes;
+use super::{Photometry, Spikes};
 use std::io::Read;
 
 /// Bytes read per block.
@@ -163,4 +163,71 @@ pub fn licks(src: impl Read, span: Option<Span>) -> Option<Vec<f64>> {
         times.shrink_to_fit();
         times
     })
+}
+
+/// A signed plain decimal ("-0.0123"): negation is exact, so this equals the standard parse.
+fn signed(field: &[u8]) -> Option<f64> {
+    match field.split_first() {
+        Some((b'-', rest)) => parse_plain_decimal(rest).map(|v| -v),
+        _ => parse_plain_decimal(field),
+    }
+}
+
+/// photometry.csv of a clean file (see the module; sample times strictly increasing), `None`
+/// otherwise.
+pub fn photometry(mut src: impl Read) -> Option<Photometry> {
+    // The header decides whether there is a control column; peek at it through a small read.
+    let mut head = [0u8; 64];
+    let n = read_full(&mut src, &mut head).ok()?;
+    let text = head[..n]
+        .strip_prefix(&[0xEF, 0xBB, 0xBF])
+        .unwrap_or(&head[..n]);
+    let has_control = if text.starts_with(b"time_s,signal,control\n") {
+        true
+    } else if text.starts_with(b"time_s,signal\n") {
+        false
+    } else {
+        return None;
+    };
+    let header: &[u8] = if has_control {
+        b"time_s,signal,control"
+    } else {
+        b"time_s,signal"
+    };
+    let mut p = Photometry {
+        control: has_control.then(Vec::new),
+        ..Photometry::default()
+    };
+    let clean = each_line(
+        std::io::Cursor::new(head[..n].to_vec()).chain(src),
+        header,
+        |line| {
+            let mut fields = line.split(|&b| b == b',');
+            let (Some(t), Some(s)) = (fields.next(), fields.next()) else {
+                return false;
+            };
+            let c = if has_control { fields.next() } else { None };
+            if fields.next().is_some() || (has_control && c.is_none()) {
+                return false;
+            }
+            let (Some(t), Some(s)) = (parse_plain_decimal(t), signed(s)) else {
+                return false;
+            };
+            if p.time_s.last().is_some_and(|&prev| t <= prev) {
+                return false;
+            }
+            if let Some(c) = c {
+                let Some(c) = signed(c) else {
+                    return false;
+                };
+                if let Some(v) = p.control.as_mut() {
+                    v.push(c);
+                }
+            }
+            p.time_s.push(t);
+            p.signal.push(s);
+            true
+        },
+    );
+    (clean && !p.time_s.is_empty()).then_some(p)
 }

@@ -337,9 +337,16 @@ pub fn read_session(dir: &Path, out: &mut Vec<Diagnostic>) -> Option<Session> {
             None => reopened(p, out, |r, out| tables::read_licks(p, r, span, out)),
         }
     });
-    let photometry = optional_file(dir, PHOTOMETRY_FILE, out, |p, r, out| {
-        tables::read_photometry(p, r, out)
-    });
+    let photometry =
+        optional_file(
+            dir,
+            PHOTOMETRY_FILE,
+            out,
+            |p, r, out| match super::fast::photometry(r) {
+                Some(value) => Some(tables::Parsed { value, errors: 0 }),
+                None => reopened(p, out, |r, out| tables::read_photometry(p, r, out)),
+            },
+        );
 
     // Warnings built on a file with errors would mostly echo those errors.
     if let (Some(m), Some(raw)) = (&meta, &raw_trials) {

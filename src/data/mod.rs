@@ -146,7 +146,7 @@ pub struct Spikes {
 }
 
 /// Continuous dopamine-sensor trace (and optional isosbestic control), on one time base.
-#[derive(Debug, Clone, Default)]
+#[derive(Debug, Clone, Default, PartialEq)]
 pub struct Photometry {
     pub time_s: Vec<f64>,
     pub signal: Vec<f64>,

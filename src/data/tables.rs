@@ -268,7 +268,7 @@ pub fn read_spikes<R: BufRead>(
 /// integer, rows of one unit often in runs, so the previous unit is tried first.
 #[derive(Default)]
 pub(super) struct UnitIndex {
-    short: HashMap<u64, usize, BuildHasherDefault<Fnv1a>>,
+    short: ShortTable,
     long: HashMap<Box<[u8]>, usize, BuildHasherDefault<Fnv1a>>,
     /// Ids as bytes while reading (rows were checked to be UTF-8), text at the end.
     names: Vec<Box<[u8]>>,
@@ -287,14 +287,16 @@ impl UnitIndex {
             return u;
         }
         let found = match key {
-            Some(k) => self.short.get(&k).copied(),
+            Some(k) => self.short.get(k),
             None => self.long.get(unit).copied(),
         };
         let u = found.unwrap_or_else(|| {
             let u = self.names.len();
             match key {
                 Some(k) => self.short.insert(k, u),
-                None => self.long.insert(unit.into(), u),
+                None => {
+                    self.long.insert(unit.into(), u);
+                }
             };
             self.names.push(unit.into());
             u
@@ -505,15 +507,66 @@ pub fn natural_cmp(a: &str, b: &str) -> std::cmp::Ordering {
     ca.len().cmp(&cb.len()).then(a.cmp(b))
 }
 
+/// Open addressing over packed short ids (never 0: the top byte holds the length, at least 1),
+/// linear probing from the top bits of one multiply; kept at most half full. A few dozen to a
+/// few hundred units per file: the lookup is one multiply and, nearly always, one compare.
+#[derive(Default)]
+struct ShortTable {
+    slots: Vec<(u64, usize)>,
+    len: usize,
+}
+
+impl ShortTable {
+    fn slot(&self, k: u64) -> usize {
+        let bits = self.slots.len().trailing_zeros();
+        (k.wrapping_mul(0x9e37_79b9_7f4a_7c15) >> (64 - bits)) as usize
+    }
+
+    fn get(&self, k: u64) -> Option<usize> {
+        if self.slots.is_empty() {
+            return None;
+        }
+        let mask = self.slots.len() - 1;
+        let mut i = self.slot(k);
+        loop {
+            match self.slots[i] {
+                (0, _) => return None,
+                (x, u) if x == k => return Some(u),
+                _ => i = (i + 1) & mask,
+            }
+        }
+    }
+
+    fn insert(&mut self, k: u64, u: usize) {
+        if 2 * (self.len + 1) > self.slots.len() {
+            let grown = vec![(0, 0); (self.slots.len() * 2).max(64)];
+            let old = std::mem::replace(&mut self.slots, grown);
+            self.len = 0;
+            for (x, v) in old.into_iter().filter(|&(x, _)| x != 0) {
+                self.insert(x, v);
+            }
+        }
+        let mask = self.slots.len() - 1;
+        let mut i = self.slot(k);
+        while self.slots[i].0 != 0 {
+            i = (i + 1) & mask;
+        }
+        self.slots[i] = (k, u);
+        self.len += 1;
+    }
+}
+
 /// An id of at most 7 bytes packed with its length into one integer (`None` if longer).
 fn short_key(id: &[u8]) -> Option<u64> {
     if id.len() > 7 {
         return None;
     }
-    let mut k = [0u8; 8];
-    k[..id.len()].copy_from_slice(id);
-    k[7] = id.len() as u8;
-    Some(u64::from_le_bytes(k))
+    // Byte by byte: a variable-length copy into a buffer costs a call per row.
+    let mut k = (id.len() as u64) << 56;
+    for (i, &b) in id.iter().enumerate() {
+        k |= u64::from(b) << (8 * i);
+    }
+    Some(k)
 }
 
 /// FNV-1a: unit ids are a few bytes long and trusted enough; SipHash's DoS resistance costs
@@ -553,6 +606,22 @@ impl Hasher for Fnv1a {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn short_table_finds_every_id_through_growth() {
+        let mut t = ShortTable::default();
+        let keys: Vec<u64> = (1..=300)
+            .map(|u| short_key(format!("u{u}").as_bytes()).unwrap())
+            .collect();
+        for (u, &k) in keys.iter().enumerate() {
+            assert_eq!(t.get(k), None);
+            t.insert(k, u);
+        }
+        for (u, &k) in keys.iter().enumerate() {
+            assert_eq!(t.get(k), Some(u));
+        }
+        assert_eq!(t.get(short_key(b"u301").unwrap()), None);
+    }
 
     /// Ids that share their first bytes (`u1` … `u64`) spread over the table's buckets: the
     /// low bits of the hash (the bucket) take many values, not one.
