@@ -107,7 +107,10 @@ fn per_table(dir: &Path) {
         (
             "spikes.csv",
             &spikes,
-            Box::new(|b| fast::spikes(b, None).map_or(0, |s| s.units.len())),
+            Box::new(|b| {
+                let p = std::path::Path::new("spikes.csv");
+                fast::spikes(p, b, None, &mut Vec::new()).map_or(0, |s| s.units.len())
+            }),
             Box::new(|b| {
                 let p = std::path::Path::new("spikes.csv");
                 tables::read_spikes(p, b, None, &mut Vec::new()).map_or(0, |s| s.value.units.len())

@@ -6,6 +6,7 @@
 
 use proptest::prelude::*;
 use std::path::Path;
+use trialdesk::data::diag::Diagnostic;
 use trialdesk::data::tables::{read_licks, read_photometry, read_spikes, Span};
 use trialdesk::data::{fast, Spikes};
 
@@ -161,10 +162,15 @@ fn sorted_per_unit(bytes: &[u8]) -> Vec<u8> {
     s.into_bytes()
 }
 
-fn standard_spikes(bytes: &[u8], span: Option<Span>) -> (Option<(Spikes, usize)>, usize) {
+fn standard_spikes(bytes: &[u8], span: Option<Span>) -> (Option<(Spikes, usize)>, Vec<Diagnostic>) {
     let mut diags = Vec::new();
     let r = read_spikes(Path::new("spikes.csv"), bytes, span, &mut diags);
-    (r.map(|p| (p.value, p.errors)), diags.len())
+    (r.map(|p| (p.value, p.errors)), diags)
+}
+
+fn fast_spikes(bytes: &[u8], span: Option<Span>) -> Option<(Spikes, Vec<Diagnostic>)> {
+    let mut diags = Vec::new();
+    fast::spikes(Path::new("spikes.csv"), bytes, span, &mut diags).map(|s| (s, diags))
 }
 
 proptest! {
@@ -173,9 +179,9 @@ proptest! {
     #[test]
     fn spikes_fast_path_agrees(file in spikes_file(), sort in any::<bool>(), span in span()) {
         let file = if sort { sorted_per_unit(&file) } else { file };
-        if let Some(fast) = fast::spikes(&file[..], span) {
-            let (standard, n_diags) = standard_spikes(&file, span);
-            prop_assert_eq!(n_diags, 0, "{}", String::from_utf8_lossy(&file));
+        if let Some((fast, fast_diags)) = fast_spikes(&file, span) {
+            let (standard, diags) = standard_spikes(&file, span);
+            prop_assert_eq!(fast_diags, diags, "{}", String::from_utf8_lossy(&file));
             let (value, errors) = standard.expect("the standard reader reads it too");
             prop_assert_eq!(errors, 0);
             prop_assert_eq!(fast, value);
@@ -219,11 +225,20 @@ proptest! {
             s.push_str(&format!("u{u},{a}.{b:03}\n"));
             l.push_str(&format!("{a}.{b:03}\n"));
         }
-        let fast = fast::spikes(s.as_bytes(), None);
+        let fast = fast_spikes(s.as_bytes(), None);
         prop_assert!(fast.is_some());
         let (standard, _) = standard_spikes(s.as_bytes(), None);
-        prop_assert_eq!(fast.unwrap(), standard.unwrap().0);
+        prop_assert_eq!(fast.unwrap().0, standard.unwrap().0);
         prop_assert!(fast::licks(l.as_bytes(), None).is_some());
+        // Trains out of order are taken too, with the standard reader's own warning.
+        let mut r = String::from("unit,time_s\n");
+        for (u, a, b) in rows.iter().rev() {
+            r.push_str(&format!("u{u},{a}.{b:03}\n"));
+        }
+        let (fast, fast_diags) = fast_spikes(r.as_bytes(), None).expect("taken");
+        let (standard, diags) = standard_spikes(r.as_bytes(), None);
+        prop_assert_eq!(fast_diags, diags);
+        prop_assert_eq!(fast, standard.unwrap().0);
         let mut p = String::from("time_s,signal,control\n");
         for (i, (_, a, b)) in rows.iter().enumerate() {
             p.push_str(&format!("{i}.5,{a}.{b:03},-{b}.{a}\n"));

@@ -9,9 +9,10 @@
 //! every diagnostic stays exactly as it was (the property test in `tests/prop_fast_path.rs`
 //! feeds both readers the same files).
 
+use super::diag::Diagnostic;
 use super::guard::MAX_LINE_BYTES;
 use super::number::parse_plain_decimal;
-use super::tables::{Span, UnitIndex};
+use super::tables::{Span, UnitIndex, SPIKES_UNSORTED};
 use super::{Photometry, Spikes};
 use std::io::Read;
 
@@ -111,11 +112,19 @@ fn clean_time(field: &[u8], span: Option<Span>) -> Option<f64> {
     }
 }
 
-/// spikes.csv of a clean file (see the module), `None` otherwise.
-pub fn spikes(src: impl Read, span: Option<Span>) -> Option<Spikes> {
+/// spikes.csv of a clean file (see the module), `None` otherwise. Trains out of order are the
+/// one thing it reads anyway, as sorters export them: sorted, with the standard reader's
+/// warning at the first such line (in `out`).
+pub fn spikes(
+    path: &std::path::Path,
+    src: impl Read,
+    span: Option<Span>,
+    out: &mut Vec<Diagnostic>,
+) -> Option<Spikes> {
     let mut units = UnitIndex::default();
     let mut times: Vec<Vec<f64>> = Vec::new();
     let mut rows = 0usize;
+    let mut first_unsorted: Option<u64> = None;
     let clean = each_line(src, b"unit,time_s", |line| {
         let Some(comma) = memchr::memchr(b',', line) else {
             return false;
@@ -136,14 +145,27 @@ pub fn spikes(src: impl Read, span: Option<Span>) -> Option<Spikes> {
             times.push(Vec::new());
         }
         let train = &mut times[u];
+        rows += 1;
         if train.last().is_some_and(|&p| t < p) {
-            return false;
+            // The header is line 1 and the fast path takes no blank lines.
+            first_unsorted.get_or_insert(rows as u64 + 1);
         }
         train.push(t);
-        rows += 1;
         true
     });
-    (clean && rows > 0).then(|| units.into_spikes(times))
+    if !clean || rows == 0 {
+        return None;
+    }
+    if let Some(line) = first_unsorted {
+        for v in &mut times {
+            v.sort_unstable_by(f64::total_cmp);
+        }
+        let d = Diagnostic::warning(path, SPIKES_UNSORTED)
+            .at_line(line)
+            .column("time_s");
+        out.push(d);
+    }
+    Some(units.into_spikes(times))
 }
 
 /// licks.csv of a clean file (see the module), `None` otherwise.

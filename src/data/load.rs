@@ -326,7 +326,7 @@ pub fn read_session(dir: &Path, out: &mut Vec<Diagnostic>) -> Option<Session> {
         dir,
         SPIKES_FILE,
         out,
-        |p, r, out| match super::fast::spikes(r, span) {
+        |p, r, out| match super::fast::spikes(p, r, span, out) {
             Some(value) => Some(tables::Parsed { value, errors: 0 }),
             None => reopened(p, out, |r, out| tables::read_spikes(p, r, span, out)),
         },

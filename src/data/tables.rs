@@ -205,6 +205,10 @@ fn trial_number<R: BufRead>(t: &mut Table<R>, last: &mut Option<(i64, u64)>) -> 
     None
 }
 
+/// The warning for spike trains out of order (the fast path gives the same one).
+pub(super) const SPIKES_UNSORTED: &str =
+    "spike times of a unit are not in increasing order; sorted on load";
+
 /// Read spikes.csv into per-unit sorted spike trains (units in natural name order).
 pub fn read_spikes<R: BufRead>(
     path: &Path,
@@ -245,11 +249,7 @@ pub fn read_spikes<R: BufRead>(
         times[u].push(time);
     }
     if let Some(line) = first_unsorted {
-        t.diags.warning_at(
-            line,
-            "time_s",
-            "spike times of a unit are not in increasing order; sorted on load".into(),
-        );
+        t.diags.warning_at(line, "time_s", SPIKES_UNSORTED.into());
     }
     late.report(&mut t, "spike");
     let errors = t.finish(out);
