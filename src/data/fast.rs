@@ -12,7 +12,8 @@
 use super::diag::Diagnostic;
 use super::guard::MAX_LINE_BYTES;
 use super::number::parse_plain_decimal;
-use super::tables::{Span, UnitIndex, SPIKES_UNSORTED};
+use super::tables::{Span, SPIKES_UNSORTED};
+use super::units::UnitIndex;
 use super::{Photometry, Spikes};
 use std::io::Read;
 

@@ -16,6 +16,7 @@ mod lookalike;
 pub mod meta;
 pub mod number;
 pub mod tables;
+mod units;
 
 pub use diag::{Diagnostic, Severity};
 pub use load::{load, load_partial, scan, LoadFailure, Loaded, Partial, Scan};
