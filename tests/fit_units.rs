@@ -11,6 +11,19 @@ use trialdesk::fit::{report, run_fit, units, FitOptions, NoProgress};
 use trialdesk::marks::MarkState;
 use trialdesk::obs::{observe, ObsOptions, Signal};
 
+/// Every unit's own responses of the subject (all marks ignored: there are none).
+fn per_unit(subj: &trialdesk::data::Subject, spec: &Spec, by: ScaleBy) -> trialdesk::fit::FitData {
+    units::per_unit(
+        subj,
+        &ObsOptions::default(),
+        spec.dt,
+        &[] as &[MarkState],
+        false,
+        by,
+    )
+    .unwrap()
+}
+
 fn row<'a>(rows: &'a [report::ParamRow], name: &str) -> &'a report::ParamRow {
     rows.iter()
         .find(|r| r.name == name)
@@ -38,15 +51,7 @@ fn acute_units_recover_alpha_and_gamma() {
             ..Spec::default()
         };
         let subj = subject(&spec);
-        let data = units::per_unit(
-            &subj,
-            &ObsOptions::default(),
-            spec.dt,
-            &[] as &[MarkState],
-            false,
-            ScaleBy::SessionUnit,
-        )
-        .unwrap();
+        let data = per_unit(&subj, &spec, ScaleBy::SessionUnit);
         let groups = data.groups.as_ref().unwrap();
         assert_eq!(groups.names.len(), 6 * 4, "{:?}", groups.names);
         assert_eq!(groups.names[0], "2026-05-01/u1");
@@ -94,15 +99,7 @@ fn a_unit_missing_on_some_days_contributes_the_others() {
         observe(&subj, &one_unit).is_err(),
         "u3 is missing on days 2 and 3"
     );
-    let data = units::per_unit(
-        &subj,
-        &ObsOptions::default(),
-        spec.dt,
-        &[] as &[MarkState],
-        false,
-        ScaleBy::Unit,
-    )
-    .unwrap();
+    let data = per_unit(&subj, &spec, ScaleBy::Unit);
     let groups = data.groups.as_ref().unwrap();
     assert_eq!(groups.names, ["u1", "u2", "u3"]);
     let sessions_of = |g: u32| -> std::collections::BTreeSet<usize> {
@@ -154,15 +151,7 @@ fn per_unit_asymmetry_orders_the_units() {
         ..Spec::default()
     };
     let subj = subject(&spec);
-    let data = units::per_unit(
-        &subj,
-        &ObsOptions::default(),
-        spec.dt,
-        &[] as &[MarkState],
-        false,
-        ScaleBy::Unit,
-    )
-    .unwrap();
+    let data = per_unit(&subj, &spec, ScaleBy::Unit);
     let opts = FitOptions {
         lambda: Some(spec.lambda),
         bootstrap: 0,

@@ -96,16 +96,7 @@ fn anticipation_bins(subject: &Subject, data: &FitData, span: usize) -> Option<u
         (Some(r), None) => r,
         (None, Some(e)) => e,
         (None, None) => {
-            let session = &subject.sessions[s.session];
-            let longest = session
-                .meta
-                .cues
-                .iter()
-                .filter_map(|c| c.reward_delay_s)
-                .fold(f64::NAN, f64::max);
-            if !longest.is_finite() {
-                return None;
-            }
+            let longest = crate::obs::longest_reward_delay(&subject.sessions[s.session])?;
             ((longest / dt) + 1e-9).floor() as usize
         }
     };

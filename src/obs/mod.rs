@@ -461,6 +461,19 @@ fn plan(session: &Session, trial: &Trial, opts: &ObsOptions) -> Option<Plan> {
     })
 }
 
+/// The longest reward delay of the session's cues: how long a never-rewarded cue's
+/// anticipation is measured, so CS+ and CS− cover the same span (common practice); `None`
+/// when no cue has a delay.
+pub fn longest_reward_delay(session: &Session) -> Option<f64> {
+    let longest = session
+        .meta
+        .cues
+        .iter()
+        .filter_map(|c| c.reward_delay_s)
+        .fold(f64::NAN, f64::max);
+    longest.is_finite().then_some(longest)
+}
+
 /// Licks/s from cue onset to the expected reward time, cut at the delivery if the reward came
 /// earlier, so consummatory licks never count (common practice). A cue that is never rewarded
 /// is measured over the longest reward delay of its session's cues, so CS+ and CS− licking
@@ -473,18 +486,7 @@ pub fn anticipatory_lick_rate(session: &Session, trial: &Trial) -> Option<f64> {
         (Some(e), Some(r)) => e.min(r),
         (Some(e), None) => e,
         (None, Some(r)) => r,
-        (None, None) => {
-            let longest = session
-                .meta
-                .cues
-                .iter()
-                .filter_map(|c| c.reward_delay_s)
-                .fold(f64::NAN, f64::max);
-            if !longest.is_finite() {
-                return None;
-            }
-            start + longest
-        }
+        (None, None) => start + longest_reward_delay(session)?,
     };
     if end <= start {
         return None;
