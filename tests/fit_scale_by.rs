@@ -120,6 +120,22 @@ fn fit(subject: &Path, extra: &[&str]) -> std::process::Output {
         .unwrap()
 }
 
+/// `plot` of a subject with a saved grouped fit: fit_trials.svg has a prediction for every
+/// window (a group the fit did not know would draw NaN).
+fn plot_predicts_every_window(tmp: &Path, subject: &Path) {
+    let pictures = tmp.join("pictures");
+    let out = Command::new(env!("CARGO_BIN_EXE_trialdesk"))
+        .arg("plot")
+        .arg(subject)
+        .arg("--out")
+        .arg(&pictures)
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "{out:?}");
+    let svg = std::fs::read_to_string(pictures.join("fit_trials.svg")).unwrap();
+    assert!(!svg.contains("NaN"), "a window without a prediction");
+}
+
 #[test]
 fn scale_by_rig_on_the_command_line_reports_saves_and_plots_each_rig() {
     let tmp = tempfile::tempdir().unwrap();
@@ -136,17 +152,7 @@ fn scale_by_rig_on_the_command_line_reports_saves_and_plots_each_rig() {
     assert!(saved.contains("scale_by = \"rig\""), "{saved}");
     assert_eq!(saved.matches("[[group]]").count(), 2, "{saved}");
     // The saved groups drive the fit picture's predictions: every window gets a number.
-    let pictures = tmp.path().join("pictures");
-    let out = Command::new(env!("CARGO_BIN_EXE_trialdesk"))
-        .arg("plot")
-        .arg(&subject)
-        .arg("--out")
-        .arg(&pictures)
-        .output()
-        .unwrap();
-    assert!(out.status.success(), "{out:?}");
-    let svg = std::fs::read_to_string(pictures.join("fit_trials.svg")).unwrap();
-    assert!(!svg.contains("NaN"), "a window without a prediction");
+    plot_predicts_every_window(tmp.path(), &subject);
 
     // The summary names the rigs and points at the option.
     let out = Command::new(env!("CARGO_BIN_EXE_trialdesk"))
@@ -288,17 +294,7 @@ fn scale_by_unit_on_the_command_line() {
     assert!(trials.contains(",u1,") && trials.contains(",u2,"));
     let saved = std::fs::read_to_string(subject.join("trialdesk-fit.toml")).unwrap();
     assert!(saved.contains("scale_by = \"unit\""), "{saved}");
-    let pictures = tmp.path().join("pictures");
-    let out = Command::new(env!("CARGO_BIN_EXE_trialdesk"))
-        .arg("plot")
-        .arg(&subject)
-        .arg("--out")
-        .arg(&pictures)
-        .output()
-        .unwrap();
-    assert!(out.status.success(), "{out:?}");
-    let svg = std::fs::read_to_string(pictures.join("fit_trials.svg")).unwrap();
-    assert!(!svg.contains("NaN"), "a window without a prediction");
+    plot_predicts_every_window(tmp.path(), &subject);
     let settings = trialdesk::tui::derived::ModelSettings::from_subject(&subject).unwrap();
     assert!(
         settings
