@@ -31,13 +31,11 @@ fn each_line(mut src: impl Read, header: &[u8], mut row: impl FnMut(&[u8]) -> bo
         // Keep the unfinished line, then fill up to one block more.
         buf.drain(..start);
         start = 0;
-        let have = buf.len();
-        buf.resize(have + BLOCK, 0);
-        let n = match read_full(&mut src, &mut buf[have..]) {
+        // Appended straight after the kept bytes: nothing is zeroed first.
+        let n = match src.by_ref().take(BLOCK as u64).read_to_end(&mut buf) {
             Ok(n) => n,
             Err(_) => return false,
         };
-        buf.truncate(have + n);
         let at_end = n == 0;
         if first_block {
             first_block = false;

@@ -16,7 +16,7 @@
 
 use super::dataset::{FitData, ObsPoint, WindowKind};
 use super::likelihood::WindowCount;
-use super::objective::LearnParams;
+use super::objective::{LearnParams, Pass};
 use crate::data::Subject;
 use crate::marks::MarkState;
 use crate::obs::activity::count_in;
@@ -174,17 +174,11 @@ pub fn window_count(p: &ObsPoint, dt: f64) -> (f64, f64) {
     (exposure, (p.observed * exposure).round())
 }
 
-/// Where the learned value of each bin comes from.
-pub enum Values<'a> {
-    /// The TD pass: V per bin.
-    Td(&'a crate::model::TdRun),
-    /// Rescorla–Wagner: one value per trial, the same in every bin.
-    Trial(&'a [crate::model::rw::RwTrial]),
-}
-
 /// Σ_{k in window} (1 − υ)·a_k·dt for every point in `idx` that is a lick window (0 for the
 /// others), indexed like `data.points`. Each span's response trace is run once.
-pub fn predictors(data: &FitData, values: &Values, rule: LickRule, idx: &[usize]) -> Vec<f64> {
+/// The value of each bin comes from the TD pass, or for Rescorla–Wagner the trial's one value
+/// in every bin.
+pub fn predictors(data: &FitData, values: &Pass, rule: LickRule, idx: &[usize]) -> Vec<f64> {
     let mut out = vec![0.0; data.points.len()];
     let mut trace: Vec<f64> = Vec::new();
     let mut traced: Option<usize> = None;
@@ -204,13 +198,7 @@ pub fn predictors(data: &FitData, values: &Values, rule: LickRule, idx: &[usize]
 }
 
 /// a_k of one span over its bins.
-fn response_trace(
-    data: &FitData,
-    values: &Values,
-    rule: LickRule,
-    span: usize,
-    out: &mut Vec<f64>,
-) {
+fn response_trace(data: &FitData, values: &Pass, rule: LickRule, span: usize, out: &mut Vec<f64>) {
     let n = data.spans[span].n_bins;
     out.clear();
     let mut a = 0.0;
@@ -219,8 +207,8 @@ fn response_trace(
         a = rule.upsilon * a + (v_prev - rule.theta).max(0.0);
         out.push(a);
         v_prev = match values {
-            Values::Td(run) => run.trial_value(span).get(k).copied().unwrap_or(0.0),
-            Values::Trial(t) => t[span].value,
+            Pass::Td(run) => run.trial_value(span).get(k).copied().unwrap_or(0.0),
+            Pass::Rw(t) => t[span].value,
         };
     }
 }
@@ -307,22 +295,14 @@ pub const START_RULE: LickRule = LickRule {
 };
 
 impl super::objective::Problem<'_> {
-    /// The lick readout at `p` on the lick windows `idx`.
-    pub(super) fn fit_licks(&self, p: &LearnParams, idx: &[usize]) -> Option<LickLinear> {
-        let rule = p.lick?;
-        let x = self.lick_predictors(p, rule, idx)?;
-        fit_rate(self.data, &x, idx)
-    }
-
-    fn lick_predictors(&self, p: &LearnParams, rule: LickRule, idx: &[usize]) -> Option<Vec<f64>> {
-        let data = self.data;
-        Some(match self.td_run(p) {
-            Some(run) => predictors(data, &Values::Td(&run), rule, idx),
-            None => {
-                let trials = crate::model::rw::run(&data.spans, data.n_cues, p.alpha);
-                predictors(data, &Values::Trial(&trials), rule, idx)
-            }
-        })
+    /// The lick readout of the learner's `pass` under `rule` on the lick windows `idx`.
+    pub(super) fn fit_licks(
+        &self,
+        pass: &Pass,
+        rule: LickRule,
+        idx: &[usize],
+    ) -> Option<LickLinear> {
+        fit_rate(self.data, &predictors(self.data, pass, rule, idx), idx)
     }
 
     /// Fill in the predicted lick rate (licks/s) of every lick window of `out`.
@@ -334,9 +314,7 @@ impl super::objective::Problem<'_> {
         out: &mut [f64],
     ) {
         let all: Vec<usize> = (0..self.data.points.len()).collect();
-        let Some(x) = self.lick_predictors(p, rule, &all) else {
-            return;
-        };
+        let x = predictors(self.data, &self.pass(p), rule, &all);
         for (i, pt) in self.data.points.iter().enumerate() {
             if pt.kind == WindowKind::Licks {
                 let (exposure, _) = window_count(pt, self.data.dt);

@@ -68,6 +68,13 @@ enum Predictors {
     Deltas(WindowDeltas),
 }
 
+/// One pass of the learner over every trial: TD's per-bin δ and value, or Rescorla–Wagner's
+/// per-trial δ and value.
+pub enum Pass {
+    Td(crate::model::TdRun),
+    Rw(Vec<rw::RwTrial>),
+}
+
 /// One model on one data set: maps search coordinates to δ sums and scores them.
 pub struct Problem<'a> {
     pub data: &'a FitData,
@@ -183,10 +190,11 @@ impl<'a> Problem<'a> {
         z
     }
 
-    /// The TD pass over every trial at learning parameters `p` (`None` for Rescorla–Wagner).
-    pub(super) fn td_run(&self, p: &LearnParams) -> Option<crate::model::TdRun> {
+    /// The learner's pass over every trial at learning parameters `p`: one per evaluation,
+    /// shared by the activity and the lick readouts.
+    pub fn pass(&self, p: &LearnParams) -> Pass {
         let (ModelSpec::Td(representation), Some(space)) = (self.model, &self.space) else {
-            return None;
+            return Pass::Rw(rw::run(&self.data.spans, self.data.n_cues, p.alpha));
         };
         let params = TdParams {
             alpha: p.alpha,
@@ -195,15 +203,19 @@ impl<'a> Problem<'a> {
             dt: self.data.dt,
             representation,
         };
-        Some(td::run_in(space, &self.data.spans, &params))
+        Pass::Td(td::run_in(space, &self.data.spans, &params))
     }
 
     /// The model's δ summed over each point's window (excluded points too: one pass over all
     /// trials serves every point).
     pub fn predictors(&self, p: &LearnParams) -> Vec<f64> {
+        self.predictors_in(&self.pass(p))
+    }
+
+    fn predictors_in(&self, pass: &Pass) -> Vec<f64> {
         let data = self.data;
-        match self.td_run(p) {
-            Some(run) => {
+        match pass {
+            Pass::Td(run) => {
                 if let Some(weighted) = &data.weighted {
                     return data
                         .points
@@ -224,31 +236,33 @@ impl<'a> Problem<'a> {
                     })
                     .collect()
             }
-            _ => {
-                let trials = rw::run(&data.spans, data.n_cues, p.alpha);
-                data.points
-                    .iter()
-                    .map(|pt| match pt.kind {
-                        WindowKind::Cue => trials[pt.span].delta_cue,
-                        WindowKind::Reward => trials[pt.span].delta_reward,
-                        WindowKind::Licks => 0.0,
-                    })
-                    .collect()
-            }
+            Pass::Rw(trials) => data
+                .points
+                .iter()
+                .map(|pt| match pt.kind {
+                    WindowKind::Cue => trials[pt.span].delta_cue,
+                    WindowKind::Reward => trials[pt.span].delta_reward,
+                    WindowKind::Licks => 0.0,
+                })
+                .collect(),
         }
     }
 
     /// The window sums of the positive and of the negative parts of δ (each weighted by the
     /// sensor kernel when the data carry one); they add up to [`Problem::predictors`].
     pub fn split_predictors(&self, p: &LearnParams) -> (Vec<f64>, Vec<f64>) {
+        self.split_predictors_in(&self.pass(p))
+    }
+
+    fn split_predictors_in(&self, pass: &Pass) -> (Vec<f64>, Vec<f64>) {
         let data = self.data;
         let split = |w: &mut dyn Iterator<Item = (f64, f64)>| {
             w.fold((0.0, 0.0), |(a, b), (wt, d)| {
                 (a + wt * d.max(0.0), b + wt * d.min(0.0))
             })
         };
-        let parts: Vec<(f64, f64)> = match self.td_run(p) {
-            Some(run) => data
+        let parts: Vec<(f64, f64)> = match pass {
+            Pass::Td(run) => data
                 .points
                 .iter()
                 .enumerate()
@@ -267,8 +281,8 @@ impl<'a> Problem<'a> {
                     }
                 })
                 .collect(),
-            _ => self
-                .predictors(p)
+            Pass::Rw(_) => self
+                .predictors_in(pass)
                 .into_iter()
                 .map(|x| (x.max(0.0), x.min(0.0)))
                 .collect(),
@@ -279,14 +293,18 @@ impl<'a> Problem<'a> {
     /// The model's δ in every bin of each point's window (Poisson likelihood); RW has one δ
     /// per window. Sensor weights are ignored (counts are spikes, not a sensor).
     pub fn window_deltas(&self, p: &LearnParams) -> WindowDeltas {
+        self.window_deltas_in(&self.pass(p))
+    }
+
+    fn window_deltas_in(&self, pass: &Pass) -> WindowDeltas {
         let data = self.data;
         let mut out = WindowDeltas {
             values: Vec::with_capacity(data.points.len() * 6),
             offsets: Vec::with_capacity(data.points.len() + 1),
         };
         out.offsets.push(0);
-        match self.td_run(p) {
-            Some(run) => {
+        match pass {
+            Pass::Td(run) => {
                 for pt in &data.points {
                     let d = run.trial_delta(pt.span);
                     out.values
@@ -294,8 +312,8 @@ impl<'a> Problem<'a> {
                     out.offsets.push(out.values.len());
                 }
             }
-            _ => {
-                let x = self.predictors(p);
+            Pass::Rw(_) => {
+                let x = self.predictors_in(pass);
                 for xi in x {
                     out.values.push(xi);
                     out.offsets.push(out.values.len());
@@ -309,15 +327,16 @@ impl<'a> Problem<'a> {
     /// at learning parameters `p` on the points `idx`; with `--scale-by` groups, each group's
     /// on its own points (the likelihood separates over groups, each with its own σ).
     pub fn fit_linear(&self, p: &LearnParams, idx: &[usize]) -> Option<LinearFit> {
+        let pass = self.pass(p);
         if !self.licks {
-            return self.fit_activity(p, idx);
+            return self.fit_activity(&pass, idx);
         }
         let (activity, lick): (Vec<usize>, Vec<usize>) =
             idx.iter().partition(|&&i| self.kinds[i].is_activity());
-        let lick_fit = self.fit_licks(p, &lick)?;
+        let lick_fit = self.fit_licks(&pass, p.lick?, &lick)?;
         let mut lin = match activity.is_empty() {
             true => LinearFit::licks_only(self.likelihood),
-            false => self.fit_activity(p, &activity)?,
+            false => self.fit_activity(&pass, &activity)?,
         };
         lin.loglik += lick_fit.loglik;
         lin.n += lick_fit.n;
@@ -326,14 +345,14 @@ impl<'a> Problem<'a> {
     }
 
     /// The activity readout of [`Problem::fit_linear`] on activity windows only.
-    fn fit_activity(&self, p: &LearnParams, idx: &[usize]) -> Option<LinearFit> {
+    fn fit_activity(&self, pass: &Pass, idx: &[usize]) -> Option<LinearFit> {
         let pred = match (self.likelihood, &self.data.counts) {
-            (Likelihood::Poisson, Some(_)) => Predictors::Deltas(self.window_deltas(p)),
+            (Likelihood::Poisson, Some(_)) => Predictors::Deltas(self.window_deltas_in(pass)),
             _ if self.asymmetric => {
-                let (pos, neg) = self.split_predictors(p);
+                let (pos, neg) = self.split_predictors_in(pass);
                 Predictors::Split(pos, neg)
             }
-            _ => Predictors::Sums(self.predictors(p)),
+            _ => Predictors::Sums(self.predictors_in(pass)),
         };
         let Some(groups) = &self.data.groups else {
             return self.fit_scale(&pred, idx);
@@ -417,51 +436,44 @@ impl<'a> Problem<'a> {
 
     /// [`Problem::predict_responses`] of the activity windows (NaN for lick windows).
     fn predict_activity(&self, p: &LearnParams, fit: &LinearFit) -> Vec<f64> {
-        let points = &self.data.points;
+        let n = self.data.points.len();
         if !fit.has_activity() {
-            return vec![f64::NAN; points.len()];
+            return vec![f64::NAN; n];
         }
+        // Point i's gains (of δ⁺, δ⁻) and its window's baseline; `None` for a lick window.
+        let readout = |i: usize| {
+            let kind = self.kinds[i];
+            kind.is_activity().then(|| {
+                let (g, baselines) = fit.scale_of(self.group_of(i));
+                (g, baselines[kind.index()])
+            })
+        };
+        let pass = self.pass(p);
         match fit.likelihood {
-            Likelihood::Gaussian if fit.gain_neg.is_none() => points
-                .iter()
-                .zip(self.predictors(p))
-                .enumerate()
-                .map(|(i, (pt, x))| {
-                    if !pt.kind.is_activity() {
-                        return f64::NAN;
-                    }
-                    let (g, baselines) = fit.scale_of(self.group_of(i));
-                    baselines[pt.kind.index()].unwrap_or(0.0) + g[0] * x
-                })
-                .collect(),
+            Likelihood::Gaussian if fit.gain_neg.is_none() => {
+                let x = self.predictors_in(&pass);
+                (0..n)
+                    .map(|i| readout(i).map_or(f64::NAN, |(g, b)| b.unwrap_or(0.0) + g[0] * x[i]))
+                    .collect()
+            }
             Likelihood::Gaussian => {
-                let (pos, neg) = self.split_predictors(p);
-                points
-                    .iter()
-                    .enumerate()
-                    .map(|(i, pt)| {
-                        if !pt.kind.is_activity() {
-                            return f64::NAN;
-                        }
-                        let (g, baselines) = fit.scale_of(self.group_of(i));
-                        baselines[pt.kind.index()].unwrap_or(0.0) + g[0] * pos[i] + g[1] * neg[i]
+                let (pos, neg) = self.split_predictors_in(&pass);
+                (0..n)
+                    .map(|i| {
+                        readout(i).map_or(f64::NAN, |(g, b)| {
+                            b.unwrap_or(0.0) + g[0] * pos[i] + g[1] * neg[i]
+                        })
                     })
                     .collect()
             }
             Likelihood::Poisson => {
-                let d = self.window_deltas(p);
-                points
-                    .iter()
-                    .enumerate()
-                    .map(|(i, pt)| {
-                        if !pt.kind.is_activity() {
-                            return f64::NAN;
+                let d = self.window_deltas_in(&pass);
+                (0..n)
+                    .map(|i| match readout(i) {
+                        Some((g, Some(b))) => {
+                            likelihood::predicted_response_asym(d.of(i), b, g[0], g[1])
                         }
-                        let (g, baselines) = fit.scale_of(self.group_of(i));
-                        match baselines[pt.kind.index()] {
-                            Some(b) => likelihood::predicted_response_asym(d.of(i), b, g[0], g[1]),
-                            None => f64::NAN,
-                        }
+                        _ => f64::NAN,
                     })
                     .collect()
             }

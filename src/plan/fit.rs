@@ -57,15 +57,10 @@ impl<'a> FitJob<'a> {
         if request.licks == LickUse::Only {
             return Self::prepare_licks_only(subject, request);
         }
-        let mut job = Self::prepare_activity(subject, request)?;
+        let (mut job, marks) = Self::prepare_activity(subject, request)?;
         if request.licks == LickUse::With {
-            let marks = standing_marks(subject, MarksPolicy::asked(request.ignore_marks))?;
-            let n = fit::licks::add_lick_points(
-                &mut job.data,
-                subject,
-                &marks.per_session,
-                request.ignore_marks,
-            );
+            let n =
+                fit::licks::add_lick_points(&mut job.data, subject, &marks, request.ignore_marks);
             if n == 0 {
                 return Err(no_lick_windows(subject));
             }
@@ -112,8 +107,12 @@ impl<'a> FitJob<'a> {
         })
     }
 
-    /// The recorded activity's fitting data (one gain, per group, or per unit).
-    fn prepare_activity(subject: &'a Subject, request: &'a FitRequest) -> Result<Self, FitError> {
+    /// The recorded activity's fitting data (one gain, per group, or per unit), and the marks
+    /// in force per session it was built with.
+    fn prepare_activity(
+        subject: &'a Subject,
+        request: &'a FitRequest,
+    ) -> Result<(Self, Vec<crate::marks::MarkState>), FitError> {
         let m = measurement(subject, &request.obs, None)?;
         if let Some(note) = m.choice.missing_note() {
             return Err(FitError::Data(format!(
@@ -128,13 +127,14 @@ impl<'a> FitJob<'a> {
         if request.scale_by.per_unit() {
             let marks = standing_marks(subject, policy)?;
             let data = per_unit_data(subject, &m, request, &marks.per_session)?;
-            return Ok(FitJob {
+            let job = FitJob {
                 subject,
                 request,
                 measurement: m,
                 data,
                 warnings: marks.warnings,
-            });
+            };
+            return Ok((job, marks.per_session));
         }
         let observations =
             obs::observe(subject, &m.obs).map_err(|e| FitError::Data(e.to_string()))?;
@@ -153,13 +153,14 @@ impl<'a> FitJob<'a> {
         // Spike counts per window, for the count likelihood (none for photometry).
         data.counts = dataset::spike_counts(&data, subject, &m.obs);
         data.groups = dataset::groups(&data, subject, request.scale_by);
-        Ok(FitJob {
+        let job = FitJob {
             subject,
             request,
             measurement: m,
             data,
             warnings: marks.warnings,
-        })
+        };
+        Ok((job, marks.per_session))
     }
 
     /// Fit, compare, refit for the sensitivity line, write the report and the saved record.
