@@ -3,10 +3,12 @@
 //! every acknowledged row must be on disk, whole and in order, and at most the one row in
 //! flight may appear without an acknowledgement.
 //!
-//! A SIGKILL cannot cut a single `write` to a local file, so to exercise torn tails as well the
-//! test leaves, between some rounds, a prefix of a row at the end of the file (what a power cut
-//! mid-write leaves). The reader must report it as the torn tail; the next writer must seal it
-//! and the journal must stay readable with every acknowledged row.
+//! A SIGKILL rarely cuts a `write` to a local file (Linux stops a write between pages when a
+//! fatal signal is pending, so a row that straddles a page boundary can be cut; CI met one in
+//! about a hundred runs). To exercise torn tails on every run the test also leaves, between some
+//! rounds, a prefix of a row at the end of the file (what a power cut mid-write leaves). The
+//! reader must report either kind as the torn tail; the next writer must seal it and the journal
+//! must stay readable with every acknowledged row.
 
 #[path = "marks_support/mod.rs"]
 mod support;
@@ -55,6 +57,8 @@ fn acknowledged_marks_survive_sigkill() {
     let started = Instant::now();
     let (mut kills, mut acked_rows, mut on_disk_rows) = (0usize, 0u64, 0u64);
     let (mut injected, mut seen_torn) = (0usize, 0usize);
+    // Torn tails a kill cut (not injected), and whether the open tail is already counted.
+    let (mut cut_by_kill, mut tail_counted) = (0usize, false);
     let mut writer = 0u64;
     while kills < MIN_KILLS + 20 && started.elapsed() < TIME_BUDGET {
         writer += 1;
@@ -94,10 +98,12 @@ fn acknowledged_marks_survive_sigkill() {
         on_disk_rows += present;
         if let Some((line, text)) = &journal.torn_tail {
             seen_torn += 1;
-            assert!(
-                injected > 0,
-                "a torn tail without an interrupted write: {line}: {text}"
-            );
+            if !tail_counted {
+                // The kill cut the row in flight; it is that row's prefix, never an earlier one.
+                cut_by_kill += 1;
+                tail_counted = true;
+                eprintln!("a kill cut the row in flight: line {line}: {text}");
+            }
         } else if rng.random_bool(0.2) {
             // A power cut mid-write: a strict prefix of a row, never just the missing newline.
             let line = encode_row(&row_for(999_999, writer)).unwrap();
@@ -109,11 +115,14 @@ fn acknowledged_marks_survive_sigkill() {
                 .unwrap();
             f.write_all(&line.as_bytes()[..cut]).unwrap();
             injected += 1;
+            tail_counted = true;
             let j = read_journal(dir.path()).unwrap();
             let expected_line = before.iter().filter(|&&b| b == b'\n').count() as u64 + 1;
             let expected_text = String::from_utf8_lossy(&line.as_bytes()[..cut]).into_owned();
             assert_eq!(j.torn_tail, Some((expected_line, expected_text)));
             assert_eq!(j.rows, journal.rows, "a torn tail hides no earlier row");
+        } else {
+            tail_counted = false;
         }
     }
     // One last writer seals any torn tail still open.
@@ -123,9 +132,10 @@ fn acknowledged_marks_survive_sigkill() {
     assert_eq!(last.drain(), vec![0]);
     let journal = read_journal(dir.path()).unwrap();
     assert!(journal.torn_tail.is_none());
+    let torn = injected + cut_by_kill;
     assert_eq!(
         journal.sealed_torn.len(),
-        injected,
+        torn,
         "every torn line sealed and reported once"
     );
     let seals = journal
@@ -133,12 +143,13 @@ fn acknowledged_marks_survive_sigkill() {
         .iter()
         .filter(|r| r.is_torn_line_seal())
         .count();
-    assert_eq!(seals, injected);
+    assert_eq!(seals, torn);
     let total: u64 = (1..=writer).map(|w| check_rows(&journal.rows, w)).sum();
     assert_eq!(total, on_disk_rows + 1);
     eprintln!(
         "crash test: {kills} SIGKILLs, {acked_rows} acknowledged rows, {on_disk_rows} rows on disk, \
-         {injected} torn tails injected ({seen_torn} seen still open after a kill), {:.1} s",
+         {injected} torn tails injected, {cut_by_kill} cut by a kill ({seen_torn} seen still open \
+         after a kill), {:.1} s",
         started.elapsed().as_secs_f64()
     );
     assert!(kills >= MIN_KILLS, "only {kills} kills in the time budget");

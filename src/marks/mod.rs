@@ -8,8 +8,9 @@
 //! # Torn lines (an interrupted write)
 //!
 //! Every row goes to disk in one write under an exclusive lock and is synced before `append`
-//! returns, so a killed process leaves whole rows. A power cut or a full disk can still leave an
-//! incomplete last record. The rules:
+//! returns, so a killed process almost always leaves whole rows. A power cut, a full disk, or
+//! (rarely) a kill that lands while a row straddles a page boundary (Linux stops a write between
+//! pages once a fatal signal is pending) can still leave an incomplete last record. The rules:
 //!
 //! * The reader keeps an incomplete or invalid *last* record that is not followed by a newline
 //!   (or ends inside quotes) out of the rows and reports it in [`Journal::torn_tail`]. A complete
