@@ -249,3 +249,12 @@ proptest! {
         prop_assert_eq!(fast.unwrap(), standard.unwrap().value);
     }
 }
+
+/// A unit id that is not UTF-8 goes to the standard reader, which reports it.
+#[test]
+fn a_unit_id_that_is_not_utf8_is_left_to_the_standard_reader() {
+    let file = b"unit,time_s\nu1,1.5\nu\xff2,2.5\n";
+    assert!(fast_spikes(file, None).is_none());
+    let (_, diags) = standard_spikes(file, None);
+    assert!(!diags.is_empty());
+}

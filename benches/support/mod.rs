@@ -9,13 +9,18 @@ pub fn vm_hwm_mb() -> Option<f64> {
     Some(kb / 1024.0)
 }
 
-/// User + system CPU seconds of this process so far (/proc/self/stat, clock ticks of 1/100 s):
-/// less sensitive than wall time to other jobs sharing the two cores.
+/// User + system CPU seconds of this process so far (all threads), from the kernel's
+/// process CPU clock: less sensitive than wall time to other jobs sharing the two cores, and
+/// exact to the microsecond (the tick counts in /proc advance in 4–10 ms steps).
 pub fn cpu_s() -> f64 {
-    let s = std::fs::read_to_string("/proc/self/stat").unwrap_or_default();
-    // Fields after the parenthesised command name; utime and stime are fields 14 and 15.
-    let rest = s.rsplit_once(')').map(|x| x.1).unwrap_or("");
-    let f: Vec<&str> = rest.split_whitespace().collect();
-    let tick = |i: usize| f.get(i).and_then(|v| v.parse::<f64>().ok()).unwrap_or(0.0);
-    (tick(11) + tick(12)) / 100.0
+    let mut ts = libc::timespec {
+        tv_sec: 0,
+        tv_nsec: 0,
+    };
+    // SAFETY: a valid clock id and a pointer to a timespec we own.
+    let rc = unsafe { libc::clock_gettime(libc::CLOCK_PROCESS_CPUTIME_ID, &mut ts) };
+    if rc != 0 {
+        return 0.0;
+    }
+    ts.tv_sec as f64 + ts.tv_nsec as f64 * 1e-9
 }

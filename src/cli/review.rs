@@ -188,7 +188,7 @@ pub fn run(args: Args) -> CmdResult {
         ),
     };
     let follow_settings = args.follow.then(|| settings.clone());
-    let mut state = app::build_state_with_rules(loaded.subject, opts, keymap, &settings, rules);
+    let mut state = app::start_state(loaded.subject, opts, keymap, &settings, rules);
     if let Some(i) = only
         .as_ref()
         .and_then(|n| state.subject.sessions.iter().position(|s| &s.name == n))

@@ -2,8 +2,9 @@
 //!
 //! A clean file — the exact header, plain unsigned decimals, no quotes, no spaces around
 //! fields, no blank or over-long lines, UTF-8, times in order per unit and inside the
-//! session span — is read in large blocks: lines split with a vectorised search, fields by
-//! position, numbers parsed in the same pass, times gathered per unit. Such a file gives the
+//! session span — is read in large blocks (block ends found with a vectorised search), each
+//! line in one pass that takes the fields by position and parses the numbers as it meets
+//! their digits, times gathered per unit. Such a file gives the
 //! standard reader nothing to report. Anything else returns `None` and the caller reads the
 //! file again with the standard reader ([`super::tables`]), which reports what it finds, so
 //! every diagnostic stays exactly as it was (the property test in `tests/prop_fast_path.rs`
@@ -11,8 +12,8 @@
 
 use super::diag::Diagnostic;
 use super::guard::MAX_LINE_BYTES;
-use super::number::parse_plain_decimal;
-use super::tables::{Span, SPIKES_UNSORTED};
+use super::number::lead_decimal;
+use super::tables::{sort_times, Span, SPIKES_UNSORTED};
 use super::units::UnitIndex;
 use super::{Photometry, Spikes};
 use std::io::Read;
@@ -20,10 +21,14 @@ use std::io::Read;
 /// Bytes read per block.
 const BLOCK: usize = 1 << 22;
 
-/// Calls `row` with every data line of a clean file whose header is `header`; `false` as soon
-/// as the file is not clean (or `row` says so).
-fn each_line(mut src: impl Read, header: &[u8], mut row: impl FnMut(&[u8]) -> bool) -> bool {
-    let mut buf: Vec<u8> = Vec::with_capacity(BLOCK + MAX_LINE_BYTES);
+/// Calls `block` with the data lines of a clean file whose first line is `header`, a block of
+/// whole lines at a time, every line ending in '\n' (one is added after a last line that lacks
+/// it); `false` as soon as the file is not clean (or `block` says so).
+///
+/// No file-wide check is needed: every byte of a line is checked by the parser that reads it
+/// (numbers take only digits, '.', '-'; a unit id is checked for quotes, NUL, CR and UTF-8).
+fn each_block(mut src: impl Read, header: &[u8], mut block: impl FnMut(&[u8]) -> bool) -> bool {
+    let mut buf: Vec<u8> = Vec::with_capacity(BLOCK + MAX_LINE_BYTES + 1);
     let mut start = 0usize;
     let mut header_seen = false;
     let mut first_block = true;
@@ -45,6 +50,9 @@ fn each_line(mut src: impl Read, header: &[u8], mut row: impl FnMut(&[u8]) -> bo
         }
         // The complete lines of this block (all of it at the end of the file).
         let end = if at_end {
+            if buf.len() > start && buf.last() != Some(&b'\n') {
+                buf.push(b'\n');
+            }
             buf.len()
         } else {
             match memchr::memrchr(b'\n', &buf[start..]) {
@@ -53,33 +61,17 @@ fn each_line(mut src: impl Read, header: &[u8], mut row: impl FnMut(&[u8]) -> bo
                 None => continue,
             }
         };
-        let chunk = &buf[start..end];
-        // File-wide checks once per block: no quotes, no NUL, no carriage returns, UTF-8.
-        if memchr::memchr3(b'"', 0, b'\r', chunk).is_some() || std::str::from_utf8(chunk).is_err() {
-            return false;
+        let mut chunk = &buf[start..end];
+        if !header_seen && !chunk.is_empty() {
+            let stop = memchr::memchr(b'\n', chunk).unwrap_or(chunk.len() - 1);
+            if &chunk[..stop] != header {
+                return false;
+            }
+            header_seen = true;
+            chunk = &chunk[stop + 1..];
         }
-        let mut pos = 0;
-        // One vectorised sweep finds every line end of the block; the last line of a file
-        // without a final newline ends at the end of the block.
-        let ends = memchr::memchr_iter(b'\n', chunk).chain(
-            (at_end && !chunk.is_empty() && chunk[chunk.len() - 1] != b'\n').then_some(chunk.len()),
-        );
-        for stop in ends {
-            let line = &chunk[pos..stop];
-            pos = stop + 1;
-            if line.len() > MAX_LINE_BYTES || line.is_empty() {
-                return false;
-            }
-            if !header_seen {
-                if line != header {
-                    return false;
-                }
-                header_seen = true;
-                continue;
-            }
-            if !row(line) {
-                return false;
-            }
+        if !chunk.is_empty() && !block(chunk) {
+            return false;
         }
         start = end;
         if at_end {
@@ -102,13 +94,49 @@ fn read_full(src: &mut impl Read, buf: &mut [u8]) -> std::io::Result<usize> {
     Ok(n)
 }
 
+/// The number at the start of `line` followed by `delim`, and the bytes both take; `signed`
+/// also takes a leading '-' (negation is exact, so this equals the standard parse).
+#[inline(always)]
+fn field(line: &[u8], delim: u8, signed: bool) -> Option<(f64, usize)> {
+    let (neg, skip) = match line.first() {
+        Some(b'-') if signed => (true, 1),
+        _ => (false, 0),
+    };
+    let (v, used) = lead_decimal(&line[skip..])?;
+    let used = skip + used;
+    (line.get(used) == Some(&delim)).then_some((if neg { -v } else { v }, used + 1))
+}
+
 /// A time the standard reader takes without a word: a plain decimal inside the span.
-fn clean_time(field: &[u8], span: Option<Span>) -> Option<f64> {
-    let t = parse_plain_decimal(field)?;
-    match span {
-        Some(s) if t > s.end_s => None,
-        _ => Some(t),
+#[inline(always)]
+fn in_span(t: f64, span: Option<Span>) -> bool {
+    !matches!(span, Some(s) if t > s.end_s)
+}
+
+/// The unit id at the start of a spikes line, up to its comma, if the standard reader would
+/// take it as it stands: not empty, no space at either end, no quote, NUL or CR, UTF-8.
+#[inline(always)]
+fn unit_field(line: &[u8]) -> Option<&[u8]> {
+    let mut i = 0;
+    let mut non_ascii = false;
+    loop {
+        let b = *line.get(i)?;
+        match b {
+            b',' => break,
+            b'\n' | b'"' | 0 | b'\r' => return None,
+            _ => non_ascii |= b >= 0x80,
+        }
+        i += 1;
     }
+    let unit = &line[..i];
+    let (first, last) = (*unit.first()?, unit[i - 1]);
+    if first.is_ascii_whitespace() || last.is_ascii_whitespace() {
+        return None;
+    }
+    if non_ascii && std::str::from_utf8(unit).is_err() {
+        return None;
+    }
+    Some(unit)
 }
 
 /// spikes.csv of a clean file (see the module), `None` otherwise. Trains out of order are the
@@ -124,41 +152,40 @@ pub fn spikes(
     let mut times: Vec<Vec<f64>> = Vec::new();
     let mut rows = 0usize;
     let mut first_unsorted: Option<u64> = None;
-    let clean = each_line(src, b"unit,time_s", |line| {
-        let Some(comma) = memchr::memchr(b',', line) else {
-            return false;
-        };
-        let (unit, rest) = (&line[..comma], &line[comma + 1..]);
-        if unit.is_empty()
-            || unit[0].is_ascii_whitespace()
-            || unit[unit.len() - 1].is_ascii_whitespace()
-        {
-            return false;
+    let clean = each_block(src, b"unit,time_s", |mut lines| {
+        // One pass over each line: the unit up to its comma, then the time's digits up to
+        // the newline (a second comma or any odd byte stops the number and fails the line).
+        while !lines.is_empty() {
+            let Some(unit) = unit_field(lines) else {
+                return false;
+            };
+            let Some((t, used)) = field(&lines[unit.len() + 1..], b'\n', false) else {
+                return false;
+            };
+            let len = unit.len() + 1 + used;
+            if len > MAX_LINE_BYTES + 1 || !in_span(t, span) {
+                return false;
+            }
+            let u = units.index(unit);
+            lines = &lines[len..];
+            if u == times.len() {
+                times.push(Vec::new());
+            }
+            let train = &mut times[u];
+            rows += 1;
+            if train.last().is_some_and(|&p| t < p) {
+                // The header is line 1 and the fast path takes no blank lines.
+                first_unsorted.get_or_insert(rows as u64 + 1);
+            }
+            train.push(t);
         }
-        // `clean_time` refuses a second comma (a ragged row) with every other odd byte.
-        let Some(t) = clean_time(rest, span) else {
-            return false;
-        };
-        let u = units.index(unit);
-        if u == times.len() {
-            times.push(Vec::new());
-        }
-        let train = &mut times[u];
-        rows += 1;
-        if train.last().is_some_and(|&p| t < p) {
-            // The header is line 1 and the fast path takes no blank lines.
-            first_unsorted.get_or_insert(rows as u64 + 1);
-        }
-        train.push(t);
         true
     });
     if !clean || rows == 0 {
         return None;
     }
     if let Some(line) = first_unsorted {
-        for v in &mut times {
-            v.sort_unstable_by(f64::total_cmp);
-        }
+        sort_times(&mut times);
         let d = Diagnostic::warning(path, SPIKES_UNSORTED)
             .at_line(line)
             .column("time_s");
@@ -170,28 +197,23 @@ pub fn spikes(
 /// licks.csv of a clean file (see the module), `None` otherwise.
 pub fn licks(src: impl Read, span: Option<Span>) -> Option<Vec<f64>> {
     let mut times: Vec<f64> = Vec::new();
-    let clean = each_line(src, b"time_s", |line| {
-        let Some(t) = clean_time(line, span) else {
-            return false;
-        };
-        if times.last().is_some_and(|&p| t < p) {
-            return false;
+    let clean = each_block(src, b"time_s", |mut lines| {
+        while !lines.is_empty() {
+            let Some((t, used)) = field(lines, b'\n', false) else {
+                return false;
+            };
+            if !in_span(t, span) || times.last().is_some_and(|&p| t < p) {
+                return false;
+            }
+            times.push(t);
+            lines = &lines[used..];
         }
-        times.push(t);
         true
     });
     (clean && !times.is_empty()).then(|| {
         times.shrink_to_fit();
         times
     })
-}
-
-/// A signed plain decimal ("-0.0123"): negation is exact, so this equals the standard parse.
-fn signed(field: &[u8]) -> Option<f64> {
-    match field.split_first() {
-        Some((b'-', rest)) => parse_plain_decimal(rest).map(|v| -v),
-        _ => parse_plain_decimal(field),
-    }
 }
 
 /// photometry.csv of a clean file (see the module; sample times strictly increasing), `None`
@@ -219,34 +241,33 @@ pub fn photometry(mut src: impl Read) -> Option<Photometry> {
         control: has_control.then(Vec::new),
         ..Photometry::default()
     };
-    let clean = each_line(
+    let signal_end = if has_control { b',' } else { b'\n' };
+    let clean = each_block(
         std::io::Cursor::new(head[..n].to_vec()).chain(src),
         header,
-        |line| {
-            let mut fields = line.split(|&b| b == b',');
-            let (Some(t), Some(s)) = (fields.next(), fields.next()) else {
-                return false;
-            };
-            let c = if has_control { fields.next() } else { None };
-            if fields.next().is_some() || (has_control && c.is_none()) {
-                return false;
-            }
-            let (Some(t), Some(s)) = (parse_plain_decimal(t), signed(s)) else {
-                return false;
-            };
-            if p.time_s.last().is_some_and(|&prev| t <= prev) {
-                return false;
-            }
-            if let Some(c) = c {
-                let Some(c) = signed(c) else {
+        |mut lines| {
+            while !lines.is_empty() {
+                let Some((t, a)) = field(lines, b',', false) else {
                     return false;
                 };
-                if let Some(v) = p.control.as_mut() {
-                    v.push(c);
+                let Some((s, b)) = field(&lines[a..], signal_end, true) else {
+                    return false;
+                };
+                let mut used = a + b;
+                if p.time_s.last().is_some_and(|&prev| t <= prev) {
+                    return false;
                 }
+                if let Some(control) = p.control.as_mut() {
+                    let Some((c, k)) = field(&lines[used..], b'\n', true) else {
+                        return false;
+                    };
+                    control.push(c);
+                    used += k;
+                }
+                p.time_s.push(t);
+                p.signal.push(s);
+                lines = &lines[used..];
             }
-            p.time_s.push(t);
-            p.signal.push(s);
             true
         },
     );

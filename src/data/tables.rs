@@ -254,9 +254,7 @@ pub fn read_spikes<R: BufRead>(
     late.report(&mut t, "spike");
     let errors = t.finish(out);
     if first_unsorted.is_some() {
-        for v in &mut times {
-            v.sort_unstable_by(f64::total_cmp);
-        }
+        sort_times(&mut times);
     }
     Some(Parsed {
         value: units.into_spikes(times),
@@ -293,7 +291,7 @@ pub fn read_licks<R: BufRead>(
             "time_s",
             "lick times are not in increasing order; sorted on load".into(),
         );
-        times.sort_unstable_by(f64::total_cmp);
+        sort_times(std::slice::from_mut(&mut times));
     }
     late.report(&mut t, "lick");
     let errors = t.finish(out);
@@ -440,6 +438,18 @@ pub fn natural_cmp(a: &str, b: &str) -> std::cmp::Ordering {
         }
     }
     ca.len().cmp(&cb.len()).then(a.cmp(b))
+}
+
+/// Sort each series that is out of order. Sorters and rigs write a few sorted runs (a unit's
+/// train, then its extra spikes); the stable sort merges runs in linear time where the
+/// unstable one costs n log n (60 ms on 2 M spikes). Times compare by total order, so the
+/// result is the same either way.
+pub(super) fn sort_times(series: &mut [Vec<f64>]) {
+    for v in series {
+        if !v.is_sorted_by(|a, b| a.total_cmp(b).is_le()) {
+            v.sort_by(f64::total_cmp);
+        }
+    }
 }
 
 #[cfg(test)]

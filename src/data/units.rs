@@ -18,6 +18,7 @@ pub(super) struct UnitIndex {
 
 impl UnitIndex {
     /// The index of `unit`; a new id gets the next index (`== len` before the call).
+    #[inline]
     pub(super) fn index(&mut self, unit: &[u8]) -> usize {
         let key = short_key(unit);
         let names = &self.names;

@@ -4,7 +4,7 @@
 //! `screens`.
 
 use super::action::Action;
-use super::derived::{self, ModelSettings, ModelView, SessionView};
+use super::derived::{ModelSettings, ModelView, SessionView};
 use super::follow::Follower;
 use super::input::{Input, TtyInput};
 use super::keymap::{confirm_action, editor_action, picker_action};
@@ -48,9 +48,26 @@ pub fn build_state_with_rules(
     settings: &ModelSettings,
     rules: RuleSet,
 ) -> State {
+    let mut state = start_state(subject, opts, keymap, settings, rules);
+    update::finish_startup(&mut state);
+    state
+}
+
+/// What the first frame draws and no more: the model run, every journal, the current trial's
+/// trace. [`run_loop`] completes the rest right after that frame (`update::finish_startup`);
+/// on a large session binning every trial and running the suggestion rules would otherwise
+/// hold the first frame back.
+pub fn start_state(
+    subject: Subject,
+    opts: Options,
+    keymap: Keymap,
+    settings: &ModelSettings,
+    rules: RuleSet,
+) -> State {
     let m = settings.measurement(&subject);
     let model = ModelView::build(&subject, settings, &m);
-    let obs = derived::observe_spans(&subject, &model, &m.obs);
+    // Filled by `finish_startup`; only the fit screen reads them.
+    let obs = vec![None; model.spans.len()];
     let first = subject
         .sessions
         .first()
@@ -63,7 +80,7 @@ pub fn build_state_with_rules(
         (_, false, true) => SignalKind::Photometry,
         _ => SignalKind::Licks,
     };
-    let view = SessionView::build(first, signal, None);
+    let view = SessionView::build_for(first, signal, None, Some(0));
     let n = subject.sessions.len();
     let mut state = State {
         subject,
@@ -87,16 +104,12 @@ pub fn build_state_with_rules(
         obs,
         days: Vec::new(),
         rules,
+        startup_pending: true,
         quit: false,
     };
-    if signal == SignalKind::Photometry {
-        state.sessions[0].photometry_view = Some(state.view.clone());
-    }
     for si in 0..n {
         update::reread_journal(&mut state, si);
     }
-    update::rebuild_days(&mut state);
-    update::ensure_suggestions(&mut state, 0);
     let trials: usize = state.subject.sessions.iter().map(|s| s.trials.len()).sum();
     let opening = format!(
         "{n} session(s), {trials} trials; model: {}",
@@ -165,6 +178,9 @@ where
 {
     let err = |e: &dyn std::fmt::Display| LoopError::Draw(e.to_string());
     draw(terminal, state).map_err(|e| err(&e))?;
+    if update::finish_startup(state) {
+        draw(terminal, state).map_err(|e| err(&e))?;
+    }
     let mut last_refresh = Instant::now();
     while !state.quit && !stop.load(Ordering::Relaxed) {
         let wait = REFRESH_EVERY

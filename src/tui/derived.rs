@@ -376,6 +376,8 @@ pub struct SessionView {
     pub groups: Vec<Group>,
     /// Robust range of the values (2nd and 98th percentiles) for shading.
     pub range: (f64, f64),
+    /// Only one trial's trace is built (what a first frame draws; see [`SessionView::build_for`]).
+    pub partial: bool,
 }
 
 /// Bin width of the precomputed traces; the screens resample them to their width.
@@ -385,6 +387,18 @@ pub const VIEW_PRE_S: f64 = 1.0;
 
 impl SessionView {
     pub fn build(session: &Session, signal: SignalKind, unit: Option<&str>) -> SessionView {
+        Self::build_for(session, signal, unit, None)
+    }
+
+    /// [`SessionView::build`], or with `only` one trial's trace (the others left empty, the
+    /// shading range from that trace alone): the first frame draws one trial, and binning
+    /// every trial of a large session would delay it.
+    pub fn build_for(
+        session: &Session,
+        signal: SignalKind,
+        unit: Option<&str>,
+        only: Option<usize>,
+    ) -> SessionView {
         let latest = obs::latest_reward_s(session);
         let (from_s, to_s, bin_s) = (-VIEW_PRE_S, latest + POST_S, VIEW_BIN_S);
         let licks;
@@ -419,6 +433,7 @@ impl SessionView {
                     .trials
                     .iter()
                     .enumerate()
+                    .filter(|(i, _)| only.is_none_or(|o| o == *i))
                     .filter_map(|(i, t)| obs::alignment_time(t).map(|t0| (i, t0)))
                     .collect();
                 let t0s: Vec<f64> = aligned.iter().map(|(_, t0)| *t0).collect();
@@ -440,6 +455,7 @@ impl SessionView {
             traces,
             groups: group_trials(session),
             range,
+            partial: only.is_some(),
         }
     }
 }

@@ -189,6 +189,8 @@ pub struct State {
     pub days: Vec<DayRow>,
     /// The suggestion rules in force (shipped defaults with the user's suggest.toml over them).
     pub rules: RuleSet,
+    /// The first frame's state is not complete yet (see `update::finish_startup`).
+    pub startup_pending: bool,
     pub quit: bool,
 }
 

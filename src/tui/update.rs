@@ -15,6 +15,8 @@ use crate::marks::{self, MarkKind, MarkRow};
 const JUMP: usize = 10;
 
 pub fn update(state: &mut State, action: Action) {
+    // No action ever sees the first frame's partial state.
+    finish_startup(state);
     // Quit wins in every mode (ctrl-c reaches here from the picker and the editor too);
     // everything acknowledged is already on disk.
     if action == Action::Quit {
@@ -183,7 +185,9 @@ pub fn open_session(state: &mut State, index: usize) {
     }
     rebuild_view(state);
     reread_journal(state, index);
-    ensure_suggestions(state, index);
+    if !state.startup_pending {
+        ensure_suggestions(state, index);
+    }
 }
 
 /// Run the suggestion rules over a session the first time it is opened.
@@ -198,8 +202,30 @@ pub fn ensure_suggestions(state: &mut State, session: usize) {
     }
 }
 
+/// Complete what the first frame left out: every trial's trace, the observations (fit and
+/// days screens), the session's suggestions. The loop calls it right after the first draw, and
+/// every action first, so no key meets a partial state. True if there was something to do.
+pub fn finish_startup(state: &mut State) -> bool {
+    if !state.startup_pending {
+        return false;
+    }
+    state.startup_pending = false;
+    let m = state.model.measurement.clone();
+    state.obs = derived::observe_spans(&state.subject, &state.model, &m.obs);
+    rebuild_days(state);
+    rebuild_view(state);
+    ensure_suggestions(state, state.session);
+    true
+}
+
 fn rebuild_view(state: &mut State) {
     let si = state.session;
+    if state.startup_pending {
+        let unit = state.unit_name().map(str::to_string);
+        let (session, trial) = (state.current_session(), Some(state.trial));
+        state.view = SessionView::build_for(session, state.signal, unit.as_deref(), trial);
+        return;
+    }
     if state.signal == SignalKind::Photometry {
         let cached = &mut state.sessions[si].photometry_view;
         let view = cached.get_or_insert_with(|| {

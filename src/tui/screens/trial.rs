@@ -184,6 +184,18 @@ fn render_detail(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme) {
 
 /// The trial's pending suggestion (the first by rule order, with how many more) and its keys.
 fn render_suggestion(buf: &mut Buffer, area: Rect, state: &State, theme: &Theme, trial: i64) {
+    if state.sessions[state.session].suggested.is_none() {
+        // The first frame comes before the rules have run (see `update::finish_startup`).
+        put(
+            buf,
+            area,
+            1,
+            0,
+            "suggested: checking",
+            theme.style(Role::Dim),
+        );
+        return;
+    }
     let pending = state.suggestions_of(trial);
     let Some(first) = pending.first() else {
         put(buf, area, 1, 0, "suggested: none", theme.style(Role::Dim));
